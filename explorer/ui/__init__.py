@@ -1,0 +1,1 @@
+"""Streamlit glue shared by the pages: view binding, caching by content, cautions."""
