@@ -1,0 +1,392 @@
+"""The ``rift`` command line: app, check, compute, decompose, spatial, report.
+
+Every command reads its panel through :func:`explorer.io.load_panel`, so the command line
+and the app accept exactly the same files. Problems with the input are printed one per
+line and exit with status 2; the command never shows a traceback.
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import subprocess
+import sys
+import tempfile
+from collections.abc import Sequence
+from pathlib import Path
+
+import pandas as pd
+
+from explorer.panel import DataError, Problem
+
+EXIT_OK = 0
+EXIT_FAILED = 1
+EXIT_BAD_INPUT = 2
+
+DEMO = "demo"
+
+
+# --------------------------------------------------------------------------- arguments
+
+
+def _panel_arguments(parser: argparse.ArgumentParser, *, boundaries: bool = True) -> None:
+    parser.add_argument(
+        "panel", help="panel file (CSV, Parquet, Excel), or 'demo' for the built-in province"
+    )
+    if boundaries:
+        parser.add_argument(
+            "--boundaries",
+            metavar="FILE",
+            help="district boundaries (GeoJSON, GeoPackage, zipped Shapefile, GeoParquet)",
+        )
+    parser.add_argument(
+        "--kind",
+        choices=("brackets", "units", "means"),
+        help="what the panel holds, when detection from its columns is not wanted "
+        "(with 'demo': which of the demo files)",
+    )
+    parser.add_argument(
+        "--map",
+        metavar="OURS=THEIRS,...",
+        help="rename columns on read, e.g. region=DistrictCode,year=Yr",
+    )
+    parser.add_argument("--sheet", help="Excel sheet to read (default: the first)")
+    if boundaries:
+        parser.add_argument("--layer", help="GeoPackage layer to read")
+        parser.add_argument(
+            "--boundary-id", metavar="COL", help="boundary attribute holding the district id"
+        )
+        parser.add_argument(
+            "--crs", metavar="EPSG", help="coordinate system of a boundary file that names none"
+        )
+
+
+def _out_argument(parser: argparse.ArgumentParser) -> None:
+    parser.add_argument(
+        "--out", metavar="FILE", help="write .csv or .parquet (default: CSV to standard output)"
+    )
+
+
+def build_parser() -> argparse.ArgumentParser:
+    """The argument parser of every ``rift`` command."""
+    parser = argparse.ArgumentParser(
+        prog="rift",
+        description="Regional inequality explorer: district Lorenz curves, indices, "
+        "decompositions, maps and shareable views.",
+    )
+    commands = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
+
+    app = commands.add_parser("app", help="start the app in the browser (demo data by default)")
+    app.add_argument("--data", metavar="DIR", help="workspace directory for stored datasets")
+    app.add_argument("--port", type=int, default=8501, help="port to serve on (default 8501)")
+
+    check = commands.add_parser("check", help="validate a panel and its boundaries")
+    _panel_arguments(check)
+
+    compute = commands.add_parser("compute", help="indices for every district and year")
+    _panel_arguments(compute)
+    compute.add_argument(
+        "--method",
+        default="auto",
+        help="Lorenz method(s) for grouped data, comma-separated: linear, upper, pchip, gq, "
+        "beta, quadratic, lognormal, auto (default auto)",
+    )
+    compute.add_argument(
+        "--indices", help="comma-separated index keys, e.g. gini,theil_t,atkinson_1,palma"
+    )
+    compute.add_argument("--ci", choices=("bootstrap",), help="intervals for unit data")
+    compute.add_argument("--reps", type=int, default=199, help="bootstrap replicates")
+    compute.add_argument("--seed", type=int, default=0, help="random seed")
+    compute.add_argument("--level", type=float, default=0.95, help="confidence level")
+    compute.add_argument("--fits", metavar="FILE", help="also write the fit diagnostics here")
+    _out_argument(compute)
+
+    decompose = commands.add_parser(
+        "decompose", help="inequality within and between districts and higher levels"
+    )
+    _panel_arguments(decompose)
+    decompose.add_argument(
+        "--by", default=None, help="higher level column(s), outermost first, e.g. county"
+    )
+    decompose.add_argument(
+        "--index", default="theil_t", help="theil_t, mld, ge_<alpha> or gini (default theil_t)"
+    )
+    decompose.add_argument("--method", default="auto", help="Lorenz method for grouped data")
+    decompose.add_argument("--from", dest="year_from", type=int, help="first year of a change")
+    decompose.add_argument("--to", dest="year_to", type=int, help="last year of a change")
+    _out_argument(decompose)
+
+    spatial = commands.add_parser("spatial", help="spatial clustering of an index or mean")
+    _panel_arguments(spatial)
+    spatial.add_argument("--index", default="gini", help="index key, or mean_income")
+    spatial.add_argument("--year", type=int, help="year (default: the latest)")
+    spatial.add_argument("--method", default="auto", help="Lorenz method for grouped data")
+    spatial.add_argument("--graph", choices=("queen", "rook", "knn"), default="queen")
+    spatial.add_argument("--k", type=int, default=4, help="neighbours for --graph knn")
+    spatial.add_argument("--permutations", type=int, default=999)
+    spatial.add_argument("--seed", type=int, default=0)
+    _out_argument(spatial)
+
+    report = commands.add_parser("report", help="one-file HTML report of a saved view")
+    report.add_argument("view", help="view file (.json) saved from the app")
+    report.add_argument("--out", metavar="FILE.html", required=True)
+    report.add_argument("--data", metavar="DIR", help="workspace holding the view's dataset")
+    return parser
+
+
+# --------------------------------------------------------------------------- helpers
+
+
+def _split(text: str | None) -> list[str]:
+    return [part.strip() for part in (text or "").split(",") if part.strip()]
+
+
+def _load(args: argparse.Namespace):
+    """The panel named on the command line, validated."""
+    from explorer import io
+
+    if args.panel == DEMO:
+        return io.demo_panel(args.kind or "brackets")
+    column_map = io.parse_column_map(args.map) if args.map else None
+    return io.load_panel(
+        args.panel,
+        getattr(args, "boundaries", None),
+        kind=args.kind,
+        column_map=column_map,
+        boundary_id=getattr(args, "boundary_id", None),
+        crs=getattr(args, "crs", None),
+        sheet=args.sheet,
+        layer=getattr(args, "layer", None),
+    )
+
+
+def _inputs(args: argparse.Namespace) -> set[Path]:
+    paths = set()
+    for name in ("panel", "boundaries", "view"):
+        value = getattr(args, name, None)
+        if value and value != DEMO:
+            paths.add(Path(value).resolve())
+    return paths
+
+
+def _write(table: pd.DataFrame, out: str | None, args: argparse.Namespace) -> None:
+    """Write a tidy table to ``out`` (atomically) or to standard output as CSV."""
+    if not out:
+        table.to_csv(sys.stdout, index=False)
+        return
+    target = Path(out)
+    if target.resolve() in _inputs(args):
+        raise DataError(
+            [
+                Problem(
+                    "the output file is one of the input files",
+                    fix="choose another --out name; inputs are never overwritten",
+                    file=str(out),
+                )
+            ]
+        )
+    suffix = target.suffix.lower()
+    if suffix not in (".csv", ".parquet"):
+        raise DataError(
+            [Problem("unknown output format", fix="name the file .csv or .parquet", file=out)]
+        )
+    target.parent.mkdir(parents=True, exist_ok=True)
+    handle, temporary = tempfile.mkstemp(dir=target.parent, prefix=".rift-", suffix=suffix)
+    os.close(handle)
+    try:
+        if suffix == ".csv":
+            table.to_csv(temporary, index=False)
+        else:
+            table.to_parquet(temporary, index=False)
+        os.replace(temporary, target)
+    finally:
+        if os.path.exists(temporary):
+            os.unlink(temporary)
+    print(f"wrote {len(table)} rows to {target}", file=sys.stderr)
+
+
+def _print_problems(error: DataError) -> None:
+    for problem in error.problems:
+        print(_problem_line(problem), file=sys.stderr)
+
+
+def _problem_line(problem: Problem) -> str:
+    where = [problem.file or "input"]
+    if problem.row is not None:
+        where.append(f"line {problem.row}")
+    if problem.column:
+        where.append(f"column {problem.column!r}")
+    line = f"{problem.severity}: {', '.join(where)}: {problem.message}"
+    if problem.fix:
+        line += f" — {problem.fix}"
+    return line
+
+
+# --------------------------------------------------------------------------- commands
+
+
+def run_app(args: argparse.Namespace) -> int:
+    """Start the Streamlit app on the demo (and any stored datasets)."""
+    app = Path(__file__).resolve().parent / "app.py"
+    env = dict(os.environ)
+    if args.data:
+        env["RIFT_DATA"] = str(Path(args.data).resolve())
+    command = [
+        sys.executable,
+        "-m",
+        "streamlit",
+        "run",
+        str(app),
+        "--server.port",
+        str(args.port),
+        "--server.headless",
+        "true",
+        "--browser.gatherUsageStats",
+        "false",
+    ]
+    print(f"Rift is starting on http://localhost:{args.port}  (Ctrl+C stops it)", file=sys.stderr)
+    try:
+        return subprocess.call(command, env=env, cwd=app.parent.parent)
+    except KeyboardInterrupt:
+        return EXIT_OK
+
+
+def run_check(args: argparse.Namespace) -> int:
+    """Validate and print a summary (or every problem)."""
+    panel = _load(args)
+    summary = panel.describe()
+    for key, value in summary.items():
+        print(f"{key}: {value}")
+    for problem in panel.warnings:
+        print(_problem_line(problem))
+    print("valid")
+    return EXIT_OK
+
+
+def run_compute(args: argparse.Namespace) -> int:
+    from explorer import indices
+
+    panel = _load(args)
+    methods = tuple(_split(args.method)) or ("auto",)
+    chosen = tuple(_split(args.indices)) or indices.DEFAULT_INDICES
+    table = indices.compute(
+        panel,
+        methods=methods,
+        indices=chosen,
+        ci=args.ci,
+        reps=args.reps,
+        seed=args.seed,
+        level=args.level,
+    )
+    if args.fits:
+        _write(indices.fits(panel, methods), args.fits, args)
+    _write(table, args.out, args)
+    return EXIT_OK
+
+
+def run_decompose(args: argparse.Namespace) -> int:
+    from explorer import decompose
+
+    panel = _load(args)
+    by = tuple(_split(args.by)) or tuple(panel.levels)
+    if (args.year_from is None) != (args.year_to is None):
+        raise DataError([Problem("--from and --to go together", fix="give both years, or neither")])
+    if args.year_from is not None:
+        table = decompose.change(panel, by, args.index, args.year_from, args.year_to)
+    else:
+        table = decompose.table(panel, by=by, index=args.index, method=args.method)
+    _write(table, args.out, args)
+    return EXIT_OK
+
+
+def run_spatial(args: argparse.Namespace) -> int:
+    from explorer import spatial_view
+
+    panel = _load(args)
+    result = spatial_view.for_panel(
+        panel,
+        index=args.index,
+        year=args.year,
+        method=args.method,
+        graph=args.graph,
+        k=args.k,
+        permutations=args.permutations,
+        seed=args.seed,
+    )
+    for key, value in result.summary.items():
+        print(f"{key}: {value}", file=sys.stderr)
+    _write(result.districts, args.out, args)
+    return EXIT_OK
+
+
+def run_report(args: argparse.Namespace) -> int:
+    from explorer import briefing, views
+
+    view_path = Path(args.view)
+    try:
+        text = view_path.read_text(encoding="utf-8")
+    except (OSError, UnicodeDecodeError) as error:
+        raise DataError(
+            [
+                Problem(
+                    f"cannot read the view file: {error}",
+                    fix="save a view from the app",
+                    file=str(view_path),
+                )
+            ]
+        ) from None
+    view, notices = views.from_json(text)
+    for notice in notices:
+        print(f"note: {notice}", file=sys.stderr)
+    out = Path(args.out)
+    if out.resolve() in _inputs(args):
+        raise DataError(
+            [
+                Problem(
+                    "the report would overwrite the view file",
+                    file=str(out),
+                    fix="choose another --out name",
+                )
+            ]
+        )
+    html = briefing.report_for_view(view, data_dir=args.data)
+    out.parent.mkdir(parents=True, exist_ok=True)
+    temporary = out.with_name(f".{out.name}.part")
+    temporary.write_text(html, encoding="utf-8")
+    os.replace(temporary, out)
+    print(f"wrote {out} ({len(html.encode()) // 1024} KB)", file=sys.stderr)
+    return EXIT_OK
+
+
+COMMANDS = {
+    "app": run_app,
+    "check": run_check,
+    "compute": run_compute,
+    "decompose": run_decompose,
+    "spatial": run_spatial,
+    "report": run_report,
+}
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Entry point of the ``rift`` console script."""
+    args = build_parser().parse_args(argv)
+    try:
+        return COMMANDS[args.command](args)
+    except DataError as error:
+        _print_problems(error)
+        print(f"{len(error.problems)} problem(s); nothing was written.", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    except (ValueError, KeyError) as error:
+        # Options that name an unknown index, method or level end here.
+        print(f"error: {error}", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    except BrokenPipeError:
+        return EXIT_OK
+    except Exception as error:  # noqa: BLE001 — the command line never shows a traceback
+        print(f"error: {type(error).__name__}: {error}", file=sys.stderr)
+        return EXIT_FAILED
+
+
+if __name__ == "__main__":
+    sys.exit(main())
