@@ -171,6 +171,9 @@ def _inputs(args: argparse.Namespace) -> set[Path]:
 
 def _write(table: pd.DataFrame, out: str | None, args: argparse.Namespace) -> None:
     """Write a tidy table to ``out`` (atomically) or to standard output as CSV."""
+    # attrs may carry side tables (e.g. excluded district-years) that Parquet cannot store.
+    table = table.copy(deep=False)
+    table.attrs = {}
     if not out:
         table.to_csv(sys.stdout, index=False)
         return
@@ -251,12 +254,44 @@ def run_app(args: argparse.Namespace) -> int:
         return EXIT_OK
 
 
+def summary_lines(summary: dict) -> list[str]:
+    """The summary of :meth:`Panel.describe` as readable lines."""
+    years = summary.get("years") or {}
+    lines = [
+        f"kind: {summary['kind']}",
+        f"districts: {summary['districts']} ({summary['district_years']} district-years)",
+        f"years: {years.get('first')}-{years.get('last')} ({years.get('count')} years)",
+    ]
+    for part in ("brackets", "units"):
+        sizes = summary.get(part)
+        if sizes:
+            lines.append(f"{part} per district-year: {sizes['min']}-{sizes['max']}")
+    levels = summary.get("levels") or {}
+    found = ", ".join(f"{name} ({count} groups)" for name, count in levels.items())
+    lines.append(f"higher levels: {found or 'none found'}")
+    bounds = summary.get("boundaries")
+    if bounds is None:
+        lines.append("boundaries: none given")
+    else:
+        lines.append(f"boundaries: {bounds['matched']} districts matched")
+        for side, label in (
+            ("panel_only", "in the panel only"),
+            ("boundary_only", "in the boundaries only"),
+        ):
+            if bounds[side]:
+                shown = ", ".join(bounds[side][:10]) + (" ..." if len(bounds[side]) > 10 else "")
+                lines.append(f"  {label}: {shown}")
+    lines.append(f"set aside: {summary['excluded']} district-years")
+    lines.append(f"warnings: {summary['warnings']}")
+    lines.append(f"fingerprint: {summary['fingerprint']}")
+    return lines
+
+
 def run_check(args: argparse.Namespace) -> int:
     """Validate and print a summary (or every problem)."""
     panel = _load(args)
-    summary = panel.describe()
-    for key, value in summary.items():
-        print(f"{key}: {value}")
+    for line in summary_lines(panel.describe()):
+        print(line)
     for problem in panel.warnings:
         print(_problem_line(problem))
     print("valid")

@@ -1,0 +1,155 @@
+"""The ``rift`` command line: exit codes, outputs, and that inputs are never overwritten."""
+
+from __future__ import annotations
+
+import hashlib
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from explorer import cli, io
+
+BAD = Path(__file__).parent / "data" / "bad"
+
+
+def run(capsys, *argv: str) -> tuple[int, str, str]:
+    code = cli.main(list(argv))
+    captured = capsys.readouterr()
+    return code, captured.out, captured.err
+
+
+def test_check_demo_reports_the_province_and_exits_zero(capsys):
+    code, out, _ = run(capsys, "check", "demo")
+    assert code == 0
+    panel = io.demo_panel()
+    assert f"districts: {len(panel.regions)}" in out
+    assert "higher levels: county" in out
+    assert f"boundaries: {len(panel.regions)} districts matched" in out
+    assert out.strip().endswith("valid")
+
+
+def test_check_bad_file_exits_two_and_names_the_problem(capsys):
+    code, _, err = run(capsys, "check", str(BAD / "shares_above_one.csv"))
+    assert code == 2
+    assert "shares_above_one.csv" in err
+    assert "nothing was written" in err
+
+
+def test_check_reads_a_column_map(tmp_path, capsys):
+    demo = pd.read_csv(io.demo_paths("means")[0])
+    renamed = demo.rename(columns={"region": "DistrictCode", "year": "Yr"})
+    path = tmp_path / "renamed.csv"
+    renamed.to_csv(path, index=False)
+    code, out, _ = run(capsys, "check", str(path), "--map", "region=DistrictCode,year=Yr")
+    assert code == 0
+    assert "kind: means" in out
+
+
+def test_compute_writes_the_tidy_table_with_bounds(tmp_path, capsys):
+    out = tmp_path / "indices.csv"
+    code, _, _ = run(
+        capsys,
+        "compute",
+        "demo",
+        "--method",
+        "auto,linear",
+        "--indices",
+        "gini,theil_t",
+        "--out",
+        str(out),
+    )
+    assert code == 0
+    table = pd.read_csv(out, keep_default_na=False, na_values=[""])
+    assert list(table.columns[:7]) == [
+        "region",
+        "year",
+        "index",
+        "value",
+        "lower",
+        "upper",
+        "method",
+    ]
+    assert set(table["method"]) == {"auto", "linear"}
+    gini = table[(table["index"] == "gini") & (table["method"] == "auto")]
+    # Gastwirth (1972): every Lorenz-consistent curve's Gini lies between the bounds.
+    assert (gini["lower"] <= gini["value"] + 1e-12).all()
+    assert (gini["value"] <= gini["upper"] + 1e-12).all()
+    # The linear method's value is the lower bound itself.
+    linear = table[(table["index"] == "gini") & (table["method"] == "linear")]
+    assert np.allclose(linear["value"], linear["lower"])
+
+
+def test_compute_to_stdout_parses_as_csv(capsys):
+    code, out, _ = run(capsys, "compute", "demo", "--kind", "means", "--indices", "gini")
+    assert code == 0
+    lines = out.strip().splitlines()
+    assert lines[0].startswith("region,year,index,value")
+    assert len(lines) > 1
+
+
+def test_compute_refuses_to_overwrite_its_input(tmp_path, capsys):
+    source = io.demo_paths("means")[0]
+    copy = tmp_path / "means.csv"
+    copy.write_bytes(source.read_bytes())
+    before = hashlib.sha256(copy.read_bytes()).hexdigest()
+    code, _, err = run(capsys, "compute", str(copy), "--out", str(copy))
+    assert code == 2
+    assert "inputs are never overwritten" in err
+    assert hashlib.sha256(copy.read_bytes()).hexdigest() == before
+
+
+def test_unknown_index_is_an_input_error_not_a_traceback(capsys):
+    code, _, err = run(capsys, "compute", "demo", "--indices", "nonsense")
+    assert code == 2
+    assert "Traceback" not in err
+
+
+def test_decompose_components_add_up_to_the_total(tmp_path, capsys):
+    out = tmp_path / "parts.parquet"
+    code, _, _ = run(
+        capsys, "decompose", "demo", "--by", "county", "--index", "theil_t", "--out", str(out)
+    )
+    assert code == 0
+    parts = pd.read_parquet(out)
+    everyone = parts[parts["group"] == "(all)"]
+    for year, rows in everyone.groupby("year"):
+        total = rows.loc[rows["component"] == "total", "value"].iloc[0]
+        others = rows.loc[rows["component"] != "total", "value"].sum()
+        # Shorrocks (1980): the GE split is exact.
+        assert others == pytest.approx(total, abs=1e-9), year
+
+
+def test_decompose_change_needs_both_years(capsys):
+    code, _, err = run(capsys, "decompose", "demo", "--from", "2010")
+    assert code == 2
+    assert "--from and --to" in err
+
+
+def test_spatial_writes_one_row_per_district(tmp_path, capsys):
+    out = tmp_path / "clusters.csv"
+    code, _, err = run(
+        capsys,
+        "spatial",
+        "demo",
+        "--index",
+        "mean_income",
+        "--year",
+        "2020",
+        "--permutations",
+        "99",
+        "--out",
+        str(out),
+    )
+    assert code == 0
+    table = pd.read_csv(out)
+    assert len(table) == len(io.demo_panel().regions)
+    assert set(table["cluster"]) <= {
+        "high-high",
+        "low-low",
+        "high-low",
+        "low-high",
+        "not significant",
+    }
+    assert "moran_i:" in err
