@@ -51,6 +51,12 @@ def _panel_arguments(parser: argparse.ArgumentParser, *, boundaries: bool = True
         help="rename columns on read, e.g. region=DistrictCode,year=Yr",
     )
     parser.add_argument("--sheet", help="Excel sheet to read (default: the first)")
+    parser.add_argument(
+        "--allow-negative",
+        action="store_true",
+        help="accept negative incomes in unit records (losses); indices undefined for them "
+        "say so",
+    )
     if boundaries:
         parser.add_argument("--layer", help="GeoPackage layer to read")
         parser.add_argument(
@@ -157,6 +163,7 @@ def _load(args: argparse.Namespace):
         crs=getattr(args, "crs", None),
         sheet=args.sheet,
         layer=getattr(args, "layer", None),
+        allow_negative=args.allow_negative,
     )
 
 
