@@ -109,7 +109,10 @@ def for_panel(
         ordered, neighbours, permutations=permutations, seed=seed, alpha=alpha
     )
     districts.insert(1, "year", chosen)
-    left_out = sorted(set(values.index) - set(ordered.index))
+    # Districts of the panel with a boundary but no finite value this year: excluded
+    # district-years, undefined indices, or a year missing for them.
+    mapped = set(panel.regions) & set(panel.boundaries["region"])
+    left_out = sorted(mapped - set(ordered.index))
     summary = {
         "variable": index,
         "year": chosen,
