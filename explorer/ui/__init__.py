@@ -1,1 +1,75 @@
-"""Streamlit glue shared by the pages: view binding, caching by content, cautions."""
+"""Streamlit glue shared by the pages: view binding, caching by content, cautions.
+
+Pages import this package as ``ui`` and use only what is re-exported here.
+"""
+
+from explorer.ui.data import (
+    DEMO_DATASETS,
+    add_upload,
+    breakdown,
+    catalog,
+    change,
+    clusters,
+    district_means,
+    fits,
+    indices,
+    lorenz_curves,
+    map_features,
+    open_dataset,
+    scope_of,
+    uploads,
+    workspace,
+)
+from explorer.ui.show import cautions, downloads, guard, problems, table, table_bytes
+from explorer.ui.state import (
+    INDEX_LABELS,
+    METHOD_LABELS,
+    Here,
+    control,
+    current_view,
+    here,
+    index_label,
+    known,
+    method_label,
+    panel,
+    publish,
+    show_notices,
+    update,
+)
+
+__all__ = [
+    "Here",
+    "INDEX_LABELS",
+    "METHOD_LABELS",
+    "here",
+    "known",
+    "panel",
+    "DEMO_DATASETS",
+    "add_upload",
+    "breakdown",
+    "catalog",
+    "cautions",
+    "change",
+    "clusters",
+    "control",
+    "current_view",
+    "district_means",
+    "downloads",
+    "fits",
+    "guard",
+    "index_label",
+    "indices",
+    "lorenz_curves",
+    "map_features",
+    "method_label",
+    "open_dataset",
+    "problems",
+    "publish",
+    "scope_of",
+    "show_notices",
+    "table",
+    "table_bytes",
+    "update",
+    "uploads",
+    "workspace",
+]

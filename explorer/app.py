@@ -1,0 +1,48 @@
+"""The Streamlit entrypoint: page set-up, navigation over pages/, the shared sidebar.
+
+Run with ``rift app`` (or ``streamlit run explorer/app.py``). The data folder for saved
+datasets comes from the ``RIFT_DATA`` environment variable; without one the demo province
+and the user's default data folder are used.
+"""
+
+from __future__ import annotations
+
+import streamlit as st
+
+from explorer import ui
+from explorer.panel import DataError
+from explorer.ui import layout, show, state
+
+
+def main() -> None:
+    """Draw the sidebar and run the chosen page, never showing a traceback."""
+    st.set_page_config(page_title="Rift", page_icon=":material/landscape:", layout="wide")
+    pages = {
+        name: st.Page(layout.page_path(name), title=title, icon=icon, url_path=name)
+        for name, (_, title, icon) in layout.PAGE_FILES.items()
+    }
+    current = st.navigation(list(pages.values()))
+    page_name = next(
+        name for name, (_, title, _) in layout.PAGE_FILES.items() if title == current.title
+    )
+    try:
+        catalog = ui.catalog()
+        state.start(catalog)
+        state.update(page=page_name)
+        state.sidebar(catalog, state.panel())
+    except DataError as error:
+        ui.problems(error, heading="The dataset could not be opened")
+        st.stop()
+    except Exception as error:  # the app must still come up, with a plain message
+        show.LOG.exception("while opening the view")  # the details go to the server's log
+        st.error(f"Rift could not open this view ({type(error).__name__}).")
+        st.stop()
+    ui.show_notices()
+    # Callbacks have already updated the view before this run: publish it now, so a page
+    # that stops early still leaves the address bar pointing at what is on screen.
+    ui.publish()
+    with ui.guard(layout.PAGE_FILES[page_name][1]):
+        current.run()
+
+
+main()

@@ -1,0 +1,171 @@
+"""Shared pieces every page draws: cautions, problem tables, downloads, plain-language errors."""
+
+from __future__ import annotations
+
+import io
+import json
+import logging
+import re
+from collections.abc import Iterator
+from contextlib import contextmanager
+from typing import Any
+
+import pandas as pd
+import streamlit as st
+
+from explorer.panel import DataError
+
+LOG = logging.getLogger("rift")
+
+_FALLBACK_CAUTIONS = (
+    "Indices from grouped shares are approximations: read them with their bounds.",
+    "Compare districts only when they use the same income concept and the same unit "
+    "(person or household).",
+    "Small samples make district figures noisy: look at the intervals.",
+    "An index alone should not decide an allocation of funds: follow the office's own "
+    "rules and the statistics law.",
+)
+
+
+def caution_texts(panel: Any, *, ranking: bool = False, wide_intervals: int = 0) -> list[str]:
+    """The cautions that apply to what is shown (from explorer.cautions)."""
+    try:
+        from explorer import cautions as caution_rules
+    except ImportError:
+        return list(_FALLBACK_CAUTIONS)
+    return list(
+        caution_rules.for_view(
+            panel.kind,
+            ranking=ranking,
+            wide_intervals=wide_intervals,
+            income_concept=getattr(panel, "income_concept", None),
+        )
+    )
+
+
+def cautions(panel: Any, *, ranking: bool = False, wide_intervals: int = 0) -> list[str]:
+    """Draw the cautions box for what the page shows and return the cautions drawn."""
+    items = caution_texts(panel, ranking=ranking, wide_intervals=wide_intervals)
+    if items:
+        with st.container(border=True, key="cautions_box"):
+            st.markdown("**Read with care**")
+            st.markdown("\n".join(f"- {item}" for item in items))
+    return items
+
+
+def table(frame: pd.DataFrame, key: str, **kwargs: Any) -> None:
+    """A table in a keyed container, so tests and styles can find it by name."""
+    with st.container(key=key):
+        st.dataframe(frame, hide_index=kwargs.pop("hide_index", True), **kwargs)
+
+
+def problems(error: DataError, *, heading: str = "The data could not be used") -> None:
+    """Show every problem of a DataError as a table a planner can work through."""
+    st.error(f"{heading}: {len(error.problems)} problem(s) found. Fix them and try again.")
+    table(error.table(), "problems_table", width="stretch")
+
+
+@contextmanager
+def guard(what: str = "this page") -> Iterator[None]:
+    """Turn DataError into its problem table and anything else into a plain message."""
+    try:
+        yield
+    except DataError as error:
+        problems(error)
+    except Exception as error:  # page level: never a traceback in front of the user
+        LOG.exception("while drawing %s", what)  # the details go to the server's log
+        st.error(
+            f"Something went wrong while drawing {what} ({type(error).__name__}). "
+            "Try another choice in the sidebar; if it persists, check the data on the "
+            "Intake page."
+        )
+
+
+def slug(text: str) -> str:
+    """A file-name-safe version of a label."""
+    cleaned = re.sub(r"[^A-Za-z0-9._-]+", "-", str(text)).strip("-.")
+    return cleaned[:80] or "rift"
+
+
+def table_bytes(table: pd.DataFrame, fmt: str) -> bytes:
+    """A table as CSV or Parquet bytes."""
+    if fmt == "csv":
+        return table.to_csv(index=False).encode("utf-8")
+    buffer = io.BytesIO()
+    table.to_parquet(buffer, index=False)
+    return buffer.getvalue()
+
+
+def table_downloads(table: pd.DataFrame, name: str, *, key: str) -> None:
+    """CSV and Parquet buttons for the table behind a chart."""
+    left, right = st.columns(2)
+    left.download_button(
+        "Table (CSV)",
+        table_bytes(table, "csv"),
+        file_name=f"{slug(name)}.csv",
+        mime="text/csv",
+        key=f"{key}_csv",
+        on_click="ignore",
+    )
+    right.download_button(
+        "Table (Parquet)",
+        lambda: table_bytes(table, "parquet"),
+        file_name=f"{slug(name)}.parquet",
+        mime="application/vnd.apache.parquet",
+        key=f"{key}_parquet",
+        on_click="ignore",
+    )
+
+
+def chart_downloads(chart: Any, name: str, *, key: str) -> None:
+    """PNG and SVG of a chart, rendered offline on request."""
+    from explorer import charts
+
+    left, right = st.columns(2)
+    left.download_button(
+        "Chart (PNG)",
+        lambda: charts.to_png(chart),
+        file_name=f"{slug(name)}.png",
+        mime="image/png",
+        key=f"{key}_png",
+        on_click="ignore",
+    )
+    right.download_button(
+        "Chart (SVG)",
+        lambda: charts.to_svg(chart).encode("utf-8"),
+        file_name=f"{slug(name)}.svg",
+        mime="image/svg+xml",
+        key=f"{key}_svg",
+        on_click="ignore",
+    )
+
+
+def geojson_download(features: list[dict[str, Any]], name: str, *, key: str) -> None:
+    """The map layer as a GeoJSON FeatureCollection."""
+    collection = {"type": "FeatureCollection", "features": features}
+    st.download_button(
+        "Map layer (GeoJSON)",
+        lambda: json.dumps(collection).encode("utf-8"),
+        file_name=f"{slug(name)}.geojson",
+        mime="application/geo+json",
+        key=f"{key}_geojson",
+        on_click="ignore",
+    )
+
+
+def downloads(
+    name: str,
+    *,
+    key: str,
+    table: pd.DataFrame | None = None,
+    chart: Any = None,
+    features: list[dict[str, Any]] | None = None,
+) -> None:
+    """Every download for one chart, tucked in an expander."""
+    with st.expander(f"Download: {name}"):
+        if table is not None:
+            table_downloads(table, name, key=key)
+        if chart is not None:
+            chart_downloads(chart, name, key=key)
+        if features is not None:
+            geojson_download(features, name, key=key)

@@ -1,0 +1,347 @@
+"""The one shared view: read from the URL once, kept in the session, written back to the URL.
+
+The view (``explorer.views.ViewState``) is the single source of truth. On a session's first
+run the URL's query is parsed by ``views.from_query`` before any widget exists; bad values
+fall back to defaults and their notices are shown. Every control is seeded from the view and
+writes its value back through an ``on_change`` callback, so a choice survives page switches.
+At the end of each run the URL is set to ``view.to_query()``, so the address bar always holds
+a link to exactly what is on screen, in the one link format the report and view files use.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+from collections.abc import Callable, Sequence
+from typing import Any
+
+import streamlit as st
+
+from explorer import views
+from explorer.ui import data
+
+VIEW = "rift_view"
+NOTICES = "rift_notices"
+PANEL = "rift_panel"
+
+INDEX_LABELS: dict[str, str] = {
+    "gini": "Gini coefficient",
+    "theil_t": "Theil T",
+    "mld": "Mean log deviation (Theil L)",
+    "ge_2": "Generalised entropy GE(2)",
+    "atkinson_0.5": "Atkinson (ε = 0.5)",
+    "atkinson_1": "Atkinson (ε = 1)",
+    "atkinson_2": "Atkinson (ε = 2)",
+    "cv": "Coefficient of variation",
+    "palma": "Palma ratio (top 10 % / bottom 40 %)",
+    "s80_s20": "S80/S20 quintile share ratio",
+    "top10_share": "Income share of the top 10 %",
+    "bottom40_share": "Income share of the bottom 40 %",
+}
+METHOD_LABELS: dict[str, str] = {
+    "auto": "Best fitting curve (automatic)",
+    "linear": "Straight lines between points (lower bound)",
+    "upper": "Steepest convex curve (upper bound)",
+    "pchip": "Smooth monotone interpolation",
+    "gq": "General quadratic curve",
+    "beta": "Beta curve",
+    "quadratic": "Simple quadratic curve",
+    "lognormal": "Lognormal curve",
+}
+DECOMPOSABLE = ("theil_t", "mld", "ge_2", "gini")
+
+
+def index_label(key: str) -> str:
+    """A planner's name for an index key."""
+    return INDEX_LABELS.get(key, key)
+
+
+def method_label(key: str) -> str:
+    """A planner's name for a Lorenz method key."""
+    return METHOD_LABELS.get(key, key)
+
+
+def known(panel: Any, catalog: Sequence[data.Dataset]) -> dict[str, Any]:
+    """The valid choices a view may hold for this panel (fed to views.from_query)."""
+    choices: dict[str, Any] = {"datasets": tuple(d.id for d in catalog)}
+    if panel is not None:
+        choices.update(
+            years=tuple(int(y) for y in panel.years),
+            districts=tuple(str(r) for r in panel.regions),
+            levels=tuple(panel.levels),
+            counties=tuple(_counties(panel)),
+            indices=tuple(INDEX_LABELS),
+            methods=tuple(METHOD_LABELS) if panel.kind == "brackets" else ("auto",),
+            decomposition_indices=DECOMPOSABLE,
+        )
+    return choices
+
+
+def _counties(panel: Any) -> list[str]:
+    if not panel.levels:
+        return []
+    return sorted(str(v) for v in panel.hierarchy[panel.levels[-1]].dropna().unique())
+
+
+def _parse(params: dict[str, Any], choices: dict[str, Any]):
+    return views.from_query(params, known=choices)
+
+
+def _query_dict() -> dict[str, Any]:
+    query = st.query_params
+    return {
+        key: (query.get_all(key) if len(query.get_all(key)) > 1 else query[key]) for key in query
+    }
+
+
+def start(catalog: Sequence[data.Dataset]):
+    """Return the session's view and panel, reading the URL on the session's first run.
+
+    The panel is opened here so that the year and district choices are known before the
+    controls are drawn.
+    """
+    if VIEW not in st.session_state:
+        params = _query_dict()
+        view, notices = _parse(params, known(None, catalog))
+        panel, opened = _open_or_demo(view.dataset, notices)
+        view, more = _parse(params, known(panel, catalog))
+        st.session_state[NOTICES] = list(dict.fromkeys([*notices, *more]))
+        st.session_state[VIEW] = _settle(dataclasses.replace(view, dataset=opened), panel)
+    view = st.session_state[VIEW]
+    panel, opened = _open_or_demo(view.dataset, st.session_state.setdefault(NOTICES, []))
+    view = _settle(dataclasses.replace(view, dataset=opened), panel)
+    st.session_state[VIEW] = view
+    st.session_state[PANEL] = panel
+    return view, panel
+
+
+def panel():
+    """The panel of the current view (opened by ``start`` on this run)."""
+    return st.session_state[PANEL]
+
+
+def _open_or_demo(dataset_id: str, notices: list[str]) -> tuple[Any, str]:
+    """The dataset's panel and id, or the demo's (with a notice) if it cannot be opened."""
+    from explorer.panel import DataError
+
+    try:
+        return data.open_dataset(dataset_id), dataset_id
+    except (DataError, KeyError, FileNotFoundError, OSError) as error:
+        notices.append(
+            f"The dataset '{dataset_id}' could not be opened ({_short(error)}); "
+            "showing the demo province instead."
+        )
+        return data.open_dataset("demo"), "demo"
+
+
+def _short(error: Exception) -> str:
+    text = str(error).strip().splitlines()
+    return text[0][:160] if text else type(error).__name__
+
+
+def _settle(view: Any, panel: Any):
+    """Make the view consistent with the panel: a year it has, districts it knows."""
+    years = [int(y) for y in panel.years]
+    changes: dict[str, Any] = {}
+    if view.year not in years:
+        changes["year"] = years[-1]
+    if view.year_from not in years:
+        changes["year_from"] = years[0]
+    if view.year_to not in years:
+        changes["year_to"] = years[-1]
+    regions = set(map(str, panel.regions))
+    kept = tuple(d for d in view.districts if d in regions)
+    if kept != tuple(view.districts):
+        changes["districts"] = kept
+    if panel.kind != "brackets" and view.method != "auto":
+        changes["method"] = "auto"
+    if view.level is not None and view.level not in panel.levels:
+        changes["level"] = None
+    return dataclasses.replace(view, **changes) if changes else view
+
+
+def current_view():
+    """The shared view of this session."""
+    return st.session_state[VIEW]
+
+
+def update(**changes: Any):
+    """Change fields of the shared view and return the new view.
+
+    A year range that would run backwards is closed up on the side just changed.
+    """
+    old = st.session_state[VIEW]
+    start = changes.get("year_from", old.year_from)
+    end = changes.get("year_to", old.year_to)
+    if start is not None and end is not None and start > end:
+        if "year_from" in changes:
+            changes["year_to"] = start
+        else:
+            changes["year_from"] = end
+    view = dataclasses.replace(old, **changes)
+    st.session_state[VIEW] = view
+    return view
+
+
+def control(
+    field: str,
+    widget: Callable[..., Any],
+    label: str,
+    *args: Any,
+    to_view: Callable[[Any], Any] = lambda value: value,
+    from_view: Callable[[Any], Any] = lambda value: value,
+    **kwargs: Any,
+) -> Any:
+    """Draw a widget bound to one field of the view (seeded from it, writing back to it)."""
+    key = f"ctl_{field}"
+    wanted = from_view(getattr(current_view(), field))
+    if st.session_state.get(key, _MISSING) != wanted:
+        st.session_state[key] = wanted
+
+    def _write_back() -> None:
+        update(**{field: to_view(st.session_state[key])})
+
+    widget(label, *args, key=key, on_change=_write_back, **kwargs)
+    return getattr(current_view(), field)
+
+
+_MISSING = object()
+
+
+def show_notices() -> None:
+    """Show the notices about bad URL values once, then forget them."""
+    notices = st.session_state.get(NOTICES) or []
+    if notices:
+        st.warning(
+            "Some parts of the link could not be used and were reset to defaults:\n\n"
+            + "\n".join(f"- {n}" for n in notices),
+            icon="⚠️",
+        )
+        st.session_state[NOTICES] = []
+
+
+def publish(page: str | None = None) -> None:
+    """Write the view back into the address bar (the link to exactly this view)."""
+    view = current_view()
+    if page is not None and getattr(view, "page", page) != page:
+        view = update(page=page)
+    # The page is already in the address's path; keep it out of the query.
+    page_key = views.QUERY_KEYS.get("page")
+    query = {k: v for k, v in view.to_query().items() if k != page_key}
+    if _query_dict() != query:
+        st.query_params.from_dict(query)
+
+
+def sidebar(catalog: Sequence[data.Dataset], panel: Any) -> None:
+    """The shared controls: dataset, index, Lorenz method, year."""
+    labels = {d.id: d.label for d in catalog}
+    with st.sidebar:
+        st.markdown("### What to show")
+        control(
+            "dataset",
+            st.selectbox,
+            "Dataset",
+            list(labels),
+            format_func=lambda key: labels.get(key, key),
+            help="The demo province, datasets saved in the shared workspace, or files "
+            "uploaded in this browser session on the Intake page.",
+        )
+        control(
+            "index",
+            st.selectbox,
+            "Inequality index",
+            list(INDEX_LABELS),
+            format_func=index_label,
+        )
+        if panel.kind == "brackets":
+            control(
+                "method",
+                st.selectbox,
+                "Lorenz curve from the shares",
+                list(METHOD_LABELS),
+                format_func=method_label,
+                help="How each district's Lorenz curve is rebuilt from its income shares. "
+                "The bounds (lower/upper) are always shown beside the value.",
+            )
+        elif panel.kind == "units":
+            st.toggle(
+                "Sampling intervals (bootstrap)",
+                key="ctl_bootstrap",
+                help="Resamples the households 199 times to show how much each district's "
+                "figure could move with another sample. Takes a little while the first time.",
+            )
+        else:
+            st.caption(
+                "Unit records: indices come straight from the records."
+                if panel.kind == "units"
+                else "District means only: the figures are inequality between districts."
+            )
+        years = [int(y) for y in panel.years]
+        control("year", st.select_slider if len(years) > 1 else st.selectbox, "Year", years)
+
+
+@dataclasses.dataclass(frozen=True)
+class Here:
+    """What a page works on: the view, its panel and the panel's cache scope.
+
+    The methods call the cached computations with the panel's fingerprint and scope, so a
+    page never builds a cache key itself.
+    """
+
+    view: Any
+    panel: Any
+    scope: str
+
+    @property
+    def fingerprint(self) -> str:
+        return self.panel.fingerprint
+
+    def indices(self, *, method: str | None = None, ci: str | None = None):
+        if ci is None and self.panel.kind == "units" and st.session_state.get("ctl_bootstrap"):
+            ci = "bootstrap"
+        return data.indices(
+            self.panel, self.fingerprint, self.scope, method or self.view.method, ci
+        )
+
+    def fits(self, methods: Sequence[str]):
+        return data.fits(self.panel, self.fingerprint, self.scope, tuple(methods))
+
+    def breakdown(self, by: Sequence[str], index: str):
+        return data.breakdown(
+            self.panel, self.fingerprint, self.scope, tuple(by), index, self.view.method
+        )
+
+    def change(self, by: Sequence[str], index: str, year_from: int, year_to: int):
+        return data.change(
+            self.panel, self.fingerprint, self.scope, tuple(by), index, year_from, year_to
+        )
+
+    def lorenz_curves(self, region: str, year: int, methods: Sequence[str]):
+        return data.lorenz_curves(
+            self.panel, self.fingerprint, self.scope, region, int(year), tuple(methods)
+        )
+
+    def clusters(self, values, *, permutations: int = 499):
+        return data.clusters(self.panel, self.fingerprint, self.scope, values, permutations)
+
+    def choropleth(self, values, *, value_label, classes, title, caption, selected):
+        spec = data.choropleth_spec(
+            self.panel,
+            self.fingerprint,
+            self.scope,
+            values,
+            value_label,
+            tuple(classes),
+            title,
+            caption,
+            tuple(selected),
+        )
+        return data.ChartSpec(spec)
+
+    def map_features(self, values):
+        return data.map_features(self.panel, self.fingerprint, self.scope, values)
+
+
+def here() -> Here:
+    """The view, panel and cache scope of this run."""
+    view = current_view()
+    return Here(view=view, panel=panel(), scope=data.scope_of(view.dataset))

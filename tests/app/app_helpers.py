@@ -1,0 +1,54 @@
+"""Helpers for AppTest runs of the app on the demo province."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+from streamlit.testing.v1 import AppTest
+
+ROOT = Path(__file__).resolve().parents[2]
+APP = ROOT / "explorer" / "app.py"
+PAGES = ROOT / "pages"
+
+
+def page(name: str) -> str:
+    """Absolute path of a page script, as AppTest.switch_page expects for st.navigation."""
+    return str(PAGES / f"{name}.py")
+
+
+def run(at: AppTest) -> AppTest:
+    """Run and fail loudly with the app's own exception text if a page raised."""
+    at.run()
+    assert not at.exception, [e.value for e in at.exception]
+    return at
+
+
+def view(at: AppTest):
+    """The session's shared view."""
+    return at.session_state["rift_view"]
+
+
+def dataframe(at: AppTest, key: str):
+    """The DataFrame of the table shown in the container with this key."""
+    for block in at.get("flex_container"):
+        if getattr(block, "key", None) == key:
+            tables = [c for c in _walk(block) if c.type == "dataframe"]
+            assert tables, f"container {key!r} holds no table"
+            return tables[0].value
+    raise AssertionError(f"no table {key!r} on the page")
+
+
+def tables(at: AppTest) -> list:
+    """Every DataFrame shown on the page."""
+    return [d.value for d in at.get("dataframe")]
+
+
+def charts(at: AppTest) -> list:
+    """Every Vega-Lite chart element on the page."""
+    return list(at.get("vega_lite_chart"))
+
+
+def _walk(node):
+    for child in getattr(node, "children", {}).values():
+        yield child
+        yield from _walk(child)

@@ -1,0 +1,102 @@
+"""A real Rift server and headless Debian Chromium for the browser tests."""
+
+from __future__ import annotations
+
+import os
+import socket
+import subprocess
+import sys
+import time
+import urllib.request
+from pathlib import Path
+
+import pytest
+
+ROOT = Path(__file__).resolve().parents[2]
+CHROMIUM = Path("/usr/bin/chromium")
+CHROMIUM_ARGS = [
+    "--no-sandbox",
+    "--disable-gpu",
+    "--disable-background-networking",
+    "--disable-component-update",
+    "--disable-sync",
+    "--no-first-run",
+]
+
+
+def _free_port() -> int:
+    with socket.socket() as sock:
+        sock.bind(("127.0.0.1", 0))
+        return sock.getsockname()[1]
+
+
+@pytest.fixture(scope="session")
+def server(tmp_path_factory):
+    """Start ``streamlit run explorer/app.py`` on a free port; stop it at the end."""
+    if not CHROMIUM.exists():
+        pytest.skip(
+            "browser tests need Debian's Chromium at /usr/bin/chromium (apt-get install chromium)"
+        )
+    port = _free_port()
+    workspace = tmp_path_factory.mktemp("workspace")
+    log = (tmp_path_factory.mktemp("server") / "server.log").open("w")
+    env = {**os.environ, "RIFT_DATA": str(workspace)}
+    process = subprocess.Popen(
+        [
+            sys.executable,
+            "-m",
+            "streamlit",
+            "run",
+            str(ROOT / "explorer" / "app.py"),
+            "--server.port",
+            str(port),
+            "--server.headless",
+            "true",
+            "--server.address",
+            "127.0.0.1",
+            "--browser.gatherUsageStats",
+            "false",
+        ],
+        cwd=ROOT,
+        env=env,
+        stdout=log,
+        stderr=subprocess.STDOUT,
+    )
+    base = f"http://127.0.0.1:{port}"
+    deadline = time.monotonic() + 60
+    while time.monotonic() < deadline:
+        try:
+            with urllib.request.urlopen(f"{base}/_stcore/health", timeout=2) as reply:
+                if reply.status == 200:
+                    break
+        except OSError:
+            time.sleep(0.3)
+    else:
+        process.terminate()
+        pytest.fail("the Rift server did not start within 60 s")
+    yield base
+    process.terminate()
+    try:
+        process.wait(timeout=15)
+    except subprocess.TimeoutExpired:
+        process.kill()
+    log.close()
+
+
+@pytest.fixture(scope="session")
+def browser(server):
+    from playwright.sync_api import sync_playwright
+
+    with sync_playwright() as playwright:
+        chromium = playwright.chromium.launch(executable_path=str(CHROMIUM), args=CHROMIUM_ARGS)
+        yield chromium
+        chromium.close()
+
+
+@pytest.fixture
+def context(browser):
+    """A fresh browser context: its own cookies, storage and Streamlit session."""
+    ctx = browser.new_context(viewport={"width": 1400, "height": 1800}, accept_downloads=True)
+    ctx.set_default_timeout(60_000)  # the two cores are shared; a run can take a while
+    yield ctx
+    ctx.close()
