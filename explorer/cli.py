@@ -54,8 +54,7 @@ def _panel_arguments(parser: argparse.ArgumentParser, *, boundaries: bool = True
     parser.add_argument(
         "--allow-negative",
         action="store_true",
-        help="accept negative incomes in unit records (losses); indices undefined for them "
-        "say so",
+        help="accept negative incomes in unit records (losses); indices undefined for them say so",
     )
     if boundaries:
         parser.add_argument("--layer", help="GeoPackage layer to read")

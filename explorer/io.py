@@ -11,6 +11,7 @@ is the job of :func:`explorer.panel.validate`; readers pass their own warnings t
 from __future__ import annotations
 
 import csv
+import dataclasses
 import io as _io
 import re
 import warnings
@@ -927,6 +928,9 @@ def demo_paths(kind: str = "brackets") -> tuple[Path, Path]:
     return DEMO_DIR / DEMO_FILES[kind], DEMO_DIR / DEMO_BOUNDARIES
 
 
+DEMO_INCOME_CONCEPT = "equivalised disposable income per person (demo currency units)"
+
+
 def demo_panel(kind: str = "brackets") -> Panel:
     """The invented demo province as a validated :class:`Panel` with boundaries."""
     table, bounds = demo_paths(kind)
@@ -938,4 +942,6 @@ def demo_panel(kind: str = "brackets") -> Panel:
                 file=table.name,
             )
         )
-    return load_panel(table, bounds if bounds.exists() else None)
+    panel = load_panel(table, bounds if bounds.exists() else None)
+    # The demo's files carry no concept column; demo_data/README.md states it.
+    return dataclasses.replace(panel, income_concept=DEMO_INCOME_CONCEPT, name=f"demo {kind}")

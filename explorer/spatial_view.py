@@ -12,6 +12,7 @@ import numpy as np
 import pandas as pd
 
 from explorer import indices, spatial
+from explorer.frames import district_means
 from explorer.panel import DataError, Panel, Problem
 
 
@@ -25,20 +26,6 @@ class SpatialResult:
     year: int
     graph: str
     summary: dict = field(default_factory=dict)
-
-
-def district_means(panel: Panel) -> pd.DataFrame:
-    """``region, year, mean_income, population`` for every district-year of any kind."""
-    data = panel.data
-    if panel.kind == "units":
-        weighted = data.assign(_wy=data["income"] * data["weight"])
-        sums = weighted.groupby(["region", "year"], sort=True)[["_wy", "weight"]].sum()
-        out = pd.DataFrame(
-            {"mean_income": sums["_wy"] / sums["weight"], "population": sums["weight"]}
-        )
-        return out.reset_index()
-    columns = ["region", "year", "mean_income", "population"]
-    return data[columns].drop_duplicates(["region", "year"]).reset_index(drop=True)
 
 
 def variable(

@@ -153,3 +153,44 @@ def test_spatial_writes_one_row_per_district(tmp_path, capsys):
         "not significant",
     }
     assert "moran_i:" in err
+
+
+def test_report_of_a_saved_view_is_one_offline_file_with_the_views_figures(tmp_path, capsys):
+    from explorer import views
+
+    view = views.ViewState(
+        year=2020, method="linear", districts=("CAL01",), year_from=2010, year_to=2024
+    )
+    view_file = tmp_path / "briefing-view.json"
+    view_file.write_text(view.to_json(), encoding="utf-8")
+    out = tmp_path / "briefing.html"
+    code, _, err = run(capsys, "report", str(view_file), "--out", str(out))
+    assert code == 0, err
+    html = out.read_text(encoding="utf-8")
+    assert io.demo_panel().fingerprint in html
+    assert "<script src=" not in html and "https://cdn" not in html
+    # The straight-line Gini of CAL01 in 2020 by the trapezoid rule on the shipped shares
+    # (common practice: G = 1 - sum (p_i - p_{i-1}) (L_i + L_{i-1})) appears in the ranking.
+    deciles = pd.read_csv(io.demo_paths("brackets")[0])
+    row = deciles[(deciles["region"] == "CAL01") & (deciles["year"] == 2020)]
+    shares = row[[f"share_{i}" for i in range(1, 11)]].to_numpy(dtype=float)[0]
+    lorenz = np.concatenate([[0.0], np.cumsum(shares)])
+    gini = 1.0 - np.sum(0.1 * (lorenz[1:] + lorenz[:-1]))
+    assert f"{gini:.4f}" in html
+
+
+def test_report_of_a_view_whose_dataset_is_missing_says_where_to_look(tmp_path, capsys):
+    view_file = tmp_path / "view.json"
+    view_file.write_text('{"rift_view": 1, "dataset": "d0000000000000000"}', encoding="utf-8")
+    code, _, err = run(
+        capsys,
+        "report",
+        str(view_file),
+        "--out",
+        str(tmp_path / "r.html"),
+        "--data",
+        str(tmp_path / "ws"),
+    )
+    assert code == 2
+    assert "Traceback" not in err
+    assert not (tmp_path / "r.html").exists()

@@ -31,7 +31,7 @@ def damaged(tmp_path_factory):
 
 def test_only_the_bad_district_year_is_set_aside_with_its_reason(damaged):
     panel, frame = damaged
-    assert list(zip(panel.excluded["region"], panel.excluded["year"])) == [(BAD_REGION, BAD_YEAR)]
+    assert list(zip(panel.excluded["region"], panel.excluded["year"], strict=True)) == [(BAD_REGION, BAD_YEAR)]
     assert "sum to" in panel.excluded["reason"].iloc[0]
     kept = panel.data[["region", "year"]].drop_duplicates()
     assert len(kept) == len(frame) - 1
@@ -41,7 +41,7 @@ def test_only_the_bad_district_year_is_set_aside_with_its_reason(damaged):
 def test_every_other_district_year_still_has_its_indices(damaged):
     panel, frame = damaged
     table = indices.compute(panel, methods=("auto",), indices=("gini", "theil_t"))
-    keys = set(zip(table["region"], table["year"]))
+    keys = set(zip(table["region"], table["year"], strict=True))
     assert (BAD_REGION, BAD_YEAR) not in keys
     assert len(keys) == len(frame) - 1
     assert np.isfinite(table.loc[table["index"] == "gini", "value"]).all()

@@ -21,11 +21,8 @@ from typing import Any
 import pandas as pd
 import streamlit as st
 
-DEMO_DATASETS: dict[str, tuple[str, str]] = {
-    "demo": ("Demo province: decile shares", "brackets"),
-    "demo-households": ("Demo province: household sample", "units"),
-    "demo-means": ("Demo province: district means", "means"),
-}
+from explorer.frames import DEMO_DATASETS, district_means  # noqa: F401 — re-exported
+
 _UPLOADS = "rift_uploads"
 _SESSION_SCOPE = "rift_session_scope"
 
@@ -236,21 +233,6 @@ def map_features(
     from explorer import charts
 
     return charts.features_for_display(_panel.boundaries, values)
-
-
-def district_means(panel) -> pd.DataFrame:
-    """region, year, mean_income, population per district-year (for convergence)."""
-    data = panel.data
-    if panel.kind == "units":
-        weighted = data.assign(wy=data["income"] * data["weight"])
-        grouped = weighted.groupby(["region", "year"], sort=True, observed=True)
-        out = grouped[["wy", "weight"]].sum().reset_index()
-        out["mean_income"] = out["wy"] / out["weight"]
-        return out.rename(columns={"weight": "population"})[
-            ["region", "year", "mean_income", "population"]
-        ]
-    columns = [c for c in ("region", "year", "mean_income", "population") if c in data.columns]
-    return data[columns].drop_duplicates(["region", "year"]).pipe(_tidy)
 
 
 class ChartSpec:

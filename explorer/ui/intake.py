@@ -266,47 +266,10 @@ def apply_view_file(content: bytes) -> None:
 
 
 def report_html(here: state.Here) -> bytes:
-    """The one-file HTML report of the current view."""
-    from explorer import charts, report
+    """The one-file HTML report of the current view (the same one ``rift report`` writes)."""
+    from explorer import briefing
 
-    view, panel = here.view, here.panel
-    values = layout.map_values(here, view)
-    ranked = layout.ranking(values)
-    tables = {"Districts ranked": ranked.drop(columns=["wide"], errors="ignore")}
-    built: dict[str, Any] = {}
-    if panel.boundaries is not None:
-        classification = charts.classify(values["value"], view.classes, view.k)
-        values["klass"] = classification.assign(values["value"])
-        features = here.map_features(values[["region", "value", "lower", "upper", "klass", "wide"]])
-        built["Map"] = charts.choropleth(
-            features,
-            value_label=layout.value_label(view, panel),
-            classes=classification.labels,
-            title=f"{layout.value_label(view, panel)}, {view.year}",
-            caption=layout.caption(view, panel),
-        )
-    levels = tuple(panel.levels)
-    if panel.kind != "means" or levels:
-        parts = layout.per_level(here.breakdown(levels, view.decomposition_index))
-        tables["Within and between groups"] = parts[parts["year"] == view.year]
-        built["Within and between groups"] = charts.components(
-            parts, index=view.decomposition_index
-        )
-    try:
-        info = panel.describe()
-    except Exception:
-        info = {}
-    info = {"name": panel.name or view.dataset, "fingerprint": panel.fingerprint, **info}
-    cautions = show.caution_texts(panel, ranking=True, wide_intervals=int(values["wide"].sum()))
-    html = report.build_report(
-        view,
-        panel_info=info,
-        tables=tables,
-        charts=built,
-        notes=[layout.caption(view, panel)],
-        cautions=cautions,
-    )
-    return html.encode("utf-8")
+    return briefing.report_html(here.view, here.panel).encode("utf-8")
 
 
 def view_json(view: Any) -> str:

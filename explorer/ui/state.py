@@ -17,47 +17,18 @@ from typing import Any
 import streamlit as st
 
 from explorer import views
+from explorer.frames import (  # noqa: F401 — re-exported for the pages
+    DECOMPOSABLE,
+    INDEX_LABELS,
+    METHOD_LABELS,
+    index_label,
+    method_label,
+)
 from explorer.ui import data
 
 VIEW = "rift_view"
 NOTICES = "rift_notices"
 PANEL = "rift_panel"
-
-INDEX_LABELS: dict[str, str] = {
-    "gini": "Gini coefficient",
-    "theil_t": "Theil T",
-    "mld": "Mean log deviation (Theil L)",
-    "ge_2": "Generalised entropy GE(2)",
-    "atkinson_0.5": "Atkinson (ε = 0.5)",
-    "atkinson_1": "Atkinson (ε = 1)",
-    "atkinson_2": "Atkinson (ε = 2)",
-    "cv": "Coefficient of variation",
-    "palma": "Palma ratio (top 10 % / bottom 40 %)",
-    "s80_s20": "S80/S20 quintile share ratio",
-    "top10_share": "Income share of the top 10 %",
-    "bottom40_share": "Income share of the bottom 40 %",
-}
-METHOD_LABELS: dict[str, str] = {
-    "auto": "Best fitting curve (automatic)",
-    "linear": "Straight lines between points (lower bound)",
-    "upper": "Steepest convex curve (upper bound)",
-    "pchip": "Smooth monotone interpolation",
-    "gq": "General quadratic curve",
-    "beta": "Beta curve",
-    "quadratic": "Simple quadratic curve",
-    "lognormal": "Lognormal curve",
-}
-DECOMPOSABLE = ("theil_t", "mld", "ge_2", "gini")
-
-
-def index_label(key: str) -> str:
-    """A planner's name for an index key."""
-    return INDEX_LABELS.get(key, key)
-
-
-def method_label(key: str) -> str:
-    """A planner's name for a Lorenz method key."""
-    return METHOD_LABELS.get(key, key)
 
 
 def known(panel: Any, catalog: Sequence[data.Dataset]) -> dict[str, Any]:
