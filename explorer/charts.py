@@ -952,6 +952,13 @@ def interval_strip(
     data["label"] = [index_label(i) for i in data["index"]]
     if "method" not in data.columns:
         data["method"] = ""
+    # An unbounded upper bound (the upper curve's jump at p = 1) cannot be drawn: the bar
+    # stops at the estimate and an arrow says the bound runs on.
+    upper = pd.to_numeric(data["upper"], errors="coerce")
+    data["unbounded"] = np.isinf(upper)
+    data["bar_to"] = np.where(np.isinf(upper), data["value"], upper)
+    # JSON has no infinity: an infinite bound would reach Vega as a broken value.
+    data["upper"] = upper.where(np.isfinite(upper))
     title = title or (
         f"Indices of {region}" + (f", {year}" if year is not None else "")
         if region is not None
@@ -964,14 +971,30 @@ def interval_strip(
     method = alt.Y("method:N", title=None)
     layers = alt.layer(
         alt.Chart()
-        .transform_filter("isValid(datum.lower) && isValid(datum.upper)")
+        .transform_filter("isValid(datum.lower) && isValid(datum.bar_to)")
+        .mark_tick(thickness=2, size=12, opacity=0.8)
+        .encode(x=alt.X("lower:Q", title=axis_title), y=method, color=colour, tooltip=tips),
+        alt.Chart()
+        .transform_filter("isValid(datum.upper)")
+        .mark_tick(thickness=2, size=12, opacity=0.8)
+        .encode(x=alt.X("upper:Q", title=axis_title), y=method, color=colour, tooltip=tips),
+        alt.Chart()
+        .transform_filter("isValid(datum.lower) && isValid(datum.bar_to)")
         .mark_rule(strokeWidth=3, opacity=0.6)
         .encode(
-            x=alt.X("lower:Q", title=axis_title), x2="upper:Q", y=method, color=colour, tooltip=tips
+            x=alt.X("lower:Q", title=axis_title),
+            x2="bar_to:Q",
+            y=method,
+            color=colour,
+            tooltip=tips,
         ),
         alt.Chart()
         .mark_point(filled=True, size=70)
         .encode(x=x, y=method, color=colour, tooltip=tips),
+        alt.Chart()
+        .transform_filter("datum.unbounded")
+        .mark_text(text="→ no finite upper bound", align="left", dx=8, fontSize=10)
+        .encode(x=x, y=method),
         data=data,
     )
     return (
