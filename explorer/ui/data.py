@@ -213,7 +213,9 @@ def clusters(
     return _tidy(local), overall
 
 
-@st.cache_resource(show_spinner=False, max_entries=16)
+# cache_data, not cache_resource: an upload's graph is user data, and cache_resource would
+# hand one shared object to every session.
+@st.cache_data(show_spinner=False, max_entries=16)
 def _graph(fingerprint: str, scope: str, _boundaries):
     from explorer import spatial
 
