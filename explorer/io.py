@@ -26,6 +26,7 @@ import pandas as pd
 from explorer.panel import DataError, Panel, Problem, validate
 
 MAX_FILE_BYTES = 200 * 1024 * 1024  # matches server.maxUploadSize in .streamlit/config.toml
+MAX_COLUMNS = 1_000  # far more than any panel needs; wider files are refused early
 MAX_ZIP_ENTRIES = 1_000
 MAX_ZIP_UNCOMPRESSED = 1_000_000_000  # declared total, 1 GB
 
@@ -310,15 +311,29 @@ def _frame_from_rows(
         ("" if h is None or (isinstance(h, float) and np.isnan(h)) else str(h)).strip()
         for h in rows.iloc[0].tolist()
     ]
-    body = rows.iloc[1:].astype("str")
-    body.index = np.arange(len(body))  # line - 2
-    filled = body.apply(lambda c: c.str.strip().fillna("") != "")
-    body = body[filled.any(axis=1).to_numpy()]
+    if len(header) > MAX_COLUMNS:
+        raise _fail(
+            file,
+            f"the table has {len(header):,} columns, more than the {MAX_COLUMNS:,} a panel "
+            "can have (is this really a table? a boundary file given as the panel, say)",
+            "give the panel as a table of region, year and a few value columns",
+        )
+    # One object array, sliced per column: per-column access on a wide frame of text
+    # columns costs time in the square of the column count.
+    cells = rows.iloc[1:].to_numpy(dtype=object)
+    text = np.where(pd.isna(cells), "", cells).astype(str)
+    filled = np.char.strip(text) != ""
+    keep = filled.any(axis=1)
+    lines = np.arange(len(text))[keep]  # line - 2
     # trailing columns that are empty and unnamed (a stray delimiter) are noise
-    while header and header[-1] == "" and not filled.iloc[:, len(header) - 1].any():
+    while header and header[-1] == "" and not filled[:, len(header) - 1].any():
         header.pop()
-    cols = {i: _type_column(body.iloc[:, i], decimal, thousands) for i in range(len(header))}
-    frame = pd.DataFrame(cols, index=body.index)
+    text = text[keep]
+    cols = {
+        i: _type_column(pd.Series(text[:, i], index=lines, dtype=object), decimal, thousands)
+        for i in range(len(header))
+    }
+    frame = pd.DataFrame(cols, index=lines)
     frame.columns = [h or f"unnamed_{i + 1}" for i, h in enumerate(header)]
     return frame
 
