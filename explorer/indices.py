@@ -25,20 +25,7 @@ import pandas as pd
 from explorer import lorenz, measures
 from explorer.panel import DataError, Problem
 
-DEFAULT_INDICES: tuple[str, ...] = (
-    "gini",
-    "theil_t",
-    "mld",
-    "ge_2",
-    "atkinson_0.5",
-    "atkinson_1",
-    "atkinson_2",
-    "cv",
-    "palma",
-    "s80_s20",
-    "top10_share",
-    "bottom40_share",
-)
+DEFAULT_INDICES: tuple[str, ...] = measures.STANDARD_INDICES
 """The default indices: every family at its usual parameters (as measures.STANDARD_INDICES)."""
 
 COLUMNS = ("region", "year", "index", "value", "lower", "upper", "method", "note")

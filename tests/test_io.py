@@ -314,8 +314,7 @@ def test_natural_earth_countries_read_through_the_same_path_keyed_by_iso_a3(tmp_
 @pytest.mark.parametrize("kind", ["brackets", "units", "means"])
 def test_demo_panels_load_with_their_boundaries_and_county_level(kind):
     table, bounds = io.demo_paths(kind)
-    if not (table.exists() and bounds.exists()):
-        pytest.skip("demo data not generated yet")
+    assert table.exists() and bounds.exists()  # shipped in demo_data/
     panel = io.demo_panel(kind)
     assert panel.kind == kind and panel.levels == ("county",)
     assert panel.describe()["boundaries"]["panel_only"] == []
