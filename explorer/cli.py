@@ -84,6 +84,12 @@ def build_parser() -> argparse.ArgumentParser:
     app = commands.add_parser("app", help="start the app in the browser (demo data by default)")
     app.add_argument("--data", metavar="DIR", help="workspace directory for stored datasets")
     app.add_argument("--port", type=int, default=8501, help="port to serve on (default 8501)")
+    app.add_argument(
+        "--host",
+        default="localhost",
+        help="address to listen on (default localhost: this machine only; 0.0.0.0 lets a "
+        "team reach a shared machine)",
+    )
 
     check = commands.add_parser("check", help="validate a panel and its boundaries")
     _panel_arguments(check)
@@ -250,10 +256,13 @@ def run_app(args: argparse.Namespace) -> int:
         str(args.port),
         "--server.headless",
         "true",
+        "--server.address",
+        args.host,
         "--browser.gatherUsageStats",
         "false",
     ]
-    print(f"Rift is starting on http://localhost:{args.port}  (Ctrl+C stops it)", file=sys.stderr)
+    shown = "localhost" if args.host in ("localhost", "127.0.0.1", "0.0.0.0") else args.host
+    print(f"Rift is starting on http://{shown}:{args.port}  (Ctrl+C stops it)", file=sys.stderr)
     try:
         return subprocess.call(command, env=env, cwd=app.parent.parent)
     except KeyboardInterrupt:

@@ -194,3 +194,25 @@ def test_report_of_a_view_whose_dataset_is_missing_says_where_to_look(tmp_path, 
     assert code == 2
     assert "Traceback" not in err
     assert not (tmp_path / "r.html").exists()
+
+
+def test_app_serves_this_machine_only_by_default_and_passes_the_data_folder(
+    tmp_path, monkeypatch, capsys
+):
+    seen = {}
+
+    def fake_call(command, env, cwd):
+        seen.update(command=command, env=env, cwd=cwd)
+        return 0
+
+    monkeypatch.setattr(cli.subprocess, "call", fake_call)
+    code, _, err = run(capsys, "app", "--data", str(tmp_path), "--port", "8611")
+    assert code == 0
+    command = seen["command"]
+    assert command[command.index("--server.address") + 1] == "localhost"
+    assert command[command.index("--server.port") + 1] == "8611"
+    assert command[command.index("run") + 1].endswith("app.py")
+    assert seen["env"]["RIFT_DATA"] == str(tmp_path.resolve())
+    # Run from the project folder so its .streamlit/config.toml (no usage statistics) applies.
+    assert (Path(seen["cwd"]) / ".streamlit" / "config.toml").exists()
+    assert "http://localhost:8611" in err
