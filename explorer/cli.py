@@ -93,6 +93,12 @@ def build_parser() -> argparse.ArgumentParser:
 
     check = commands.add_parser("check", help="validate a panel and its boundaries")
     _panel_arguments(check)
+    check.add_argument(
+        "--save",
+        action="store_true",
+        help="when valid, store the dataset in the workspace (the app lists it)",
+    )
+    check.add_argument("--data", metavar="DIR", help="workspace directory for --save")
 
     compute = commands.add_parser("compute", help="indices for every district and year")
     _panel_arguments(compute)
@@ -310,6 +316,25 @@ def run_check(args: argparse.Namespace) -> int:
     for problem in panel.warnings:
         print(_problem_line(problem))
     print("valid")
+    if args.save:
+        from explorer.workspace import Workspace
+
+        if args.panel == DEMO:
+            raise DataError(
+                [Problem("the demo is built in and needs no saving", fix="save your own files")]
+            )
+        workspace = Workspace(Path(args.data)) if args.data else Workspace()
+        sources = [Path(args.panel)] + ([Path(args.boundaries)] if args.boundaries else [])
+        options = {
+            "kind": args.kind,
+            "column_map": args.map,
+            "boundary_id": args.boundary_id,
+            "crs": args.crs,
+            "sheet": args.sheet,
+            "layer": args.layer,
+        }
+        dataset = workspace.add(panel, sources, options)
+        print(f"saved as dataset {dataset} in {workspace.root}")
     return EXIT_OK
 
 

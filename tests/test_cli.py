@@ -216,3 +216,30 @@ def test_app_serves_this_machine_only_by_default_and_passes_the_data_folder(
     # Run from the project folder so its .streamlit/config.toml (no usage statistics) applies.
     assert (Path(seen["cwd"]) / ".streamlit" / "config.toml").exists()
     assert "http://localhost:8611" in err
+
+
+def test_check_save_stores_the_dataset_once_and_leaves_the_inputs_alone(tmp_path, capsys):
+    from explorer.workspace import Workspace
+
+    panel_path, boundary_path = io.demo_paths("means")
+    before = hashlib.sha256(panel_path.read_bytes()).hexdigest()
+    folder = tmp_path / "workspace"
+    argv = (
+        "check",
+        str(panel_path),
+        "--boundaries",
+        str(boundary_path),
+        "--save",
+        "--data",
+        str(folder),
+    )
+    code, out, _ = run(capsys, *argv)
+    assert code == 0
+    first = out.strip().splitlines()[-1]
+    code, out, _ = run(capsys, *argv)
+    assert out.strip().splitlines()[-1] == first  # same files, same id: stored once
+    stored = Workspace(folder).list()
+    assert len(stored) == 1
+    reopened = Workspace(folder).open(stored["id"].iloc[0])
+    assert reopened.fingerprint == io.load_panel(panel_path, boundary_path).fingerprint
+    assert hashlib.sha256(panel_path.read_bytes()).hexdigest() == before
