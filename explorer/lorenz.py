@@ -80,7 +80,7 @@ _BOTTOM_NOTE = (
 )
 _SSE_FLOOR = 1e-24  # squared errors this small are rounding noise: such fits tie
 GAUSS_NODES = 16
-_ROW_CHUNK = 2048
+_CHUNK_NODES = 131_072  # nodes per row chunk: big enough to amortise each call, small enough for L3
 _CONVEX_TOL = 1e-9
 
 _JUMP_NOTE = (
@@ -96,6 +96,13 @@ _HEAVY_NOTE = (
     "(its relative income grows like (1 - p)^(delta - 1) near p = 1)"
 )
 _ZERO_SHARE_NOTE = "infinite: the bottom share in the denominator is zero"
+
+
+def _blank(shape) -> np.ndarray:
+    """An object array of empty strings (filled in place: several times faster than np.full)."""
+    out = np.empty(shape, dtype=object)
+    out.fill("")
+    return out
 
 
 # ---------------------------------------------------------------------------- index keys
@@ -159,53 +166,116 @@ _PIECE_W = _GL_W * 30 * _GL_T**2 * (1 - _GL_T) ** 2
 # ---------------------------------------------------------------------------- index maths
 
 
-def _integral_index(family, param, weights, y, jump, cache=None):
-    """One mean-based index from relative incomes ``y`` with population ``weights``.
+def _moment_keys(family, param) -> tuple:
+    """The node averages an integral index is built from (shared between indices)."""
+    if family == "theil_t":
+        return ("log", "xlogy")
+    if family == "mld" or (family == "atkinson" and param == 1):
+        return ("log",)
+    if family == "cv":
+        return ("dev2",)
+    if family == "ge":
+        return (("pow", param),)
+    if family == "atkinson" and param != 0:
+        return (("pow", 1.0 - param),)
+    return ()
+
+
+def _power(y, a, out):
+    """``y ** a`` into ``out``; the exponents numpy itself special-cases get the same op."""
+    if a == 2:
+        return np.multiply(y, y, out=out)
+    if a == 0.5:
+        return np.sqrt(y, out=out)
+    if a == -1:
+        return np.divide(1.0, y, out=out)
+    if a == 1:
+        np.copyto(out, y)
+        return out
+    return np.power(y, a, out=out)
+
+
+def _node_moments(keys, weights, y, scratch=None, out=None) -> dict:
+    """Weighted node averages of ``log y``, ``y log y``, ``(y - 1)^2`` and powers of ``y``.
+
+    Each average is one pass over the nodes (one BLAS matrix-vector product for a shared
+    grid), and ``log y`` is taken once for every index that needs it. ``scratch`` is a pair
+    of arrays shaped like ``y`` to reuse (fresh ones otherwise); ``out`` maps each key to
+    an array of one value per row to write into (fresh ones otherwise).
+    """
+    if scratch is None:
+        scratch = (np.empty_like(y), np.empty_like(y))
+    if out is None:
+        out = {key: np.empty(y.shape[0]) for key in keys}
+    log_y, tmp = scratch
+
+    def mean(values, key):
+        if weights.ndim == 1:
+            np.matmul(values, weights, out=out[key])
+        else:
+            np.einsum("ij,ij->i", values, weights, out=out[key])
+
+    if "log" in keys:
+        np.log(y, out=log_y)
+        mean(log_y, "log")
+    if "xlogy" in keys:
+        np.multiply(y, log_y, out=tmp)
+        mean(tmp, "xlogy")
+        # A node with y <= 0 or NaN makes y log y NaN, and so the row's average: only such
+        # rows are summed again with those nodes counted as 0 (0 log 0 = 0).
+        redo = np.isnan(out["xlogy"])
+        if redo.any():
+            sub = y[redo]
+            part = np.where(sub > 0, sub * log_y[redo], 0.0)
+            out["xlogy"][redo] = (
+                part @ weights
+                if weights.ndim == 1
+                else (np.einsum("ij,ij->i", part, weights[redo]))
+            )
+    if "dev2" in keys:
+        # (y - 1)^2 rather than y^2 - 1: no cancellation when everyone is at the mean
+        np.subtract(y, 1.0, out=tmp)
+        np.multiply(tmp, tmp, out=tmp)
+        mean(tmp, "dev2")
+    for key in keys:
+        if isinstance(key, tuple):
+            mean(_power(y, key[1], tmp), key)
+    return out
+
+
+def _index_from_moments(family, param, moments, jump):
+    """One mean-based index from the node averages of :func:`_node_moments`.
 
     ``jump`` is income held by a vanishing share of people (the upper curve's jump at
     ``p = 1``); it counts in the mean but adds nothing to integrals of ``y**a``, a < 1.
-    ``cache`` (a dict) shares ``log(y)`` between indices of the same rows.
     """
-    cache = {} if cache is None else cache
     has_jump = jump > 0
-
-    def mean(values):  # weighted sum over nodes: one BLAS pass for a shared grid
-        if weights.ndim == 1:
-            return values @ weights
-        return np.einsum("ij,ij->i", values, weights)
-
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        if family in ("theil_t", "mld") or (family == "atkinson" and param == 1):
-            if "log" not in cache:
-                cache["log"] = np.log(y)
-            log_y = cache["log"]
         if family == "theil_t":
-            value = mean(np.where(y > 0, y * log_y, 0.0))
-            value = np.where(has_jump, np.inf, value)
-        elif family == "mld":
-            value = -mean(log_y)
-        elif family == "cv":
-            # (y - 1)^2 rather than y^2 - 1: no cancellation when everyone is at the mean
-            value = np.sqrt(mean((y - 1.0) ** 2))
-            value = np.where(has_jump, np.inf, value)
-        elif family == "ge":
+            return np.where(has_jump, np.inf, moments["xlogy"])
+        if family == "mld":
+            return -moments["log"]
+        if family == "cv":
+            return np.where(has_jump, np.inf, np.sqrt(moments["dev2"]))
+        if family == "ge":
             alpha = param
-            moment = mean(y**alpha)
-            value = (moment - 1.0) / (alpha * (alpha - 1.0))
-            if alpha > 1:
-                value = np.where(has_jump, np.inf, value)
-        elif family == "atkinson":
+            value = (moments[("pow", alpha)] - 1.0) / (alpha * (alpha - 1.0))
+            return np.where(has_jump, np.inf, value) if alpha > 1 else value
+        if family == "atkinson":
             eps = param
             if eps == 0:
-                value = np.zeros(y.shape[0])
-            elif eps == 1:
-                value = 1.0 - np.exp(mean(log_y))
-            else:
-                moment = mean(y ** (1.0 - eps))
-                value = 1.0 - moment ** (1.0 / (1.0 - eps))
-        else:  # pragma: no cover - guarded by callers
-            raise ValueError(family)
-    return value
+                return np.zeros(jump.shape[0])
+            if eps == 1:
+                return 1.0 - np.exp(moments["log"])
+            return 1.0 - moments[("pow", 1.0 - eps)] ** (1.0 / (1.0 - eps))
+    raise ValueError(family)  # pragma: no cover - guarded by callers
+
+
+def _integral_index(family, param, weights, y, jump):
+    """One mean-based index from relative incomes ``y`` with population ``weights``."""
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        moments = _node_moments(_moment_keys(family, param), weights, y)
+    return _index_from_moments(family, param, moments, jump)
 
 
 _SHARE_POINTS = np.array([0.2, 0.4, 0.8, 0.9])
@@ -225,7 +295,7 @@ def _share_index(family, at):
 
 def _note_for(family, param, value, jump):
     """Why a finite-looking index came out infinite, per row."""
-    notes = np.full(value.shape, "", dtype=object)
+    notes = _blank(value.shape)
     infinite = ~np.isfinite(value) & ~np.isnan(value)
     if not infinite.any():
         return notes
@@ -376,21 +446,143 @@ def _bottom_sensitive(family, param) -> bool:
 
 
 def _chunked_integrals(batch, curve, specs) -> dict[str, np.ndarray]:
-    """Integral-type indices for every row, in row chunks to bound memory."""
-    out = {key: np.empty(batch.n) for key, _, _ in specs}
+    """Integral-type indices for every row.
+
+    Every node average is taken once and shared by the indices built from it (see
+    :func:`_grid_moments`); the quadratic curve's averages are elementary functions of
+    its parameter (:func:`_quadratic_moments`). The indices are formed from the averages
+    once, for all rows together.
+    """
     if not specs:
-        return out
+        return {}
+    needed = list(dict.fromkeys(m for _, f, p in specs for m in _moment_keys(f, p)))
+    if batch.valid.all():
+        moments = _batch_moments(batch, curve, needed)
+    else:  # invalid rows get NaN whatever their integrals: skip them
+        live = np.flatnonzero(batch.valid)
+        moments = {key: np.full(batch.n, np.nan) for key in needed}
+        if live.size:
+            got = _batch_moments(batch.take(live), curve, needed)
+            for key in needed:
+                moments[key][live] = got[key]
     jump = curve.jump(batch)
-    for start in range(0, batch.n, _ROW_CHUNK):
-        rows = slice(start, start + _ROW_CHUNK)
-        part = batch.take(np.arange(batch.n)[rows])
-        weights, y = curve.relative_incomes(part)
-        cache: dict = {}
-        for key, family, param in specs:
-            out[key][rows] = _integral_index(family, param, weights, y, jump[rows], cache)
+    out = {key: _index_from_moments(f, p, moments, jump) for key, f, p in specs}
     if batch.method == "beta":
         for key, family, param in specs:
             out[key] = _beta_top_tail(batch.params, family, param, out[key])
+    return out
+
+
+def _batch_moments(batch, curve, needed) -> dict[str, np.ndarray]:
+    """Node averages for every row: closed forms for the quadratic curve, else the grid."""
+    if batch.method != "quadratic":
+        return _grid_moments(batch, curve, needed)
+    a = batch.params[:, 0]
+    closed = (a >= 0) & (a <= _QUAD_CLOSED_UP_TO)
+    got = _quadratic_moments(needed, a[closed])
+    if got is None:
+        return _grid_moments(batch, curve, needed)
+    moments = {key: np.empty(batch.n) for key in needed}
+    for key in needed:
+        moments[key][closed] = got[key]
+    rest = np.flatnonzero(~closed)
+    if rest.size:
+        on_grid = _grid_moments(batch.take(rest), curve, needed)
+        for key in needed:
+            moments[key][rest] = on_grid[key]
+    return moments
+
+
+def _grid_moments(batch, curve, needed) -> dict[str, np.ndarray]:
+    """Node averages for every row, in row chunks sized to stay in cache.
+
+    Parametric curves write their grid slopes into arrays reused from chunk to chunk.
+    """
+    moments = {key: np.empty(batch.n) for key in needed}
+    k = batch.P.shape[1] - 1
+    width = {"linear": k, "upper": 2 * k, "pchip": k * GAUSS_NODES}.get(
+        batch.method, PROBIT_GRID.p.size
+    )
+    step = max(1, _CHUNK_NODES // width)
+    on_grid = hasattr(curve.cls, "grid_incomes")
+    if on_grid:
+        buffers = np.empty((3, min(step, batch.n), width))
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        for start in range(0, batch.n, step):
+            rows = slice(start, min(start + step, batch.n))
+            part = batch.take(rows)
+            chunk = {key: value[rows] for key, value in moments.items()}
+            if on_grid:
+                y, t, u = buffers[:, : part.n]
+                curve.grid_incomes(part, y, t, u)
+                _node_moments(needed, PROBIT_GRID.weights, y, (t, u), chunk)
+            else:
+                weights, y = curve.relative_incomes(part)
+                _node_moments(needed, weights, y, None, chunk)
+    return moments
+
+
+_QUAD_CLOSED_UP_TO = 1.0 - 1e-6
+"""Quadratic curves with 0 <= a <= this get their integrals in closed form. Nearer a = 1 the
+lowest income 1 - a nears 0 and the indices of negative powers grow like log(1 / (1 - a));
+there the probit grid is kept, as it is for every other curve."""
+_QUAD_SERIES_BELOW = 0.5  # below this a, power series in a^2 (no cancellation at small a)
+_QUAD_SERIES_TERMS = 40  # a^2 <= 0.25: the terms fall below 1e-24 of the first
+_QUAD_POWER_RANGE = 8.0  # |alpha| up to this: the binomial series converges in 40 terms
+
+
+def _quadratic_moments(keys, a) -> dict | None:
+    """Node averages of :func:`_node_moments` in closed form for L = (1 - a) p + a p^2.
+
+    The slope 1 - a + 2 a p of a uniform rank p is uniform on [1 - a, 1 + a], so with
+    y = 1 + x, x uniform on (-a, a), the averages are elementary: E[(y - 1)^2] = a^2 / 3,
+    E[y^alpha] = ((1 + a)^(alpha + 1) - (1 - a)^(alpha + 1)) / (2 a (alpha + 1))
+    (atanh(a) / a for alpha = -1), E[log y] = ((1 + a) log(1 + a) - (1 - a) log(1 - a)) /
+    (2 a) - 1 and E[y log y] = [y^2 log(y) / 2 - y^2 / 4] between 1 - a and 1 + a over 2a.
+    Below a = 1/2 the Taylor series of log(1 + x), (1 + x) log(1 + x) and (1 + x)^alpha
+    averaged term by term are used instead, free of cancellation (common practice).
+    Returns None when a power is outside the range where the series is used.
+    """
+    powers = [key[1] for key in keys if isinstance(key, tuple)]
+    if any(abs(alpha) > _QUAD_POWER_RANGE for alpha in powers):
+        return None
+    small = a < _QUAD_SERIES_BELOW
+    s, b = a[small], a[~small]
+    a2 = s * s
+    out = {}
+    with np.errstate(divide="ignore", invalid="ignore"):
+        if "log" in keys or "xlogy" in keys:
+            log_sum, xlog_sum, power = np.zeros_like(s), np.zeros_like(s), np.ones_like(s)
+            for k in range(1, _QUAD_SERIES_TERMS + 1):
+                power = power * a2
+                log_sum -= power / (2 * k * (2 * k + 1))
+                xlog_sum += power / ((2 * k - 1) * 2 * k * (2 * k + 1))
+            up, down = np.log1p(b), np.log1p(-b)
+            if "log" in keys:
+                out["log"] = _merge(small, log_sum, ((1 + b) * up - (1 - b) * down) / (2 * b) - 1)
+            if "xlogy" in keys:
+                top, bottom = (1 + b) ** 2, (1 - b) ** 2
+                far = (top * (up / 2 - 0.25) - bottom * (down / 2 - 0.25)) / (2 * b)
+                out["xlogy"] = _merge(small, xlog_sum, far)
+        if "dev2" in keys:
+            out["dev2"] = a * a / 3
+        for alpha in powers:
+            total, coef, power = np.zeros_like(s), 1.0, np.ones_like(s)
+            for k in range(1, _QUAD_SERIES_TERMS + 1):
+                coef *= (alpha - (2 * k - 2)) * (alpha - (2 * k - 1)) / ((2 * k - 1) * (2 * k))
+                power = power * a2
+                total += coef * power / (2 * k + 1)
+            if alpha == -1:
+                far = np.arctanh(b) / b
+            else:
+                far = ((1 + b) ** (alpha + 1) - (1 - b) ** (alpha + 1)) / (2 * b * (alpha + 1))
+            out[("pow", alpha)] = _merge(small, 1.0 + total, far)
+    return out
+
+
+def _merge(small, near, far):
+    out = np.empty(small.shape)
+    out[small], out[~small] = near, far
     return out
 
 
@@ -440,30 +632,34 @@ def _upper_pieces(P, L):
     lies below every curve consistent with the points, which is why mean-based indices
     computed from them (rearrangement does not change an integral of f(L')) are upper bounds.
     """
-    dp, s = _bracket_slopes(P, L)
-    n, k = s.shape
-    left = np.concatenate([np.zeros((n, 1)), s[:, :-1]], axis=1)  # s_{i-1}
-    right = np.concatenate([s[:, 1:], np.full((n, 1), np.inf)], axis=1)  # s_{i+1}
+    # worked point by point (transposed), so each step runs along all rows at once; the
+    # results are handed back as transposed views of shape (n, ...)
+    pt, lt = np.ascontiguousarray(P.T), np.ascontiguousarray(L.T)
+    dp = pt[1:] - pt[:-1]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        s = (lt[1:] - lt[:-1]) / dp
+    k, n = s.shape
+    left = np.concatenate([np.zeros((1, n)), s[:-1]])  # s_{i-1}
+    right = np.concatenate([s[1:], np.full((1, n), np.inf)])  # s_{i+1}
     with np.errstate(divide="ignore", invalid="ignore"):
         frac = (right - s) / (right - left)
     frac = np.where(np.isinf(right), 1.0, frac)
     frac = np.where(np.isfinite(frac), np.clip(frac, 0.0, 1.0), 1.0)
     x = dp * frac  # population on the left chord's slope
-    y_mid = L[:, :-1] + left * x
-    knots_p = np.empty((n, 2 * k + 1))
-    knots_l = np.empty((n, 2 * k + 1))
-    knots_p[:, 0::2], knots_l[:, 0::2] = P, L
-    knots_p[:, 1::2], knots_l[:, 1::2] = P[:, :-1] + x, y_mid
-    top = L[:, -2] + left[:, -1] * dp[:, -1]  # L(1-) on the extended chord
-    knots_l[:, -1] = top
-    knots_p[:, -2] = 1.0
-    lengths = np.empty((n, 2 * k))
-    slopes = np.empty((n, 2 * k))
+    knots_p = np.empty((2 * k + 1, n))
+    knots_l = np.empty((2 * k + 1, n))
+    knots_p[0::2], knots_l[0::2] = pt, lt
+    knots_p[1::2], knots_l[1::2] = pt[:-1] + x, lt[:-1] + left * x
+    top = lt[-2] + left[-1] * dp[-1]  # L(1-) on the extended chord
+    knots_l[-1] = top
+    knots_p[-2] = 1.0
+    lengths = np.empty((2 * k, n))
+    slopes = np.empty((2 * k, n))
     # pieces of zero length get a harmless slope so 0 * log(0) or 0 * inf never appears
-    lengths[:, 0::2], slopes[:, 0::2] = x, np.where(x > 0, left, 1.0)
-    lengths[:, 1::2] = dp - x
-    slopes[:, 1::2] = np.where(lengths[:, 1::2] > 0, right, 1.0)
-    return knots_p, knots_l, lengths, slopes, 1.0 - top
+    lengths[0::2], slopes[0::2] = x, np.where(x > 0, left, 1.0)
+    lengths[1::2] = dp - x
+    slopes[1::2] = np.where(lengths[1::2] > 0, right, 1.0)
+    return knots_p.T, knots_l.T, lengths.T, slopes.T, 1.0 - top
 
 
 class _Piecewise:
@@ -517,14 +713,14 @@ class _Piecewise:
 
 def _fit_linear(P, L):
     n = P.shape[0]
-    return np.empty((n, 0)), np.ones(n, bool), np.full(n, "", dtype=object), {}
+    return np.empty((n, 0)), np.ones(n, bool), _blank(n), {}
 
 
 def _fit_upper(P, L):
     knots_p, knots_l, lengths, slopes, jump = _upper_pieces(P, L)
     n = P.shape[0]
     extra = dict(knots_p=knots_p, knots_l=knots_l, lengths=lengths, slopes=slopes, jump=jump)
-    return np.empty((n, 0)), np.ones(n, bool), np.full(n, "", dtype=object), extra
+    return np.empty((n, 0)), np.ones(n, bool), _blank(n), extra
 
 
 # ---- pchip ------------------------------------------------------------------------------
@@ -587,7 +783,7 @@ def _fit_pchip(P, L):
     scale = np.maximum(np.abs(d).max(axis=1, keepdims=True), 1.0)
     bad_convex = ((left < -_CONVEX_TOL * scale) | (right < -_CONVEX_TOL * scale)).any(axis=1)
     bad_mono = (d < 0).any(axis=1)
-    reason = np.full(P.shape[0], "", dtype=object)
+    reason = _blank(P.shape[0])
     reason[bad_convex] = "the monotone cubic through the points is not convex"
     reason[bad_mono] = "the monotone cubic through the points decreases"
     return d, ~(bad_convex | bad_mono), reason, {}
@@ -648,14 +844,49 @@ class _Pchip:
 # ---- batched least squares ---------------------------------------------------------------
 
 
-def _lstsq_rows(X: np.ndarray, y: np.ndarray):
-    """Least squares for every row's own design matrix (batched QR); flags rank loss."""
-    Q, R = np.linalg.qr(X)
-    diag = np.abs(np.diagonal(R, axis1=1, axis2=2))
-    ok = diag.min(axis=1) > 1e-12 * np.maximum(diag.max(axis=1), 1e-300)
-    R = np.where(ok[:, None, None], R, np.eye(X.shape[2]))
-    rhs = np.einsum("nij,ni->nj", Q, y)
-    beta = np.linalg.solve(R, rhs[..., None])[..., 0]
+def _lstsq_rows(cols: list[np.ndarray], y: np.ndarray):
+    """Least squares for every row's own design matrix; flags rank loss.
+
+    The batch is laid out point by point: ``cols[j]`` holds column ``j`` of every row's
+    design matrix as an ``(m, n)`` array (``(m, 1)`` when all rows share it) and ``y`` the
+    right-hand sides as ``(m, n)``, so every step below is a pass over long contiguous rows
+    of memory. Modified Gram–Schmidt with the right-hand side carried along as one more
+    column is as backward stable as Householder QR for least squares (Björck 1967); a
+    shared design matrix is factored once.
+
+    References
+    ----------
+    Björck, Å. (1967). Solving linear least squares problems by Gram–Schmidt
+    orthogonalization. *BIT* 7: 1–21.
+    """
+    q = len(cols)
+    cols = [np.array(c, dtype=float) for c in cols]  # copies: orthogonalised in place
+    rhs = np.array(y, dtype=float)
+    R = np.zeros((q, q, cols[0].shape[1]))
+    proj = np.empty((q, rhs.shape[1]))
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        for j in range(q):
+            R[j, j] = np.sqrt(np.einsum("ij,ij->j", cols[j], cols[j]))
+            cols[j] /= R[j, j]
+            for k in range(j + 1, q):
+                R[j, k] = np.einsum("ij,ij->j", cols[j], cols[k])
+                cols[k] -= R[j, k] * cols[j]
+            proj[j] = (
+                np.einsum("ij,ij->j", cols[j], rhs)
+                if cols[j].shape[1] > 1
+                else (cols[j][:, 0] @ rhs)
+            )
+            rhs -= proj[j] * cols[j]
+        diag = np.abs(np.stack([R[j, j] for j in range(q)]))
+        ok = diag.min(axis=0) > 1e-12 * np.maximum(diag.max(axis=0), 1e-300)
+        beta = np.empty((q, rhs.shape[1]))
+        for j in range(q - 1, -1, -1):  # back substitution
+            acc = proj[j].copy()
+            for k in range(j + 1, q):
+                acc -= R[j, k] * beta[k]
+            beta[j] = acc / R[j, j]
+    ok = np.broadcast_to(ok, (rhs.shape[1],)).copy()
+    beta = beta.T.copy()
     beta[~ok] = np.nan
     return beta, ok
 
@@ -693,12 +924,12 @@ def _fit_gq(P, L):
     """General quadratic Lorenz curve (Villaseñor & Arnold 1989) by least squares."""
     p, l_ = P[:, 1:-1], L[:, 1:-1]
     n_rows = P.shape[0]
-    reason = np.full(n_rows, "", dtype=object)
+    reason = _blank(n_rows)
     if p.shape[1] < 3:
         reason[:] = "needs at least 4 brackets (3 interior points) for 3 parameters"
         return np.full((n_rows, 3), np.nan), np.zeros(n_rows, bool), reason, {}
-    X = np.stack([p * p - l_, l_ * (p - 1), p - l_], axis=2)
-    params, ok = _lstsq_rows(X, l_ * (1 - l_))
+    pt, lt = np.ascontiguousarray(p.T), np.ascontiguousarray(l_.T)  # point by point
+    params, ok = _lstsq_rows([pt * pt - lt, lt * (pt - 1), pt - lt], lt * (1 - lt))
     a, b, c, e, m, n = _gq_terms(params)
     r2 = n * n - 4 * m * e * e
     inside = np.zeros(n_rows, bool)  # D(p) < 0 somewhere in (0, 1)
@@ -737,6 +968,28 @@ class _GQ(_Parametric):
             return -(b + (2 * m * p + n) / (2 * root)) / 2
 
     @staticmethod
+    def grid_incomes(batch, y, t, u):
+        """grid_slope on the probit grid, in place: y gets the slopes, t and u are scratch.
+
+        The same operations in the same order as :meth:`grid_slope`, except that the
+        factors of 2 are moved (exact in binary floating point).
+        """
+        a, b, c, e, m, n = (v[:, None] for v in _gq_terms(batch.params))
+        p = _GRID_P
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+            np.multiply(m, p, out=t)
+            np.multiply(t, p, out=u)
+            np.multiply(n, p, out=y)
+            u += y
+            u += e * e
+            np.maximum(u, 0.0, out=u)
+            np.sqrt(u, out=u)  # root
+            t += n / 2  # (2 m p + n) / 2
+            np.divide(t, u, out=y)  # (2 m p + n) / (2 root)
+            y += b
+            y *= -0.5
+
+    @staticmethod
     def gini(batch):
         """Closed form; quadrature where m is near 0.
 
@@ -772,16 +1025,18 @@ def _fit_beta(P, L):
     """Beta Lorenz curve (Kakwani 1980) by log-linear least squares."""
     p, l_ = P[:, 1:-1], L[:, 1:-1]
     n_rows = P.shape[0]
-    reason = np.full(n_rows, "", dtype=object)
+    reason = _blank(n_rows)
     gap = p - l_
     above = (gap <= 0).any(axis=1)
     if p.shape[1] < 3:
         reason[:] = "needs at least 4 brackets (3 interior points) for 3 parameters"
         return np.full((n_rows, 3), np.nan), np.zeros(n_rows, bool), reason, {}
-    X = np.stack([np.ones_like(p), np.log(p), np.log1p(-p)], axis=2)
+    pt = np.ascontiguousarray(p.T)  # point by point
+    if (pt == pt[:, :1]).all():  # the same brackets in every row: one design matrix
+        pt = pt[:, :1]
     with np.errstate(divide="ignore", invalid="ignore"):
-        target = np.log(np.where(above[:, None], 1.0, gap))
-    coef, ok = _lstsq_rows(X, target)
+        target = np.log(np.where(above, 1.0, gap.T))
+    coef, ok = _lstsq_rows([np.ones_like(pt), np.log(pt), np.log1p(-pt)], target)
     params = np.column_stack([np.exp(coef[:, 0]), coef[:, 1], coef[:, 2]])
     theta, g, d = params.T
     lo, hi = BETA_SLOPE_FROM, 1.0 - BETA_SLOPE_FROM
@@ -804,8 +1059,7 @@ def _fit_beta(P, L):
         probe = _Batch("beta", P, L, params, np.ones(n_rows, bool), reason)
         slope_lo = _Beta.grid_slope(probe, np.array([[lo]]), np.array([[hi]]))[:, 0]
         bad_mono = ~(slope_lo >= 0)
-        below = PROBIT_GRID.p[PROBIT_GRID.p < lo][None, :]
-        negative_bottom = (_Beta.grid_slope(probe, below, 1.0 - below) < 0).any(axis=1)
+        negative_bottom = _beta_negative_bottom(params)
     span = f"[{BETA_SLOPE_FROM}, {1 - BETA_SLOPE_FROM}]"
     checks = [
         (bad_convex, f"not convex: L'' < 0 somewhere in {span}"),
@@ -819,6 +1073,28 @@ def _fit_beta(P, L):
     return params, valid, reason, {"negative_bottom": negative_bottom}
 
 
+_BELOW = PROBIT_GRID.p[PROBIT_GRID.p < BETA_SLOPE_FROM][None, :]
+_BELOW_LOGS = (np.log(_BELOW), np.log(1.0 - _BELOW), 1.0 / _BELOW, 1.0 / (1.0 - _BELOW))
+
+
+def _beta_negative_bottom(params):
+    """Whether the Beta slope is negative at a grid node below BETA_SLOPE_FROM, per row.
+
+    The operations of :meth:`_Beta.grid_slope` at those nodes, in row chunks that stay in
+    cache.
+    """
+    log_p, log_q, inv_p, inv_q = _BELOW_LOGS
+    out = np.empty(params.shape[0], bool)
+    step = max(1, _CHUNK_NODES // _BELOW.size)
+    with np.errstate(invalid="ignore", over="ignore", divide="ignore"):
+        for start in range(0, params.shape[0], step):
+            theta, g, d = (params[start : start + step, i, None] for i in range(3))
+            core = theta * np.exp(g * log_p + d * log_q)
+            slope = 1.0 - core * (g * inv_p - d * inv_q)
+            out[start : start + step] = (slope < 0).any(axis=1)
+    return out
+
+
 class _Beta(_Parametric):
     @classmethod
     def relative_incomes(cls, batch):
@@ -826,6 +1102,24 @@ class _Beta(_Parametric):
         # are withheld for such rows (see _Batch.index) and the rest see a floor of 0.
         weights, y = super().relative_incomes(batch)
         return weights, np.maximum(y, 0.0)
+
+    @staticmethod
+    def grid_incomes(batch, y, t, u):
+        """relative_incomes in place (the operations of :meth:`grid_slope`, floor 0)."""
+        theta, g, d = (batch.params[:, i, None] for i in range(3))
+        log_p, log_q, inv_p, inv_q = _GRID_LOGS
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+            np.multiply(g, log_p, out=t)
+            np.multiply(d, log_q, out=u)
+            t += u
+            np.exp(t, out=t)
+            t *= theta  # core
+            np.multiply(g, inv_p, out=u)
+            np.multiply(d, inv_q, out=y)
+            u -= y
+            t *= u
+            np.subtract(1.0, t, out=y)
+            np.maximum(y, 0.0, out=y)
 
     @staticmethod
     def evaluate(batch, p):
@@ -860,7 +1154,7 @@ def _fit_quadratic(P, L):
     """L(p) = (1 - a) p + a p^2: closed-form least squares for a."""
     basis = P * P - P
     a = np.sum((L - P) * basis, axis=1) / np.sum(basis * basis, axis=1)
-    reason = np.full(P.shape[0], "", dtype=object)
+    reason = _blank(P.shape[0])
     reason[a < 0] = "a < 0: the curve lies above the equality line"
     reason[a > 1] = "a > 1: the curve decreases near p = 0"
     return a[:, None], (a >= 0) & (a <= 1), reason, {}
@@ -876,6 +1170,13 @@ class _Quadratic(_Parametric):
     def grid_slope(batch, p, q):
         a = batch.params[:, :1]
         return 1 - a + 2 * a * p
+
+    @staticmethod
+    def grid_incomes(batch, y, t, u):
+        """grid_slope on the probit grid, in place."""
+        a = batch.params[:, :1]
+        np.multiply(2 * a, _GRID_P, out=y)
+        y += 1 - a
 
     @staticmethod
     def gini(batch):
@@ -901,7 +1202,7 @@ def _fit_lognormal(P, L, iterations: int = 60):
         if np.all(np.abs(step) < 1e-15 * np.maximum(sigma, 1.0)):
             break
     converged = np.abs(step) < 1e-8
-    reason = np.full(P.shape[0], "", dtype=object)
+    reason = _blank(P.shape[0])
     reason[~converged] = "least squares for sigma did not converge"
     return sigma[:, None], converged, reason, {}
 
@@ -984,6 +1285,11 @@ _PARAM_NAMES = {
 # ---------------------------------------------------------------------------- public API
 
 
+def _in_order(rows: np.ndarray, n: int) -> bool:
+    """Whether ``rows`` is exactly 0, 1, ..., n - 1."""
+    return rows.size == n and (n == 0 or (rows[0] == 0 and bool((np.diff(rows) == 1).all())))
+
+
 @dataclass(frozen=True)
 class CurveIndex:
     """One index for every row: values and, where a value is missing or infinite, why."""
@@ -1056,11 +1362,16 @@ class LorenzFits:
         Invalid rows give NaN with the reason; unbounded values are inf with a note.
         """
         keys = [keys] if isinstance(keys, str) else list(keys)
-        result = {}
         for key in keys:
             _family(key)  # a bad key fails before any work
+        if len(self._parts) == 1 and _in_order(self._parts[0][0], len(self)):
+            # one batch holding every row in order: its arrays are the result as they are
+            got = self._parts[0][1].indices(keys)
+            return {key: CurveIndex(value=got[key][0], note=got[key][1]) for key in keys}
+        result = {}
+        for key in keys:
             value = np.full(len(self), np.nan)
-            note = np.full(len(self), "", dtype=object)
+            note = _blank(len(self))
             result[key] = CurveIndex(value=value, note=note)
         for rows, batch in self._parts:
             for key, (value, note) in batch.indices(keys).items():
@@ -1083,30 +1394,38 @@ class LorenzFits:
 
 
 def _check_points(P, L):
-    """Reasons for rows whose points cannot be a Lorenz curve ("" when fine)."""
-    reason = np.full(P.shape[0], "", dtype=object)
-    dp, s = _bracket_slopes(P, L)
-    with np.errstate(invalid="ignore"):
-        scale = np.maximum(np.nanmax(np.abs(np.where(np.isfinite(s), s, 0)), axis=1), 1.0)
-        not_convex = (np.diff(s, axis=1) < -_CONVEX_TOL * scale[:, None]).any(axis=1)
-        decreasing = (np.diff(L, axis=1) < 0).any(axis=1)
+    """Reasons for rows whose points cannot be a Lorenz curve ("" when fine).
+
+    Worked point by point (on the transposed arrays), so every step runs along all rows at
+    once instead of along a row's few points.
+    """
+    reason = _blank(P.shape[0])
+    pt, lt = np.ascontiguousarray(P.T), np.ascontiguousarray(L.T)
+    dp = pt[1:] - pt[:-1]
+    dl = lt[1:] - lt[:-1]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        s = dl / dp
+        scale = np.maximum(np.abs(np.where(np.isfinite(s), s, 0)).max(axis=0), 1.0)
+        not_convex = ((s[1:] - s[:-1]) < -_CONVEX_TOL * scale).any(axis=0)
+        decreasing = (dl < 0).any(axis=0)
     ends = (
-        (np.abs(P[:, 0]) > 1e-12)
-        | (np.abs(L[:, 0]) > 1e-12)
-        | (np.abs(P[:, -1] - 1) > 1e-9)
-        | (np.abs(L[:, -1] - 1) > 1e-9)
+        (np.abs(pt[0]) > 1e-12)
+        | (np.abs(lt[0]) > 1e-12)
+        | (np.abs(pt[-1] - 1) > 1e-9)
+        | (np.abs(lt[-1] - 1) > 1e-9)
     )
     checks = [
         (not_convex, "the points are not convex (bracket means fall from one bracket to the next)"),
         (decreasing, "the cumulative income shares decrease"),
-        ((dp <= 0).any(axis=1), "a bracket has no population share"),
+        ((dp <= 0).any(axis=0), "a bracket has no population share"),
         (
-            ends | ~np.isfinite(P).all(axis=1) | ~np.isfinite(L).all(axis=1),
+            ends | ~np.isfinite(pt).all(axis=0) | ~np.isfinite(lt).all(axis=0),
             "the points do not run from (0, 0) to (1, 1)",
         ),
     ]
     for bad, text in checks:
-        reason[bad] = text
+        if bad.any():
+            reason[bad] = text
     return reason
 
 
@@ -1169,8 +1488,9 @@ def _assemble(method, batches, n, keys) -> LorenzFits:
     params = np.full((n, width), np.nan)
     sse, max_error = np.full(n, np.nan), np.full(n, np.nan)
     valid = np.zeros(n, bool)
-    reason = np.full(n, "", dtype=object)
-    used = np.full(n, method, dtype=object)
+    reason = _blank(n)
+    used = np.empty(n, dtype=object)
+    used.fill(method)
     parts = []
     for rows, batch, s, e, u in batches:
         params[rows, : batch.params.shape[1]] = batch.params

@@ -649,3 +649,95 @@ def test_three_parameter_fits_need_four_brackets_and_auto_still_answers():
         assert not fit.valid[0] and "at least 4 brackets" in fit.reason[0]
     auto = lorenz.fit_points(P, L, "auto")
     assert auto.used[0] == "lognormal" and auto.params[0, 0] == pytest.approx(SIGMA, abs=1e-9)
+
+
+# ---------------------------------------------------------------- batched shortcuts
+
+
+def _exact_lstsq(X, y):
+    """Least squares in exact rational arithmetic (Python fractions, normal equations)."""
+    from fractions import Fraction
+
+    A = [[Fraction(v) for v in row] for row in X]
+    b = [Fraction(v) for v in y]
+    q = len(A[0])
+    N = [[sum(r[i] * r[j] for r in A) for j in range(q)] for i in range(q)]
+    v = [sum(r[i] * t for r, t in zip(A, b, strict=True)) for i in range(q)]
+    for c in range(q):  # Gaussian elimination, exact
+        for r in range(c + 1, q):
+            f = N[r][c] / N[c][c]
+            N[r] = [N[r][j] - f * N[c][j] for j in range(q)]
+            v[r] -= f * v[c]
+    x = [Fraction(0)] * q
+    for r in range(q - 1, -1, -1):
+        x[r] = (v[r] - sum(N[r][j] * x[j] for j in range(r + 1, q))) / N[r][r]
+    return np.array([float(t) for t in x])
+
+
+@pytest.mark.parametrize("shared", [False, True])
+def test_batched_least_squares_equals_exact_rational_least_squares(shared):
+    """The vectorised Gram–Schmidt solve against exact arithmetic (Python fractions), for
+    row-specific design matrices and for one design shared by every row."""
+    rng = np.random.default_rng(11)
+    n, m = 12, 9
+    X = rng.uniform(-1, 1, (n, m, 3))
+    if shared:
+        X[:] = X[:1]
+    y = rng.normal(size=(n, m))
+    cols = [np.ascontiguousarray(X[:, :, j].T) for j in range(3)]
+    if shared:
+        cols = [c[:, :1] for c in cols]
+    got, ok = lorenz._lstsq_rows(cols, np.ascontiguousarray(y.T))
+    assert ok.all()
+    for row in range(n):
+        np.testing.assert_allclose(got[row], _exact_lstsq(X[row], y[row]), rtol=1e-13, atol=1e-14)
+
+
+def test_batched_least_squares_flags_a_rank_deficient_design():
+    """Two equal columns leave the solution undefined: NaN and a flag (common practice)."""
+    X = np.random.default_rng(2).uniform(size=(2, 6, 3))
+    X[1, :, 2] = X[1, :, 1]
+    cols = [np.ascontiguousarray(X[:, :, j].T) for j in range(3)]
+    got, ok = lorenz._lstsq_rows(cols, np.ones((6, 2)))
+    assert ok.tolist() == [True, False]
+    assert np.isnan(got[1]).all() and np.isfinite(got[0]).all()
+
+
+@pytest.mark.parametrize("a", [1e-7, 3e-4, 0.02, 0.3, 0.4999, 0.5, 0.77, 0.999, 1 - 2e-6])
+def test_quadratic_integrals_equal_scipy_quad_of_the_linear_slope(a):
+    """The quadratic curve's closed-form integrals against scipy.integrate.quad over p of
+    f(1 - a + 2 a p), for small a (series) and large a (elementary forms) alike."""
+    P = np.linspace(0, 1, 11)[None, :]
+    L = (1 - a) * P + a * P * P
+    keys = [*INTEGRAL_KEYS, "ge_3", "ge_-2", "atkinson_1.5"]
+    got = lorenz.fit_points(P, L, "quadratic").indices(keys)
+    a_fit = lorenz.fit_points(P, L, "quadratic").params[0, 0]
+
+    def mean(f):
+        return integrate.quad(lambda p: f(1 - a_fit + 2 * a_fit * p), 0, 1, epsabs=0, epsrel=1e-13)[
+            0
+        ]
+
+    # deviations from the mean, so the references keep their relative accuracy at small a
+    expected = {
+        "theil_t": mean(lambda y: y * np.log(y) - (y - 1)),
+        "mld": mean(lambda y: (y - 1) - np.log(y)),
+        "cv": np.sqrt(mean(lambda y: (y - 1) ** 2)),
+    }
+    for key in keys:
+        family, _, param = key.partition("_")
+        if family == "ge" and key not in expected:
+            alpha = float(param)
+            dev = mean(lambda y, t=alpha: y**t - 1 - t * (y - 1))
+            expected[key] = dev / (alpha * (alpha - 1))
+        elif family == "atkinson":
+            eps = float(param)
+            if eps == 1:
+                expected[key] = -np.expm1(-expected["mld"])
+            else:
+                t = 1 - eps
+                moment = 1 + mean(lambda y, t=t: y**t - 1 - t * (y - 1))
+                expected[key] = 1 - moment ** (1 / t)
+    for key in keys:
+        # the value's own rounding: a few units of 1e-16 on the node average near 1
+        assert got[key].value[0] == pytest.approx(expected[key], rel=1e-11, abs=2e-15), key
