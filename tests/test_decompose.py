@@ -198,6 +198,99 @@ def test_dagum_distance_equals_mean_gap_over_mean_difference():
     )
 
 
+def brute_pair_gini_and_distance(y, w, g):
+    """Dagum (1997) eqs. 2-10 pair by pair: G_jh (G_jj on the diagonal) and D_jh."""
+    labels = np.unique(g)
+    k = labels.size
+    gini, distance = np.zeros((k, k)), np.zeros((k, k))
+    for a, j in enumerate(labels):
+        for b, h in enumerate(labels):
+            yj, wj, yh, wh = y[g == j], w[g == j], y[g == h], w[g == h]
+            pair = np.outer(wj, wh) / (wj.sum() * wh.sum())
+            diff = yj[:, None] - yh[None, :]
+            mj, mh = np.dot(wj, yj) / wj.sum(), np.dot(wh, yh) / wh.sum()
+            gini[a, b] = (pair * np.abs(diff)).sum() / (mj + mh)
+            if a != b:
+                up, down = (
+                    (pair * np.clip(diff, 0, None)).sum(),
+                    (pair * np.clip(-diff, 0, None)).sum(),
+                )
+                rich, poor = (up, down) if mj >= mh else (down, up)
+                distance[a, b] = (rich - poor) / (rich + poor)
+    return gini, distance
+
+
+@pytest.mark.parametrize(("chunk", "groups"), [(40, 7), (64, 3), (1000, 60), (33, 60)])
+def test_dagum_matches_brute_force_when_units_span_many_chunks_and_blocks(
+    monkeypatch, chunk, groups
+):
+    """Against Dagum's definitions pair by pair, with the pooled units cut into many small
+    chunks and blocks (ties across groups, zero weights, a padded last chunk)."""
+    monkeypatch.setattr(decompose, "_CHUNK_UNITS", chunk)
+    rng = np.random.default_rng(chunk + groups)
+    n = 421
+    y = rng.lognormal(0.0, 0.9, n)
+    y[:40] = y[40:80]  # ties across groups
+    w = rng.integers(0, 4, n).astype(float)
+    c = np.arange(n) % groups  # every group present, with weight
+    w[:groups] = 1.0
+    split = decompose.dagum_split(y, w, c)
+    brute = brute_dagum(y, w, c)
+    np.testing.assert_allclose(
+        split.components(), [brute["within"], brute["between"], brute["overlap"]], atol=1e-12
+    )
+    gini, distance = brute_pair_gini_and_distance(y, w, c)
+    np.testing.assert_allclose(split.pair_gini, gini, rtol=1e-10, atol=1e-14)
+    np.testing.assert_allclose(split.pair_distance, distance, rtol=0, atol=1e-10)
+
+
+def test_pooled_order_sorts_incomes_that_differ_only_in_the_last_bits():
+    """The sort key drops the low bits of each income; neighbouring doubles (one ulp
+    apart, given in falling order) and a negative zero must still come out in numpy's
+    np.sort order (common practice: the reference sort)."""
+    y = (1.0 + np.arange(300) * 2.0**-52)[::-1].copy()
+    y = np.concatenate([y, [0.0, -0.0, 3.0, 2.0**-1074]])
+    order, ordered = decompose._pooled_order(y)
+    np.testing.assert_array_equal(np.sort(order), np.arange(y.size))  # a permutation
+    np.testing.assert_array_equal(ordered, np.sort(y))
+    np.testing.assert_array_equal(y[order], ordered)
+
+
+def test_dagum_on_incomes_one_ulp_apart_matches_brute_force():
+    """Dagum (1997) pair by pair on incomes that differ only in the last bits of the
+    mantissa, in falling order, where a sort on truncated keys alone would misorder them."""
+    y = 1.0 + np.arange(200)[::-1] * 2.0**-52
+    c = np.arange(200) % 3
+    split = decompose.dagum_split(y, None, c)
+    brute = brute_dagum(y, np.ones_like(y), c)
+    np.testing.assert_allclose(
+        split.components(), [brute["within"], brute["between"], brute["overlap"]], atol=1e-15
+    )
+
+
+@pytest.mark.parametrize(
+    "labels",
+    [
+        np.array([3, 1, 3, 7, 1]),
+        np.array([0, 1, 2, 1, 0]),
+        np.array([5, 2, 5], dtype=np.uint8),
+        np.array([4, 9, 4], dtype=np.uint64),
+        np.array([-2, 5, 5]),
+        np.array([2**40, 1, 2**40]),
+        np.array(["b", "a", "b"]),
+    ],
+)
+def test_dagum_group_codes_agree_with_pandas_factorize(labels):
+    """The counting pass for integer labels gives pandas.factorize(sort=True)'s codes and
+    sorted labels (pandas as the reference), and leaves the labels as they were."""
+    before = labels.copy()
+    codes, uniques = decompose._group_codes(labels)
+    ref_codes, ref_uniques = pd.factorize(labels, sort=True)
+    np.testing.assert_array_equal(codes, ref_codes)
+    np.testing.assert_array_equal(uniques, ref_uniques)
+    np.testing.assert_array_equal(labels, before)
+
+
 @settings(max_examples=30, deadline=None)
 @given(
     seed=samples,
