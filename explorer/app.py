@@ -28,7 +28,10 @@ def main() -> None:
     try:
         catalog = ui.catalog()
         state.start(catalog)
-        state.update(page=page_name)
+        # Intake is where views are saved and reports made: the view keeps the last
+        # analysis page, so a view file saved there reopens what was being looked at.
+        if page_name != "intake":
+            state.update(page=page_name)
         state.sidebar(catalog, state.panel())
     except DataError as error:
         ui.problems(error, heading="The dataset could not be opened")

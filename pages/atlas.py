@@ -1,5 +1,7 @@
 """Atlas: the districts coloured by the chosen index, year and Lorenz method."""
 
+import dataclasses
+
 import pandas as pd
 import streamlit as st
 
@@ -37,12 +39,15 @@ with middle:
     )
 with right:
     ui.control("k", st.slider, "Number of classes", min_value=3, max_value=9)
+means_only = panel.kind == "means"
 mark_wide = ui.control(
     layout.INTERVAL_FIELD,
     st.toggle,
     "Mark districts whose bounds are wide",
     help="Dashed outline where the range between lower and upper bound is more than "
-    f"{layout.WIDE_SHARE:.0%} of the value: the figure is uncertain there.",
+    f"{layout.WIDE_SHARE:.0%} of the value: the figure is uncertain there."
+    + (" District means have no bounds, so there is nothing to mark." if means_only else ""),
+    disabled=means_only,
 )
 view = ui.current_view()
 
@@ -55,6 +60,12 @@ if missing:
     st.warning(missing)
 
 classification = charts.classify(layer_table["value"], view.classes, view.k)
+if means_only:
+    # Incomes read best in whole currency units with thousands separators.
+    edges = classification.edges
+    money = tuple(f"{lo:,.0f} – {hi:,.0f}" for lo, hi in zip(edges[:-1], edges[1:], strict=True))
+    if len(set(money)) == len(money) == classification.k:
+        classification = dataclasses.replace(classification, labels=money)
 layer_table["klass"] = classification.assign(layer_table["value"])
 if not mark_wide:
     layer_table["wide"] = False
@@ -76,8 +87,12 @@ if features is not None and layer == "Local clusters":
     chart = charts.clusters_map(
         layout.with_property(features, local, "cluster"),
         title=f"Local clusters of {value_label}, {view.year}",
-        caption=layout.caption(view, panel)
-        + " Local Moran (Anselin 1995), queen contiguity, 499 permutations, 5 % level.",
+        caption=layout.wrap(
+            layout.caption(view, panel)
+            + " Local Moran (Anselin 1995), queen contiguity, 499 permutations, 5 % level."
+            " High-high: a high value among high neighbours; low-low: low among low; "
+            "high-low and low-high: a district unlike its neighbours."
+        ),
         selected=view.districts,
     )
 elif features is not None:
@@ -86,7 +101,15 @@ elif features is not None:
         value_label=value_label,
         classes=classification.labels,
         title=f"{value_label}, {view.year}",
-        caption=layout.caption(view, panel),
+        caption=layout.wrap(
+            layout.caption(view, panel)
+            + (
+                " Dashed outline: bounds wider than "
+                f"{layout.WIDE_SHARE:.0%} of the value (the figure is uncertain there)."
+                if mark_wide and not means_only
+                else ""
+            )
+        ),
         selected=view.districts,
     )
 else:
@@ -103,22 +126,53 @@ if chart is not None:
 ranked = layout.ranking(layer_table)
 if len(ranked):
     top, bottom, middle_value = st.columns(3)
-    top.metric(f"Highest: {ranked['name'].iloc[0]}", f"{ranked['value'].iloc[0]:.3f}")
-    bottom.metric(f"Lowest: {ranked['name'].iloc[-1]}", f"{ranked['value'].iloc[-1]:.3f}")
-    middle_value.metric("Median of districts", f"{ranked['value'].median():.3f}")
+    top.metric(
+        f"Highest: {ranked['name'].iloc[0]}",
+        layout.figure(ranked["value"].iloc[0], money=means_only),
+    )
+    bottom.metric(
+        f"Lowest: {ranked['name'].iloc[-1]}",
+        layout.figure(ranked["value"].iloc[-1], money=means_only),
+    )
+    middle_value.metric(
+        "Median of districts", layout.figure(ranked["value"].median(), money=means_only)
+    )
 
 wide_count = int(layer_table["wide"].sum()) if mark_wide else int(layout.wide(layer_table).sum())
 ui.cautions(panel, ranking=True, wide_intervals=wide_count)
 
-with st.expander("Districts ranked (1 = most unequal)", expanded=False):
-    ui.table(
-        ranked[["rank", "name", "region", "county", "value", "lower", "upper", "klass"]].rename(
-            columns=layout.COLUMN_LABELS
-        ),
-        "atlas_ranking",
+ranking_title = (
+    "Districts ranked (1 = highest mean income)"
+    if means_only
+    else "Districts ranked (1 = most unequal)"
+)
+with st.expander(ranking_title, expanded=False):
+    st.caption(
+        "Neighbouring ranks often differ by little: read a rank with the figures beside it, "
+        "not as a verdict."
+        if means_only
+        else "Neighbouring ranks often differ by less than the bounds: read a rank with its "
+        "bounds, not as a verdict."
     )
+    ranked_rows = ranked[
+        ["rank", "name", "region", "county", "value", "lower", "upper", "klass"]
+    ].rename(columns=layout.COLUMN_LABELS)
+    value_format = "%,.0f" if means_only else "%.4f"
+    shown_ranked, options = layout.planner_table(
+        ranked_rows,
+        {
+            **{label: label for label in ranked_rows.columns},
+            "Value": "Mean income" if means_only else value_label,
+        },
+        formats={"Value": value_format, "Lower bound": value_format, "Upper bound": value_format},
+    )
+    if means_only:
+        options["column_order"] = [
+            c for c in options["column_order"] if c not in ("Lower bound", "Upper bound")
+        ]
+    ui.table(shown_ranked, "atlas_ranking", **options)
 ui.downloads(
-    f"atlas-{view.index}-{view.year}",
+    f"atlas-{'mean-income' if means_only else view.index}-{view.year}",
     key="atlas",
     table=pd.DataFrame(ranked),
     chart=chart,

@@ -1,5 +1,7 @@
 """Breakdown: how much of the province's inequality lies within and between groups."""
 
+import altair as alt
+import pandas as pd
 import streamlit as st
 
 from explorer import charts, ui
@@ -32,29 +34,72 @@ with right:
         + (" → ".join([*levels, "district"]) if levels else "districts (no higher level found)")
     )
 view = ui.current_view()
+PART_WORDS = {
+    "within": "Within groups",
+    "between": "Between groups",
+    "overlap": "Overlap of groups (Gini)",
+}
 
 parts = here.breakdown(levels, index)
 by_level = layout.per_level(parts)
 chart = charts.components(
     by_level,
     index=index,
-    caption=layout.caption(view, panel).replace(f", {view.year}", "")
-    + " Bar height = the province's total.",
+    caption=layout.wrap(
+        layout.caption(view, panel).replace(f", {view.year}", "")
+        + " Bar height = the province's total. Within: inequality inside the groups; between: "
+        "differences of the groups' mean incomes"
+        + ("; overlap: incomes of groups that overlap." if index == "gini" else ".")
+    ),
 )
-st.altair_chart(layout.fit_facets(chart, panels=by_level["level"].nunique()), key="breakdown_chart")
+shown_chart = layout.relabel_chart(chart, "component", PART_WORDS)
+shown_chart = layout.relabel_chart(
+    shown_chart,
+    "groups",
+    {g: layout.groups_word(g).capitalize() for g in (*levels, "district", "districts")},
+)
+st.altair_chart(
+    layout.fit_facets(shown_chart, panels=by_level["level"].nunique()), key="breakdown_chart"
+)
 
 shares = layout.share_table(by_level, view.year)
 st.markdown(f"**{view.year}: share of the province's {ui.index_label(index)}**")
 columns = st.columns(max(len(shares), 1))
 for column, row in zip(columns, shares.itertuples(index=False), strict=False):
     column.metric(
-        f"{row.component} ({row.level})",
-        f"{row.share:.1%}",
-        help=f"{row.value:.4f} of the province's {ui.index_label(index)}",
+        layout.part_label(row.component, row.level),
+        f"{float(layout.tidy_zero(pd.Series([row.share])).iloc[0]):.1%}",
+        help=f"{layout.figure(row.value, digits=4)} of the province's {ui.index_label(index)}",
     )
-ui.table(by_level[by_level["year"] == view.year], "breakdown_table")
+PART_TABLE = {
+    "year": "Year",
+    "level": "Groups",
+    "group": "Group",
+    "component": "Part",
+    "value": "Value",
+    "share": "Share of the total",
+}
+PART_TEXT = {
+    "level": lambda row: layout.groups_word(row["level"]).capitalize(),
+    "group": lambda row: "All" if row["group"] == "(all)" else row["group"],
+    "component": lambda row: layout.part_label(row["component"], row["level"]),
+}
+
+
+def part_table(frame: pd.DataFrame, key: str) -> None:
+    """A decomposition table with planner words (its data keep the keys)."""
+    tidy = frame.assign(
+        value=layout.tidy_zero(frame["value"]), share=layout.tidy_zero(frame["share"])
+    )
+    shown, options = layout.planner_table(
+        tidy, PART_TABLE, words=PART_TEXT, formats={"share": "percent"}
+    )
+    ui.table(shown, key, **options)
+
+
+part_table(by_level[by_level["year"] == view.year], "breakdown_table")
 with st.expander("The full split, group by group"):
-    ui.table(parts[parts["year"] == view.year], "breakdown_detail")
+    part_table(parts[parts["year"] == view.year], "breakdown_detail")
 ui.downloads(f"breakdown-{index}", key="breakdown", table=parts, chart=chart)
 
 st.subheader("What changed between two years")
@@ -72,9 +117,39 @@ else:
     if change_index != index:
         st.caption("The change is split for the mean log deviation (Mookherjee & Shorrocks 1982).")
     terms = here.change(levels, change_index, view.year_from, view.year_to)
-    bars = charts.change_bars(terms)
-    st.altair_chart(bars, key="change_chart")
-    ui.table(terms, "change_table")
+    inner = [lv for lv in dict.fromkeys(terms["level"]) if lv != "total"]
+    # With one level of groups the total sits with its terms: one panel, not two.
+    folded = terms.assign(level=inner[0]) if len(inner) == 1 else terms
+    bars = charts.change_bars(folded)
+    term_words = {
+        key: layout.part_label(key, inner[0] if len(inner) == 1 else "")
+        for key in dict.fromkeys(terms["component"])
+    }
+    term_words["total"] = "Total change"
+    shown_bars = layout.relabel_chart(bars, "component", term_words)
+    try:
+        shown_bars.encoding.y.axis = alt.Axis(labelLimit=320)
+    except AttributeError:
+        pass
+    st.altair_chart(shown_bars, key="change_chart")
+    st.caption(
+        "Terms of the change (Mookherjee & Shorrocks 1982): "
+        + "; ".join(
+            f"**{term_words[key]}**: {layout.CHANGE_TERM_HELP[key]}"
+            for key in term_words
+            if key in layout.CHANGE_TERM_HELP
+        )
+        + "."
+    )
+    shown_terms, options = layout.planner_table(
+        terms.assign(
+            value=layout.tidy_zero(terms["value"]), share=layout.tidy_zero(terms["share"])
+        ),
+        {**PART_TABLE, "year": "Years", "component": "Term", "share": "Share of the change"},
+        words=PART_TEXT,
+        formats={"share": "percent"},
+    )
+    ui.table(shown_terms, "change_table", **options)
     ui.downloads(
         f"change-{change_index}-{view.year_from}-{view.year_to}",
         key="change",

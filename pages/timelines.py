@@ -8,6 +8,7 @@ from explorer.ui import layout, trends
 here = ui.here()
 view, panel = here.view, here.panel
 st.title("Timelines")
+st.caption(layout.describe_view(view, panel).rsplit(" · ", 1)[0] + " · every year")
 
 district_names = layout.names(panel)
 labels = dict(zip(district_names["region"], district_names["name"], strict=True))
@@ -22,6 +23,7 @@ with left:
         to_view=tuple,
         from_view=list,
         max_selections=8,
+        placeholder="Choose up to 8 districts",
     )
 with right:
     by_county = st.toggle(
@@ -46,8 +48,10 @@ else:
         province=province,
         by_county=by_county,
         title=f"{layout.value_label(view, panel)} by district over time",
-        caption=layout.caption(view, panel).replace(f", {view.year}", "")
-        + (" Dashed black: the whole province." if province is not None else ""),
+        caption=layout.wrap(
+            layout.caption(view, panel).replace(f", {view.year}", "")
+            + (" Dashed black: the whole province." if province is not None else "")
+        ),
     )
     st.altair_chart(chart, key="timelines_chart")
     if view.districts:

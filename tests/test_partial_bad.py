@@ -31,7 +31,9 @@ def damaged(tmp_path_factory):
 
 def test_only_the_bad_district_year_is_set_aside_with_its_reason(damaged):
     panel, frame = damaged
-    assert list(zip(panel.excluded["region"], panel.excluded["year"], strict=True)) == [(BAD_REGION, BAD_YEAR)]
+    assert list(zip(panel.excluded["region"], panel.excluded["year"], strict=True)) == [
+        (BAD_REGION, BAD_YEAR)
+    ]
     assert "sum to" in panel.excluded["reason"].iloc[0]
     kept = panel.data[["region", "year"]].drop_duplicates()
     assert len(kept) == len(frame) - 1

@@ -155,17 +155,32 @@ def summary(panel: Any, dataset_id: str) -> None:
         described = panel.describe()
     except Exception:
         described = {"kind": panel.kind, "districts": len(panel.regions)}
-    show.table(
-        pd.DataFrame({"item": list(described), "value": [str(v) for v in described.values()]}),
-        "intake_summary",
+    described = {key: value for key, value in described.items() if value is not None}
+    rows = pd.DataFrame(
+        {
+            "item": list(described),
+            "value": [str(v) for v in described.values()],
+            "What": [SUMMARY_ITEMS.get(k, k.replace("_", " ").capitalize()) for k in described],
+            "Found": [summary_text(k, v) for k, v in described.items()],
+        }
     )
+    # The data keep the short keys (item, value); the reader sees the two word columns.
+    show.table(rows, "intake_summary", column_order=["What", "Found"])
     if panel.warnings:
         st.warning(f"{len(panel.warnings)} warning(s): the data were used, but check these.")
-        show.table(DataError(panel.warnings).table(), "intake_warnings")
+        show.problem_table(DataError(panel.warnings), "intake_warnings")
     excluded = getattr(panel, "excluded", None)
     if excluded is not None and len(excluded):
         st.warning(f"{len(excluded)} district-year(s) were left out because of their values.")
-        show.table(excluded, "intake_excluded")
+        show.table(
+            excluded,
+            "intake_excluded",
+            column_config={
+                "region": "District",
+                "year": st.column_config.NumberColumn("Year", format="%d"),
+                "reason": "Why it was left out",
+            },
+        )
     sources, options = st.session_state.get("rift_upload_sources", {}).get(
         panel.fingerprint, ([], {})
     )
@@ -183,6 +198,54 @@ def summary(panel: Any, dataset_id: str) -> None:
             state.update(dataset=saved)
             st.session_state["intake_last"] = None
             st.rerun()
+
+
+SUMMARY_ITEMS = {
+    "kind": "Kind of data",
+    "name": "Name",
+    "income_concept": "Income concept",
+    "districts": "Districts",
+    "district_years": "District-years used",
+    "years": "Years",
+    "brackets": "Income groups per district-year",
+    "units": "Records per district-year",
+    "levels": "Higher levels",
+    "boundaries": "Boundaries",
+    "warnings": "Warnings",
+    "excluded": "District-years left out",
+    "fingerprint": "Content fingerprint",
+}
+
+
+def _names(items: Any, most: int = 8) -> str:
+    items = [str(i) for i in items]
+    return ", ".join(items[:most]) + (f" and {len(items) - most} more" if len(items) > most else "")
+
+
+def summary_text(item: str, value: Any) -> str:
+    """One line of the upload summary in words (never a Python dict or list)."""
+    if item == "kind":
+        return KINDS.get(str(value), str(value))
+    if item == "income_concept":
+        return str(value) or "not stated in the file"
+    if item == "years" and isinstance(value, dict):
+        first, last, count = value.get("first"), value.get("last"), value.get("count", 0)
+        return f"{first}–{last} ({count} years)" if count else "none"
+    if item in ("brackets", "units") and isinstance(value, dict):
+        low, high = value.get("min"), value.get("max")
+        return f"{low}" if low == high else f"{low} to {high}"
+    if item == "levels" and isinstance(value, dict):
+        return "; ".join(f"{n} {layout.groups_word(lv)}" for lv, n in value.items()) or "none"
+    if item == "boundaries" and isinstance(value, dict):
+        text = f"{value.get('matched', 0)} districts matched"
+        if value.get("panel_only"):
+            text += f"; without a boundary: {_names(value['panel_only'])}"
+        if value.get("boundary_only"):
+            text += f"; boundaries without data: {_names(value['boundary_only'])}"
+        return text
+    if isinstance(value, int | float) and not isinstance(value, bool):
+        return f"{value:,}"
+    return str(value)
 
 
 def stored_datasets() -> None:
@@ -212,7 +275,10 @@ def stored_datasets() -> None:
 def results_out(here: state.Here) -> None:
     """Downloads of the computed tables, the view file and the one-file report."""
     view, panel = here.view, here.panel
-    st.markdown(f"**Dataset:** {panel.name or view.dataset} (fingerprint `{panel.fingerprint}`)")
+    st.markdown(
+        f"**Dataset:** {layout.dataset_name(view, panel)} "
+        f"(content fingerprint `{panel.fingerprint}`, the same for the same data)"
+    )
     if panel.kind != "means":
         table = here.indices()
         st.markdown("**Every index, district and year**")

@@ -62,7 +62,44 @@ def table(frame: pd.DataFrame, key: str, **kwargs: Any) -> None:
 def problems(error: DataError, *, heading: str = "The data could not be used") -> None:
     """Show every problem of a DataError as a table a planner can work through."""
     st.error(f"{heading}: {len(error.problems)} problem(s) found. Fix them and try again.")
-    table(error.table(), "problems_table", width="stretch")
+    problem_table(error, "problems_table")
+
+
+def problem_table(error: DataError, key: str) -> None:
+    """The problems as a table (blank where no line or column) and in full sentences."""
+    listed = error.table()
+    # The table's cells cut long sentences; the list below says each problem in full.
+    # Blank, not "None", where a problem has no line or column (text columns: Arrow-safe).
+    listed = listed.apply(lambda column: column.map(_cell))
+    table(listed, key, width="stretch")
+    lines = []
+    for problem in error.problems[:_LISTED]:
+        where = ", ".join(
+            part
+            for part in (
+                problem.file,
+                f"line {problem.row}" if problem.row is not None else "",
+                f"column '{problem.column}'" if problem.column else "",
+            )
+            if part
+        )
+        fix = f" **How to fix:** {problem.fix}" if problem.fix else ""
+        lines.append(f"- {f'**{where}**: ' if where else ''}{problem.message}.{fix}")
+    more = len(error.problems) - _LISTED
+    if more > 0:
+        lines.append(f"- … and {more} more in the table above.")
+    st.markdown("\n".join(lines))
+
+
+_LISTED = 20
+
+
+def _cell(value: Any) -> str:
+    if value is None or (not isinstance(value, str) and bool(pd.isna(value))):
+        return ""  # None, NaN and pandas' NA alike
+    if isinstance(value, float) and value.is_integer():
+        return str(int(value))
+    return str(value)
 
 
 @contextmanager

@@ -222,6 +222,12 @@ def sidebar(catalog: Sequence[data.Dataset], panel: Any) -> None:
             "Inequality index",
             list(INDEX_LABELS),
             format_func=index_label,
+            # One mean per district has no inequality inside districts to measure.
+            disabled=panel.kind == "means",
+            help="District means only: the pages show mean incomes and the inequality "
+            "between districts (Breakdown) instead of an index per district."
+            if panel.kind == "means"
+            else None,
         )
         if panel.kind == "brackets":
             control(

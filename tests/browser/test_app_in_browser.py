@@ -217,3 +217,69 @@ def test_the_atlas_downloads_its_map_as_svg_png_and_clockwise_geojson(server, co
             assert shapely.is_valid(polygon)
     ranked = pd.read_csv(io.BytesIO(download(page, "Table (CSV)", tmp_path)))
     assert len(ranked) == 46 and (ranked["value"].diff().dropna() <= 0).all()
+
+
+def chart_texts(page, first_line: str) -> list[str]:
+    """Every text Vega drew, once every chart has drawn and one begins with ``first_line``."""
+    page.wait_for_function(
+        "(start) => [...document.querySelectorAll('[data-testid=\"stVegaLiteChart\"]')]"
+        ".every(c => c.querySelector('svg text')) && [...document.querySelectorAll("
+        "'[data-testid=\"stVegaLiteChart\"] svg text')].some(t => t.textContent"
+        ".startsWith(start))",
+        arg=first_line,
+        timeout=60_000,
+    )
+    page.wait_for_timeout(500)  # the other charts of the page finish their drawing
+    return page.evaluate(
+        "() => [...document.querySelectorAll('[data-testid=\"stVegaLiteChart\"] svg text')]"
+        ".map(t => t.textContent)"
+    )
+
+
+def test_no_title_caption_axis_or_legend_text_is_cut_off(server, context):
+    # Vega shortens a text longer than its limit with an ellipsis (Vega docs: "limit");
+    # a cut caption hides the data source and the method a planner needs.
+    page = context.new_page()
+    for path in ("", "timelines", "breakdown", "district"):
+        page.goto(f"{server}/{path}")
+        settle(page)
+        texts = chart_texts(page, "Dots: " if path == "district" else "Data: ")
+        assert not [text for text in texts if text.endswith("…")], (path, texts)
+        no_errors(page)
+
+
+def test_a_view_file_saved_on_intake_reopens_its_page_and_year(server, context, tmp_path):
+    page = context.new_page()
+    page.goto(f"{server}/timelines?y=2012&ix=theil_t")
+    settle(page)
+    page.get_by_role("link", name="Intake").click()
+    settle(page)
+    page.get_by_role("tab", name="Take results out").click()
+    saved = tmp_path / "view.json"
+    saved.write_bytes(download(page, "View file (JSON)", tmp_path))
+    page.goto(f"{server}/intake?y=2019")
+    settle(page)
+    page.get_by_role("tab", name="Take results out").click()
+    page.locator('[data-testid="stFileUploader"] input[type="file"]').last.set_input_files(saved)
+    page.get_by_role("button", name="Apply the view file").click()
+    page.wait_for_url(re.compile(r"/timelines\?"), timeout=60_000)
+    settle(page)
+    assert page.locator("h1").first.inner_text().strip() == "Timelines"
+    assert query(page)["y"] == "2012" and query(page)["ix"] == "theil_t"
+    no_errors(page)
+    shot(page, "view-file-reopened")
+
+
+def test_a_panel_with_one_broken_district_year_is_used_and_the_problem_written_out(server, context):
+    frame = pd.read_csv(ROOT / "demo_data" / "deciles.csv")
+    broken = (frame["region"] == "OSS03") & (frame["year"] == 2020)
+    frame.loc[broken, "share_3"] = 0.9  # the shares of this district-year no longer sum to 1
+    page = context.new_page()
+    upload_panel(page, server, "one_broken.csv", frame.to_csv(index=False).encode())
+    text = page.locator('[data-testid="stMain"]').inner_text()
+    assert "1 district-year(s) were left out" in text
+    # The full sentence, not a cut-off table cell: where, what and how to fix.
+    assert re.search(r"one_broken\.csv, line \d+, column 'income_share'", text)
+    assert "district OSS03, year 2020 left out" in text and "How to fix:" in text
+    no_errors(page)
+    shot(page, "upload-one-broken")
