@@ -79,14 +79,14 @@ _COMPONENT_ORDER = ("within", "between", "overlap")
 _YEAR_X = alt.X("year:O", title="Year", axis=alt.Axis(labelAngle=0))
 
 _INDEX_LABELS = {
-    "gini": "Gini index (0 = equal, 1 = one holds all)",
+    "gini": "Gini coefficient (0 = equal, 1 = one holds all)",
     "theil_t": "Theil T (0 = equal)",
-    "mld": "Mean log deviation (0 = equal)",
+    "mld": "Mean log deviation, Theil L (0 = equal)",
     "cv": "Coefficient of variation (ratio)",
     "palma": "Palma ratio (top 10 % ÷ bottom 40 %)",
     "s80_s20": "S80/S20 ratio (top 20 % ÷ bottom 20 %)",
-    "top10_share": "Top 10 % income share (0–1)",
-    "bottom40_share": "Bottom 40 % income share (0–1)",
+    "top10_share": "Income share of the top 10 % (0–1)",
+    "bottom40_share": "Income share of the bottom 40 % (0–1)",
 }
 
 
@@ -107,7 +107,7 @@ def index_label(index: str) -> str:
     if index.startswith("ge_"):
         return f"Generalised entropy GE({index[3:]}) (0 = equal)"
     if index.startswith("atkinson_"):
-        return f"Atkinson index, ε = {index[9:]} (0–1)"
+        return f"Atkinson (ε = {index[9:]}) (0–1)"
     return index
 
 

@@ -12,9 +12,9 @@ import numpy as np
 import pandas as pd
 
 DEMO_DATASETS: dict[str, tuple[str, str]] = {
-    "demo": ("Demo province: decile shares", "brackets"),
-    "demo-households": ("Demo province: household sample", "units"),
-    "demo-means": ("Demo province: district means", "means"),
+    "demo": ("Demo: decile shares", "brackets"),
+    "demo-households": ("Demo: household sample", "units"),
+    "demo-means": ("Demo: district means", "means"),
 }
 
 INDEX_LABELS: dict[str, str] = {
