@@ -624,9 +624,13 @@ def validate(
     reasons = fails.first()
     bad = reasons["gid"].to_numpy(dtype=np.int64)
     all_out = len(bad) == n_groups
+    # A wide file has no income_share column: name its own share columns instead.
+    own_shares = f"{share_cols[0]}…{share_cols[-1]}" if kind == "brackets" and wide else None
     for g, ln, col, msg in zip(
         bad, reasons["line"], reasons["column"], reasons["message"], strict=True
     ):
+        if own_shares and col == "income_share":
+            col, msg = own_shares, msg.replace("the income_share values", "the shares")
         log.add(
             f"district {g_region[g]}, year {g_year[g]} left out: {msg}",
             "correct this district-year in the file; the rest of the panel is used without it",
@@ -659,7 +663,13 @@ def validate(
         {
             "region": pd.Series(g_region[bad], dtype=str),
             "year": pd.Series(g_year[bad], dtype="int64"),
-            "reason": pd.Series(reasons["message"].to_numpy(dtype=object), dtype=str),
+            "reason": pd.Series(
+                [
+                    m.replace("the income_share values", "the shares") if own_shares else m
+                    for m in reasons["message"].to_numpy(dtype=object)
+                ],
+                dtype=str,
+            ),
         }
     )
 
