@@ -27,17 +27,21 @@ CONVEX_TOL = 1e-9  # relative slack on bracket mean incomes (rounding of printed
 LISTED = 8  # how many lines or ids a message names before "and N more"
 
 _SHARE_COLUMN = re.compile(r"^share_(\d+)$")
-_DATA_COLUMNS = {
-    "region",
-    "year",
-    "bracket",
-    "pop_share",
-    "income_share",
-    "population",
-    "mean_income",
-    "income",
-    "weight",
+#: The columns of ``Panel.data`` for each kind, in order (the contract of DEVELOPERS.md).
+KIND_COLUMNS: dict[str, tuple[str, ...]] = {
+    "brackets": (
+        "region",
+        "year",
+        "bracket",
+        "pop_share",
+        "income_share",
+        "population",
+        "mean_income",
+    ),
+    "units": ("region", "year", "income", "weight"),
+    "means": ("region", "year", "mean_income", "population"),
 }
+_DATA_COLUMNS = {column for columns in KIND_COLUMNS.values() for column in columns}
 _NOT_LEVELS = _DATA_COLUMNS | {"name", "income_concept", "geometry"}
 _NAME_ATTRIBUTES = ("name", "district_name", "district", "label", "title")
 

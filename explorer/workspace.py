@@ -31,7 +31,7 @@ import pandas as pd
 import platformdirs
 from pyarrow import ArrowException
 
-from explorer.panel import DataError, Panel, Problem
+from explorer.panel import KIND_COLUMNS, DataError, Panel, Problem
 
 __all__ = ["SCHEMA_VERSION", "Workspace", "dataset_id", "safe_name"]
 
@@ -53,19 +53,6 @@ _RESERVED = frozenset(
     ["CON", "PRN", "AUX", "NUL", "CONIN$", "CONOUT$"]
     + [f"{p}{i}" for p in ("COM", "LPT") for i in range(10)]
 )
-_KIND_COLUMNS = {
-    "brackets": (
-        "region",
-        "year",
-        "bracket",
-        "pop_share",
-        "income_share",
-        "population",
-        "mean_income",
-    ),
-    "units": ("region", "year", "income", "weight"),
-    "means": ("region", "year", "mean_income", "population"),
-}
 
 Source = Path | str | tuple[str, bytes]
 
@@ -537,7 +524,7 @@ class Workspace:
         for key, kind in required.items():
             if not isinstance(manifest.get(key), kind):
                 raise _damaged(ident, f"its manifest lacks a valid {key!r}", where)
-        if manifest["id"] != ident or manifest["kind"] not in _KIND_COLUMNS:
+        if manifest["id"] != ident or manifest["kind"] not in KIND_COLUMNS:
             raise _damaged(ident, "its manifest does not match its folder", where)
         return manifest
 
@@ -639,7 +626,7 @@ class Workspace:
     ) -> None:
         """Cheap structural checks: the columns each table must have."""
         expected = {
-            "data": _KIND_COLUMNS[manifest["kind"]],
+            "data": KIND_COLUMNS[manifest["kind"]],
             "hierarchy": ("region", *manifest["levels"]),
             "excluded": ("region", "year", "reason"),
         }
