@@ -243,3 +243,17 @@ def test_check_save_stores_the_dataset_once_and_leaves_the_inputs_alone(tmp_path
     reopened = Workspace(folder).open(stored["id"].iloc[0])
     assert reopened.fingerprint == io.load_panel(panel_path, boundary_path).fingerprint
     assert hashlib.sha256(panel_path.read_bytes()).hexdigest() == before
+
+
+def test_python_dash_m_explorer_is_the_same_command_line():
+    import subprocess
+    import sys
+
+    done = subprocess.run(
+        [sys.executable, "-m", "explorer", "check", "demo"],
+        capture_output=True,
+        text=True,
+        timeout=120,
+    )
+    assert done.returncode == 0, done.stderr
+    assert done.stdout.strip().endswith("valid")
