@@ -1,0 +1,165 @@
+"""Benchmark: redraw of the Atlas in a real browser after a change of index or year.
+
+    python benchmarks/browser_redraw.py          # 8 changes of each kind
+    python benchmarks/browser_redraw.py --quick  # 4 of each
+
+Starts the app on the demo (loopback only), drives Debian's Chromium with playwright, and
+times each change from the click or key press until the map's new title has been drawn by
+Vega. The baseline, measured in the same run, is a full reload of the same view: what a
+user would otherwise wait for. Needs /usr/bin/chromium. The last line is one JSON object.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import resource
+import socket
+import statistics
+import subprocess
+import sys
+import tempfile
+import time
+import urllib.request
+from pathlib import Path
+
+from playwright.sync_api import sync_playwright
+
+ROOT = Path(__file__).resolve().parent.parent
+ARGS = [
+    "--no-sandbox",
+    "--disable-gpu",
+    "--disable-background-networking",
+    "--disable-component-update",
+    "--disable-sync",
+    "--no-first-run",
+]
+INDICES = [
+    ("Theil T", "Theil T"),
+    ("Gini coefficient", "Gini"),
+    ("Mean log deviation (Theil L)", "Mean log"),
+]
+DRAWN = (
+    "(want) => [...document.querySelectorAll('[data-testid=\"stVegaLiteChart\"] svg text')]"
+    ".some(t => t.textContent.startsWith(want) || t.textContent.includes(want))"
+)
+
+
+def free_port() -> int:
+    with socket.socket() as sock:
+        sock.bind(("127.0.0.1", 0))
+        return sock.getsockname()[1]
+
+
+def start_server(port: int, data: str) -> subprocess.Popen:
+    command = [
+        sys.executable,
+        "-m",
+        "streamlit",
+        "run",
+        str(ROOT / "explorer" / "app.py"),
+        "--server.port",
+        str(port),
+        "--server.headless",
+        "true",
+        "--server.address",
+        "127.0.0.1",
+        "--browser.gatherUsageStats",
+        "false",
+    ]
+    server = subprocess.Popen(
+        command,
+        cwd=ROOT,
+        env={**os.environ, "RIFT_DATA": data},
+        stdout=subprocess.DEVNULL,
+        stderr=subprocess.DEVNULL,
+    )
+    deadline = time.time() + 60
+    while time.time() < deadline:
+        try:
+            urllib.request.urlopen(f"http://127.0.0.1:{port}/_stcore/health", timeout=2)
+            return server
+        except OSError:
+            time.sleep(0.3)
+    server.terminate()
+    raise SystemExit("the app did not start within 60 s")
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--quick", action="store_true")
+    changes = 4 if parser.parse_args().quick else 8
+    port = free_port()
+    started = time.time()
+    with tempfile.TemporaryDirectory() as data:
+        server = start_server(port, data)
+        try:
+            with sync_playwright() as p:
+                browser = p.chromium.launch(executable_path="/usr/bin/chromium", args=ARGS)
+                page = browser.new_page(viewport={"width": 1400, "height": 1000})
+                url = f"http://127.0.0.1:{port}/"
+                page.goto(url)
+                page.wait_for_function(DRAWN, arg="Gini coefficient", timeout=60_000)
+                reload, index, year = [], [], []
+                for _ in range(max(2, changes // 2)):
+                    t0 = time.perf_counter()
+                    page.goto(url)
+                    page.wait_for_function(DRAWN, arg="Gini coefficient", timeout=60_000)
+                    reload.append(time.perf_counter() - t0)
+                for step in range(changes):
+                    name, want = INDICES[step % len(INDICES)]
+                    page.locator('[data-testid="stSidebar"] [data-testid="stSelectbox"]').nth(
+                        1
+                    ).click()
+                    page.wait_for_timeout(300)
+                    option = page.get_by_role("option", name=name, exact=True)
+                    t0 = time.perf_counter()
+                    option.click()
+                    page.wait_for_function(DRAWN, arg=want, timeout=60_000)
+                    index.append(time.perf_counter() - t0)
+                    page.wait_for_timeout(500)
+                slider = page.get_by_role("slider").first
+                shown = 2025  # the demo's latest year, where the Atlas opens
+                for step in range(changes):
+                    key = "ArrowLeft" if step % 2 == 0 else "ArrowRight"
+                    shown += -1 if key == "ArrowLeft" else 1
+                    slider.focus()
+                    t0 = time.perf_counter()
+                    slider.press(key)
+                    page.wait_for_function(DRAWN, arg=f", {shown}", timeout=60_000)
+                    year.append(time.perf_counter() - t0)
+                    page.wait_for_timeout(500)
+                browser.close()
+        finally:
+            server.terminate()
+            server.wait(timeout=30)
+    base = statistics.median(reload)
+    figures = {
+        "reload_median_s": round(base, 3),
+        "index_change_median_s": round(statistics.median(index), 3),
+        "index_change_max_s": round(max(index), 3),
+        "year_change_median_s": round(statistics.median(year), 3),
+        "year_change_max_s": round(max(year), 3),
+    }
+    for key, value in figures.items():
+        print(f"{key:>24}: {value}")
+    peak = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss / 1024
+    print(
+        json.dumps(
+            {
+                "name": "browser_redraw" + ("-quick" if changes == 4 else ""),
+                "seconds": round(time.time() - started, 1),
+                "peak_memory_mb": round(peak, 1),
+                "ratios": {
+                    "index_change_to_reload": round(statistics.median(index) / base, 3),
+                    "year_change_to_reload": round(statistics.median(year) / base, 3),
+                },
+                "figures": figures,
+            }
+        )
+    )
+
+
+if __name__ == "__main__":
+    main()
