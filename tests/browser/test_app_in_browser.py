@@ -279,7 +279,8 @@ def test_a_panel_with_one_broken_district_year_is_used_and_the_problem_written_o
     text = page.locator('[data-testid="stMain"]').inner_text()
     assert "1 district-year(s) were left out" in text
     # The full sentence, not a cut-off table cell: where, what and how to fix.
-    assert re.search(r"one_broken\.csv, line \d+, column 'income_share'", text)
+    # A wide file's problem names the file's own share columns (share_1 … share_10).
+    assert re.search(r"one_broken\.csv, line \d+, column 'share_1…share_10'", text)
     assert "district OSS03, year 2020 left out" in text and "How to fix:" in text
     no_errors(page)
     shot(page, "upload-one-broken")
