@@ -102,7 +102,8 @@ else:
         )
         # Below the curve the method names have room; beside it they squeeze the curve.
         profile = profile.configure_legend(orient="bottom", columns=2, labelLimit=260)
-        st.altair_chart(profile, key="district_lorenz")
+        # Vega's own theme: Streamlit's squeezes a square chart whose title and legend take room.
+        st.altair_chart(profile, theme=None, width="content", key="district_lorenz")
     with right:
         headline = own[own["index"] == view.index]
         if len(headline):
