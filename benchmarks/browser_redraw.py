@@ -18,13 +18,13 @@ import resource
 import socket
 import statistics
 import subprocess
-import sys
 import tempfile
 import time
-import urllib.request
 from pathlib import Path
 
 from playwright.sync_api import sync_playwright
+
+from explorer.serving import app_command, wait_until_serving
 
 ROOT = Path(__file__).resolve().parent.parent
 ARGS = [
@@ -53,37 +53,17 @@ def free_port() -> int:
 
 
 def start_server(port: int, data: str) -> subprocess.Popen:
-    command = [
-        sys.executable,
-        "-m",
-        "streamlit",
-        "run",
-        str(ROOT / "explorer" / "app.py"),
-        "--server.port",
-        str(port),
-        "--server.headless",
-        "true",
-        "--server.address",
-        "127.0.0.1",
-        "--browser.gatherUsageStats",
-        "false",
-    ]
     server = subprocess.Popen(
-        command,
+        app_command(port),
         cwd=ROOT,
         env={**os.environ, "RIFT_DATA": data},
         stdout=subprocess.DEVNULL,
         stderr=subprocess.DEVNULL,
     )
-    deadline = time.time() + 60
-    while time.time() < deadline:
-        try:
-            urllib.request.urlopen(f"http://127.0.0.1:{port}/_stcore/health", timeout=2)
-            return server
-        except OSError:
-            time.sleep(0.3)
-    server.terminate()
-    raise SystemExit("the app did not start within 60 s")
+    if not wait_until_serving(f"http://127.0.0.1:{port}", 60, server):
+        server.terminate()
+        raise SystemExit("the app did not start within 60 s")
+    return server
 
 
 def main() -> None:

@@ -31,8 +31,9 @@ import sys
 import tempfile
 import threading
 import time
-import urllib.request
 from pathlib import Path
+
+from explorer.serving import app_command, wait_until_serving
 
 ROOT = Path(__file__).resolve().parent.parent
 CHROMIUM = "/usr/bin/chromium"
@@ -125,21 +126,7 @@ class MemoryWatch(threading.Thread):
 
 def start_server(port: int, data_dir: Path) -> subprocess.Popen:
     env = {**os.environ, "RIFT_DATA": str(data_dir)}
-    command = [
-        sys.executable,
-        "-m",
-        "streamlit",
-        "run",
-        str(ROOT / "explorer" / "app.py"),
-        "--server.port",
-        str(port),
-        "--server.address",
-        "127.0.0.1",
-        "--server.headless",
-        "true",
-        "--browser.gatherUsageStats",
-        "false",
-    ]
+    command = app_command(port)
     server = subprocess.Popen(
         command,
         cwd=ROOT,
@@ -149,15 +136,10 @@ def start_server(port: int, data_dir: Path) -> subprocess.Popen:
         text=True,
         start_new_session=True,
     )
-    deadline = time.monotonic() + 60
-    while time.monotonic() < deadline:
-        if server.poll() is not None:
-            raise RuntimeError(f"the app exited on start:\n{server.stderr.read()[-2000:]}")
-        with contextlib.suppress(OSError):
-            with urllib.request.urlopen(f"http://127.0.0.1:{port}/_stcore/health", timeout=2) as r:
-                if r.read().strip() == b"ok":
-                    return server
-        time.sleep(0.3)
+    if wait_until_serving(f"http://127.0.0.1:{port}", 60, server):
+        return server
+    if server.poll() is not None:
+        raise RuntimeError(f"the app exited on start:\n{server.stderr.read()[-2000:]}")
     stop_server(server)
     raise RuntimeError("the app did not answer its health check within 60 s")
 

@@ -248,29 +248,16 @@ def _problem_line(problem: Problem) -> str:
 
 def run_app(args: argparse.Namespace) -> int:
     """Start the Streamlit app on the demo (and any stored datasets)."""
-    app = Path(__file__).resolve().parent / "app.py"
+    from explorer.serving import PROJECT, app_command
+
     env = dict(os.environ)
     if args.data:
         env["RIFT_DATA"] = str(Path(args.data).resolve())
-    command = [
-        sys.executable,
-        "-m",
-        "streamlit",
-        "run",
-        str(app),
-        "--server.port",
-        str(args.port),
-        "--server.headless",
-        "true",
-        "--server.address",
-        args.host,
-        "--browser.gatherUsageStats",
-        "false",
-    ]
+    command = app_command(args.port, args.host)
     shown = "localhost" if args.host in ("localhost", "127.0.0.1", "0.0.0.0") else args.host
     print(f"Rift is starting on http://{shown}:{args.port}  (Ctrl+C stops it)", file=sys.stderr)
     try:
-        return subprocess.call(command, env=env, cwd=app.parent.parent)
+        return subprocess.call(command, env=env, cwd=PROJECT)
     except KeyboardInterrupt:
         return EXIT_OK
 

@@ -5,12 +5,11 @@ from __future__ import annotations
 import os
 import socket
 import subprocess
-import sys
-import time
-import urllib.request
 from pathlib import Path
 
 import pytest
+
+from explorer.serving import PROJECT, app_command, wait_until_serving
 
 ROOT = Path(__file__).resolve().parents[2]
 CHROMIUM = Path("/usr/bin/chromium")
@@ -42,36 +41,10 @@ def server(tmp_path_factory):
     log = (tmp_path_factory.mktemp("server") / "server.log").open("w")
     env = {**os.environ, "RIFT_DATA": str(workspace)}
     process = subprocess.Popen(
-        [
-            sys.executable,
-            "-m",
-            "streamlit",
-            "run",
-            str(ROOT / "explorer" / "app.py"),
-            "--server.port",
-            str(port),
-            "--server.headless",
-            "true",
-            "--server.address",
-            "127.0.0.1",
-            "--browser.gatherUsageStats",
-            "false",
-        ],
-        cwd=ROOT,
-        env=env,
-        stdout=log,
-        stderr=subprocess.STDOUT,
+        app_command(port), cwd=PROJECT, env=env, stdout=log, stderr=subprocess.STDOUT
     )
     base = f"http://127.0.0.1:{port}"
-    deadline = time.monotonic() + 60
-    while time.monotonic() < deadline:
-        try:
-            with urllib.request.urlopen(f"{base}/_stcore/health", timeout=2) as reply:
-                if reply.status == 200:
-                    break
-        except OSError:
-            time.sleep(0.3)
-    else:
+    if not wait_until_serving(base, 60, process):
         process.terminate()
         pytest.fail("the Rift server did not start within 60 s")
     yield base
