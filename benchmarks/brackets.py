@@ -30,7 +30,7 @@ from scipy import interpolate, optimize, special
 ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(ROOT))
 
-from explorer import indices, lorenz  # noqa: E402
+from explorer.stats import indices, lorenz  # noqa: E402
 
 KEYS = indices.DEFAULT_INDICES
 GRID = lorenz.PROBIT_GRID

@@ -13,7 +13,7 @@ import time
 
 import numpy as np
 
-from explorer.decompose import dagum_split
+from explorer.stats.decompose import dagum_split
 
 
 def best_of(fn, repeat: int) -> float:

@@ -17,7 +17,7 @@ import geopandas as gpd
 import numpy as np
 import shapely
 
-from explorer import spatial
+from explorer.stats import spatial
 
 
 def best_of(fn, repeat: int) -> float:

@@ -24,8 +24,8 @@ import pandas as pd
 
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
-from explorer.intervals import bootstrap  # noqa: E402
-from explorer.measures import STANDARD_INDICES, compute, sort_units  # noqa: E402
+from explorer.stats.intervals import bootstrap  # noqa: E402
+from explorer.stats.measures import STANDARD_INDICES, compute, sort_units  # noqa: E402
 
 
 def records(n: int, groups: int, seed: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:

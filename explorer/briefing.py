@@ -12,8 +12,10 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from explorer import cautions, charts, decompose, frames, indices, io, report
-from explorer.panel import DataError, Panel, Problem
+from explorer.data import io
+from explorer.data.panel import DataError, Panel, Problem
+from explorer.present import cautions, charts, frames, report
+from explorer.stats import decompose, indices
 from explorer.views import ViewState
 
 _DECOMPOSABLE = ("theil_t", "mld", "gini") + tuple(
@@ -25,7 +27,7 @@ def open_dataset(dataset_id: str, data_dir: str | Path | None = None) -> Panel:
     """The panel behind a view's dataset id: a demo dataset or one stored in a workspace."""
     if dataset_id in frames.DEMO_DATASETS:
         return io.demo_panel(frames.DEMO_DATASETS[dataset_id][1])
-    from explorer.workspace import Workspace
+    from explorer.data.workspace import Workspace
 
     workspace = Workspace(Path(data_dir)) if data_dir else Workspace()
     known = set(workspace.list()["id"]) if len(workspace.list()) else set()

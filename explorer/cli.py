@@ -1,6 +1,6 @@
 """The ``rift`` command line: app, check, compute, decompose, spatial, report.
 
-Every command reads its panel through :func:`explorer.io.load_panel`, so the command line
+Every command reads its panel through :func:`explorer.data.io.load_panel`, so the command line
 and the app accept exactly the same files. Problems with the input are printed one per
 line and exit with status 2; the command never shows a traceback.
 """
@@ -17,7 +17,7 @@ from pathlib import Path
 
 import pandas as pd
 
-from explorer.panel import DataError, Problem
+from explorer.data.panel import DataError, Problem
 
 EXIT_OK = 0
 EXIT_FAILED = 1
@@ -160,7 +160,7 @@ def _split(text: str | None) -> list[str]:
 
 def _load(args: argparse.Namespace):
     """The panel named on the command line, validated."""
-    from explorer import io
+    from explorer.data import io
 
     if args.panel == DEMO:
         return io.demo_panel(args.kind or "brackets")
@@ -304,7 +304,7 @@ def run_check(args: argparse.Namespace) -> int:
         print(_problem_line(problem))
     print("valid")
     if args.save:
-        from explorer.workspace import Workspace
+        from explorer.data.workspace import Workspace
 
         if args.panel == DEMO:
             raise DataError(
@@ -326,7 +326,7 @@ def run_check(args: argparse.Namespace) -> int:
 
 
 def run_compute(args: argparse.Namespace) -> int:
-    from explorer import indices
+    from explorer.stats import indices
 
     panel = _load(args)
     methods = tuple(_split(args.method)) or ("auto",)
@@ -347,7 +347,7 @@ def run_compute(args: argparse.Namespace) -> int:
 
 
 def run_decompose(args: argparse.Namespace) -> int:
-    from explorer import decompose
+    from explorer.stats import decompose
 
     panel = _load(args)
     by = tuple(_split(args.by)) or tuple(panel.levels)

@@ -1,7 +1,7 @@
 """Spatial clustering of one district variable of a panel, for the map and the command line.
 
 Joins the index table (or district means) for one year to the panel's boundaries, builds
-the neighbour graph and runs the global and local statistics of :mod:`explorer.spatial`.
+the neighbour graph and runs the global and local statistics of :mod:`explorer.stats.spatial`.
 """
 
 from __future__ import annotations
@@ -11,9 +11,9 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from explorer import indices, spatial
-from explorer.frames import district_means
-from explorer.panel import DataError, Panel, Problem
+from explorer.data.panel import DataError, Panel, Problem
+from explorer.present.frames import district_means
+from explorer.stats import indices, spatial
 
 
 @dataclass(frozen=True)

@@ -5,7 +5,8 @@ import dataclasses
 import pandas as pd
 import streamlit as st
 
-from explorer import charts, ui
+from explorer import ui
+from explorer.present import charts
 from explorer.ui import layout
 
 here = ui.here()

@@ -4,7 +4,8 @@ import altair as alt
 import pandas as pd
 import streamlit as st
 
-from explorer import charts, ui
+from explorer import ui
+from explorer.present import charts
 from explorer.ui import layout
 from explorer.ui.state import DECOMPOSABLE
 

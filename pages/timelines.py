@@ -2,7 +2,8 @@
 
 import streamlit as st
 
-from explorer import charts, ui
+from explorer import ui
+from explorer.present import charts
 from explorer.ui import layout, trends
 
 here = ui.here()

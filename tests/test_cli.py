@@ -9,9 +9,10 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from explorer import cli, io
+from explorer import cli
+from explorer.data import io
 
-BAD = Path(__file__).parent / "data" / "bad"
+BAD = Path(__file__).parent / "fixtures" / "bad"
 
 
 def run(capsys, *argv: str) -> tuple[int, str, str]:
@@ -219,7 +220,7 @@ def test_app_serves_this_machine_only_by_default_and_passes_the_data_folder(
 
 
 def test_check_save_stores_the_dataset_once_and_leaves_the_inputs_alone(tmp_path, capsys):
-    from explorer.workspace import Workspace
+    from explorer.data.workspace import Workspace
 
     panel_path, boundary_path = io.demo_paths("means")
     before = hashlib.sha256(panel_path.read_bytes()).hexdigest()

@@ -21,7 +21,7 @@ from typing import Any
 import pandas as pd
 import streamlit as st
 
-from explorer.frames import DEMO_DATASETS, district_means  # noqa: F401 — re-exported
+from explorer.present.frames import DEMO_DATASETS, district_means  # noqa: F401 — re-exported
 
 _UPLOADS = "rift_uploads"
 _SESSION_SCOPE = "rift_session_scope"
@@ -44,7 +44,7 @@ def data_dir() -> Path | None:
 
 @st.cache_resource(show_spinner=False)
 def _workspace(root: str):
-    from explorer.workspace import Workspace
+    from explorer.data.workspace import Workspace
 
     return Workspace(Path(root)) if root else Workspace()
 
@@ -90,7 +90,7 @@ def catalog() -> list[Dataset]:
 
 @st.cache_resource(show_spinner="Reading the demo province…")
 def _demo(kind: str):
-    from explorer.io import demo_panel
+    from explorer.data.io import demo_panel
 
     return demo_panel(kind)
 
@@ -135,7 +135,7 @@ def indices(_panel, fingerprint: str, scope: str, method: str, ci: str | None = 
 
 @st.cache_data(show_spinner="Computing the indices for every district and year…", max_entries=64)
 def _indices(_panel, fingerprint: str, scope: str, method: str):
-    from explorer import indices as index_table
+    from explorer.stats import indices as index_table
 
     return index_table.compute(_panel, methods=(method,)).pipe(_tidy)
 
@@ -145,7 +145,7 @@ def _indices(_panel, fingerprint: str, scope: str, method: str):
     max_entries=16,
 )
 def _bootstrapped(_panel, fingerprint: str, scope: str):
-    from explorer import indices as index_table
+    from explorer.stats import indices as index_table
 
     table = index_table.compute(_panel, methods=("auto",), ci="bootstrap", reps=199, seed=0)
     return table.pipe(_tidy)
@@ -154,7 +154,7 @@ def _bootstrapped(_panel, fingerprint: str, scope: str):
 @st.cache_data(show_spinner="Checking the Lorenz fits…", max_entries=32)
 def fits(_panel, fingerprint: str, scope: str, methods: tuple[str, ...]):
     """Fit diagnostics for the grouped-data methods."""
-    from explorer import indices as index_table
+    from explorer.stats import indices as index_table
 
     return index_table.fits(_panel, methods).pipe(_tidy)
 
@@ -162,7 +162,7 @@ def fits(_panel, fingerprint: str, scope: str, methods: tuple[str, ...]):
 @st.cache_data(show_spinner="Splitting inequality within and between groups…", max_entries=64)
 def breakdown(_panel, fingerprint: str, scope: str, by: tuple[str, ...], index: str, method: str):
     """The decomposition table for every year."""
-    from explorer import decompose
+    from explorer.stats import decompose
 
     return decompose.table(_panel, by=by, index=index, method=method).pipe(_tidy)
 
@@ -172,7 +172,7 @@ def change(
     _panel, fingerprint: str, scope: str, by: tuple[str, ...], index: str, year_from, year_to
 ):
     """Change decomposition between two years."""
-    from explorer import decompose
+    from explorer.stats import decompose
 
     return decompose.change(_panel, by=by, index=index, year_from=year_from, year_to=year_to).pipe(
         _tidy
@@ -184,7 +184,7 @@ def lorenz_curves(_panel, fingerprint: str, scope: str, region: str, year: int, 
     """Every method's Lorenz curve for one district-year on a shared grid, plus the points."""
     import numpy as np
 
-    from explorer import lorenz
+    from explorer.stats import lorenz
 
     grid = np.linspace(0.0, 1.0, 101)
     rows = []
@@ -205,7 +205,7 @@ def clusters(
     _panel, fingerprint: str, scope: str, values: pd.Series, permutations: int = 499, seed: int = 0
 ):
     """Local Moran clusters and the global statistics for one map layer."""
-    from explorer import spatial
+    from explorer.stats import spatial
 
     graph = spatial_graph(_panel, fingerprint, scope)
     local = spatial.district_table(values, graph, permutations=permutations, seed=seed)
@@ -217,7 +217,7 @@ def clusters(
 # hand one shared object to every session.
 @st.cache_data(show_spinner=False, max_entries=16)
 def _graph(fingerprint: str, scope: str, _boundaries):
-    from explorer import spatial
+    from explorer.stats import spatial
 
     return spatial.neighbours(_boundaries, kind="queen")
 
@@ -232,7 +232,7 @@ def map_features(
     _panel, fingerprint: str, scope: str, values: pd.DataFrame
 ) -> list[dict[str, Any]]:
     """Display-ready GeoJSON features (oriented, simplified) with the values merged in."""
-    from explorer import charts
+    from explorer.present import charts
 
     return charts.features_for_display(_panel.boundaries, values)
 
@@ -265,7 +265,7 @@ def choropleth_spec(
     selected: tuple[str, ...],
 ) -> dict[str, Any]:
     """The Atlas map's spec for one layer of values (cached per view)."""
-    from explorer import charts
+    from explorer.present import charts
 
     features = map_features(_panel, fingerprint, scope, values)
     chart = charts.choropleth(

@@ -12,7 +12,7 @@ from typing import Any
 import pandas as pd
 import streamlit as st
 
-from explorer.panel import DataError
+from explorer.data.panel import DataError
 from explorer.ui import data, layout, show, state
 
 KINDS = {
@@ -60,7 +60,7 @@ def _on_disk(*files: Any) -> Iterator[list[Path | None]]:
 @st.cache_data(show_spinner=False, max_entries=16)
 def _columns(name: str, file_id: str, scope: str, _content: bytes) -> list[str]:
     # Keyed by the upload's id, so a large file is not hashed again on every rerun.
-    from explorer import io
+    from explorer.data import io
 
     with tempfile.TemporaryDirectory(prefix="rift-peek-") as folder:
         path = Path(folder) / _safe_name(name)
@@ -115,7 +115,7 @@ def reading_options(panel_file: Any, boundary_file: Any) -> dict[str, Any]:
 
 def read_upload(panel_file: Any, boundary_file: Any, options: dict[str, Any]):
     """Read and validate the uploaded files; raises DataError with every problem."""
-    from explorer import io
+    from explorer.data import io
 
     with st.status("Reading and checking the files…", expanded=True) as status:
         with _on_disk(panel_file, boundary_file) as (panel_path, boundary_path):
@@ -127,7 +127,7 @@ def read_upload(panel_file: Any, boundary_file: Any, options: dict[str, Any]):
                 raise
             except Exception as error:  # a reader failure must still read as a data problem
                 status.update(label="The files could not be read", state="error")
-                from explorer.panel import Problem
+                from explorer.data.panel import Problem
 
                 raise DataError(
                     (

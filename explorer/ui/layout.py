@@ -9,8 +9,8 @@ import numpy as np
 import pandas as pd
 import streamlit as st
 
-from explorer import frames
-from explorer.frames import (  # noqa: F401 — re-exported for the pages
+from explorer.present import frames
+from explorer.present.frames import (  # noqa: F401 — re-exported for the pages
     BREAKDOWN_FIELD,
     CLASS_LABELS,
     COLUMN_LABELS,

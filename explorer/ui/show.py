@@ -13,7 +13,7 @@ from typing import Any
 import pandas as pd
 import streamlit as st
 
-from explorer.panel import DataError
+from explorer.data.panel import DataError
 
 LOG = logging.getLogger("rift")
 
@@ -28,9 +28,9 @@ _FALLBACK_CAUTIONS = (
 
 
 def caution_texts(panel: Any, *, ranking: bool = False, wide_intervals: int = 0) -> list[str]:
-    """The cautions that apply to what is shown (from explorer.cautions)."""
+    """The cautions that apply to what is shown (from explorer.present.cautions)."""
     try:
-        from explorer import cautions as caution_rules
+        from explorer.present import cautions as caution_rules
     except ImportError:
         return list(_FALLBACK_CAUTIONS)
     return list(
@@ -156,7 +156,7 @@ def table_downloads(table: pd.DataFrame, name: str, *, key: str) -> None:
 
 def chart_downloads(chart: Any, name: str, *, key: str) -> None:
     """PNG and SVG of a chart, rendered offline on request."""
-    from explorer import charts
+    from explorer.present import charts
 
     left, right = st.columns(2)
     left.download_button(

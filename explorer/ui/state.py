@@ -17,7 +17,7 @@ from typing import Any
 import streamlit as st
 
 from explorer import views
-from explorer.frames import (  # noqa: F401 — re-exported for the pages
+from explorer.present.frames import (  # noqa: F401 — re-exported for the pages
     DECOMPOSABLE,
     INDEX_LABELS,
     METHOD_LABELS,
@@ -92,7 +92,7 @@ def panel():
 
 def _open_or_demo(dataset_id: str, notices: list[str]) -> tuple[Any, str]:
     """The dataset's panel and id, or the demo's (with a notice) if it cannot be opened."""
-    from explorer.panel import DataError
+    from explorer.data.panel import DataError
 
     try:
         return data.open_dataset(dataset_id), dataset_id

@@ -70,7 +70,7 @@ def convergence(panel: Any) -> tuple[pd.DataFrame, Beta]:
     Barro, R. J. and Sala-i-Martin, X. (1992). Convergence. *Journal of Political
     Economy* 100: 223–251.
     """
-    from explorer import convergence as conv
+    from explorer.stats import convergence as conv
 
     means = district_means(panel)
     means = means[np.isfinite(means["mean_income"]) & (means["mean_income"] > 0)]

@@ -94,7 +94,7 @@ def test_every_problem_of_a_bad_file_is_written_out_in_full(app):
     run(app)
     app.switch_page(page("intake"))
     run(app)
-    content = (ROOT / "tests" / "data" / "bad" / "shares_above_one.csv").read_bytes()
+    content = (ROOT / "tests" / "fixtures" / "bad" / "shares_above_one.csv").read_bytes()
     app.file_uploader(key="intake_panel").set_value(("shares_above_one.csv", content, "text/csv"))
     run(app)
     app.button(key="intake_read").click()

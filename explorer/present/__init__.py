@@ -1,0 +1,1 @@
+"""Words, charts, maps, exports, cautions and the one-file report: what a planner reads."""

@@ -1,0 +1,173 @@
+"""A one-file HTML report of a view that opens offline.
+
+Charts are embedded as inline SVG (rendered by vl-convert), tables as HTML; there are no
+scripts and no external style sheets, fonts or images, so the file can be mailed or
+archived and still open in an office without internet. Every string that comes from the
+user's data (district names, dataset names, notes) is HTML-escaped.
+"""
+
+from __future__ import annotations
+
+import html
+from collections.abc import Mapping, Sequence
+from datetime import UTC, datetime
+
+import altair as alt
+import pandas as pd
+
+from explorer.present import charts as chart_builders
+from explorer.views import ViewState
+
+__all__ = ["METHOD_REFERENCES", "build_report"]
+
+#: Published methods the tool uses, as the report cites them (author, year, title).
+METHOD_REFERENCES: tuple[str, ...] = (
+    "Gastwirth, J. L. (1972). The estimation of the Lorenz curve and Gini index. "
+    "Review of Economics and Statistics 54: 306–316.",
+    "Fritsch, F. N. and Carlson, R. E. (1980). Monotone piecewise cubic interpolation. "
+    "SIAM Journal on Numerical Analysis 17: 238–246.",
+    "Villaseñor, J. A. and Arnold, B. C. (1989). Elliptical Lorenz curves. "
+    "Journal of Econometrics 40: 327–338.",
+    "Kakwani, N. (1980). On a class of poverty measures. Econometrica 48: 437–446.",
+    "Atkinson, A. B. (1970). On the measurement of inequality. "
+    "Journal of Economic Theory 2: 244–263.",
+    "Shorrocks, A. F. (1980). The class of additively decomposable inequality measures. "
+    "Econometrica 48: 613–625.",
+    "Dagum, C. (1997). A new approach to the decomposition of the Gini income inequality "
+    "ratio. Empirical Economics 22: 515–531.",
+    "Mookherjee, D. and Shorrocks, A. (1982). A decomposition analysis of the trend in UK "
+    "income inequality. Economic Journal 92: 886–902.",
+    "Anselin, L. (1995). Local indicators of spatial association — LISA. "
+    "Geographical Analysis 27: 93–115.",
+    "Fisher, W. D. (1958). On grouping for maximum homogeneity. "
+    "Journal of the American Statistical Association 53: 789–798.",
+)
+
+_MAX_TABLE_ROWS = 2_000
+
+_STYLE = """
+body { font-family: system-ui, sans-serif; margin: 2rem auto; max-width: 70rem;
+       color: #1a1a1a; line-height: 1.45; padding: 0 1rem; }
+h1 { font-size: 1.6rem; margin-bottom: 0.2rem; }
+h2 { font-size: 1.2rem; margin-top: 2rem; border-bottom: 1px solid #ccc; }
+.meta { color: #555; }
+.cautions { background: #fff7e6; border-left: 4px solid #b35806; padding: 0.6rem 1rem; }
+table { border-collapse: collapse; font-size: 0.85rem; margin: 0.5rem 0 1rem; }
+th, td { border: 1px solid #ddd; padding: 0.2rem 0.5rem; text-align: right; }
+th { background: #f2f2f2; }
+td:first-child, th:first-child { text-align: left; }
+figure { margin: 1rem 0; overflow-x: auto; }
+figcaption { font-weight: 600; margin-bottom: 0.3rem; }
+pre { background: #f6f6f6; padding: 0.6rem; overflow-x: auto; font-size: 0.8rem; }
+dl { display: grid; grid-template-columns: max-content 1fr; gap: 0.2rem 1rem; }
+dt { font-weight: 600; }
+dd { margin: 0; }
+"""
+
+
+def _e(value: object) -> str:
+    return html.escape(str(value), quote=True)
+
+
+def _list(items: Sequence[str], css: str = "") -> str:
+    if not items:
+        return "<p>None.</p>"
+    attr = f' class="{css}"' if css else ""
+    return f"<ul{attr}>" + "".join(f"<li>{_e(item)}</li>" for item in items) + "</ul>"
+
+
+def _table(name: str, frame: pd.DataFrame) -> str:
+    shown = frame.head(_MAX_TABLE_ROWS)
+    body = shown.to_html(
+        index=False, escape=True, na_rep="—", float_format=lambda x: f"{x:.4g}", border=0
+    )
+    note = ""
+    if len(frame) > len(shown):
+        note = f"<p class='meta'>First {len(shown):,} of {len(frame):,} rows.</p>"
+    return f"<h3>{_e(name)}</h3>{body}{note}"
+
+
+def _figure(name: str, chart: alt.TopLevelMixin) -> str:
+    try:
+        svg = chart_builders.to_svg(chart)
+    except Exception as error:  # noqa: BLE001 - one bad chart must not lose the report
+        svg = f"<p>This chart could not be drawn ({_e(type(error).__name__)}).</p>"
+    if svg.startswith("<?xml"):
+        svg = svg.split("?>", 1)[1]
+    return f"<figure><figcaption>{_e(name)}</figcaption>{svg}</figure>"
+
+
+def build_report(
+    view: ViewState,
+    *,
+    panel_info: Mapping[str, object],
+    tables: Mapping[str, pd.DataFrame],
+    charts: Mapping[str, alt.TopLevelMixin],
+    notes: Sequence[str],
+    cautions: Sequence[str],
+    generated: datetime | None = None,
+) -> str:
+    """The view as one self-contained HTML document.
+
+    Parameters
+    ----------
+    view : ViewState
+        The view reported; its view-file JSON and link are included so a colleague can
+        open exactly this view.
+    panel_info : mapping
+        What the data are: e.g. ``name``, ``fingerprint``, ``kind``, ``income_concept``,
+        ``districts``, ``years``. Shown as given (escaped).
+    tables : mapping of str to DataFrame
+        Titled tables (index table, decomposition, ...).
+    charts : mapping of str to alt.Chart
+        Titled charts, embedded as inline SVG.
+    notes : sequence of str
+        Method notes (which Lorenz method, which interval, ...).
+    cautions : sequence of str
+        Cautions to print before the figures (see :mod:`explorer.present.cautions`).
+    generated : datetime, optional
+        Generation time; now (UTC) by default.
+
+    Returns
+    -------
+    str
+        HTML text with no scripts and no references to other files or the network.
+    """
+    when = (generated or datetime.now(UTC)).isoformat(timespec="seconds")
+    name = panel_info.get("name") or view.dataset
+    fingerprint = panel_info.get("fingerprint", "")
+    facts = "".join(f"<dt>{_e(key)}</dt><dd>{_e(value)}</dd>" for key, value in panel_info.items())
+    link = view.to_link() or "(the default view)"
+    parts = [
+        "<!DOCTYPE html>",
+        '<html lang="en"><head><meta charset="utf-8">',
+        '<meta name="viewport" content="width=device-width, initial-scale=1">',
+        f"<title>Rift report: {_e(name)} — {_e(view.page_name)}</title>",
+        f"<style>{_STYLE}</style></head><body>",
+        f"<h1>{_e(name)}: {_e(view.page_name)}</h1>",
+        f"<p class='meta'>Generated {_e(when)} · data fingerprint "
+        f"<code>{_e(fingerprint)}</code></p>",
+        "<h2>Read this first</h2>",
+        _list(list(cautions), "cautions"),
+        "<h2>The data</h2>",
+        f"<dl>{facts}</dl>",
+    ]
+    if charts:
+        parts.append("<h2>Charts</h2>")
+        parts.extend(_figure(title, chart) for title, chart in charts.items())
+    if tables:
+        parts.append("<h2>Tables</h2>")
+        parts.extend(_table(title, frame) for title, frame in tables.items())
+    parts += [
+        "<h2>Method notes</h2>",
+        _list(list(notes)),
+        "<h3>References</h3>",
+        _list(list(METHOD_REFERENCES)),
+        "<h2>Open this view again</h2>",
+        "<p>Link settings (add to the app's address):</p>",
+        f"<pre>{_e(link)}</pre>",
+        "<p>View file (save as <code>.json</code> and open it in the app):</p>",
+        f"<pre>{_e(view.to_json())}</pre>",
+        "</body></html>",
+    ]
+    return "\n".join(parts)

@@ -1,0 +1,1 @@
+"""Measures on units and curves, Lorenz fits, intervals, decompositions, spatial statistics."""

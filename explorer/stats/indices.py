@@ -1,0 +1,344 @@
+"""A Panel to the tidy index table and the Lorenz fit diagnostics.
+
+One table for every kind of panel, so charts, exports, the command line and the report
+read the same columns: ``region, year, index, value, lower, upper, method, note``.
+
+* brackets: one block of rows per Lorenz method asked for; ``lower``/``upper`` are the
+  bounds from the ``linear`` and ``upper`` curves, between which every Lorenz-consistent
+  index of any distribution with those bracket shares lies (Gastwirth 1972).
+* units: indices on the weighted records (:mod:`explorer.stats.measures`); with
+  ``ci="bootstrap"`` the percentile interval (:mod:`explorer.stats.intervals`) at ``level``,
+  which the table also carries in ``attrs["level"]``.
+* means: inequality between districts per year from their mean incomes, one row per year
+  with ``region = "(all)"``; population-weighted when every district of the year has a
+  population, unweighted otherwise (the note says which).
+
+District-years left out by validation are not in the table; they are in
+``panel.excluded``.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+
+from explorer.data.panel import DataError, Problem
+from explorer.stats import lorenz, measures
+
+DEFAULT_INDICES: tuple[str, ...] = measures.STANDARD_INDICES
+"""The default indices: every family at its usual parameters (as measures.STANDARD_INDICES)."""
+
+COLUMNS = ("region", "year", "index", "value", "lower", "upper", "method", "note")
+FIT_COLUMNS = ("region", "year", "method", "used", "params", "sse", "max_error", "valid", "reason")
+CI_CHOICES = (None, "bootstrap")
+ALL_DISTRICTS = "(all)"
+
+_OUTSIDE_NOTE = "the fitted curve gives a value outside the bounds the bracket shares allow"
+
+
+# ---------------------------------------------------------------------------- checks
+
+
+def _bad_argument(message: str, fix: str, column: str | None = None) -> DataError:
+    return DataError([Problem(message=message, fix=fix, column=column)])
+
+
+def _check_arguments(methods, indices, ci, reps, level) -> tuple[tuple[str, ...], tuple[str, ...]]:
+    methods = (methods,) if isinstance(methods, str) else tuple(methods)
+    indices = (indices,) if isinstance(indices, str) else tuple(indices)
+    unknown = [m for m in methods if m not in lorenz.METHODS]
+    if unknown or not methods:
+        raise _bad_argument(
+            f"unknown Lorenz method {', '.join(map(repr, unknown)) or '(none given)'}",
+            f"use one or more of {', '.join(lorenz.METHODS)}",
+            "method",
+        )
+    if not indices:
+        raise _bad_argument("no index asked for", f"use e.g. {', '.join(DEFAULT_INDICES)}")
+    for key in indices:
+        try:
+            measures.parse_index(key)
+        except ValueError as err:
+            raise _bad_argument(str(err), "correct the index name", "index") from None
+    if ci not in CI_CHOICES:
+        raise _bad_argument(
+            f"unknown interval {ci!r}", "use ci=None (no interval) or ci='bootstrap'", "ci"
+        )
+    if not 0.0 < float(level) < 1.0:
+        raise _bad_argument(f"confidence level {level} is not between 0 and 1", "use e.g. 0.95")
+    if int(reps) < 2:
+        raise _bad_argument(f"{reps} bootstrap replicates are too few", "use e.g. 199 or 999")
+    return tuple(dict.fromkeys(methods)), tuple(dict.fromkeys(indices))
+
+
+# ---------------------------------------------------------------------------- assembly
+
+
+def _block(keys: pd.DataFrame, indices, values, lower, upper, method: str, notes) -> pd.DataFrame:
+    """One method's rows: district-years outer, indices inner."""
+    n, k = len(keys), len(indices)
+    stack = lambda arrays: np.column_stack(arrays).ravel() if n else np.zeros(0)  # noqa: E731
+    return pd.DataFrame(
+        {
+            "region": np.repeat(keys["region"].astype(str).to_numpy(), k),
+            "year": np.repeat(keys["year"].to_numpy().astype(np.int64), k),
+            "index": np.tile(np.asarray(indices, dtype=object), n),
+            "value": stack(values),
+            "lower": stack(lower),
+            "upper": stack(upper),
+            "method": method,
+            "note": stack(notes).astype(object) if n else np.zeros(0, dtype=object),
+        }
+    )
+
+
+def _empty_table() -> pd.DataFrame:
+    table = pd.DataFrame({c: pd.Series(dtype=float) for c in COLUMNS})
+    for c in ("region", "index", "method", "note"):
+        table[c] = table[c].astype(object)
+    table["year"] = table["year"].astype(np.int64)
+    return table
+
+
+def _vocabulary(texts) -> tuple[np.ndarray, np.ndarray]:
+    """Codes and distinct values of a text array (hash-based: notes repeat a lot)."""
+    codes, uniques = pd.factorize(np.asarray(texts, dtype=object))
+    return codes, np.asarray(uniques, dtype=object)
+
+
+def _map_text(texts, change) -> np.ndarray:
+    """``change`` applied to every distinct text once, then spread back."""
+    codes, uniques = _vocabulary(texts)
+    return np.asarray([change(t) for t in uniques], dtype=object)[codes]
+
+
+def _join_notes(*parts) -> np.ndarray:
+    """Row-wise "; "-join of the non-empty texts of several note arrays."""
+    n = len(parts[0])
+    key = np.zeros(n, dtype=np.int64)
+    vocabularies = []
+    for part in parts:
+        codes, uniques = _vocabulary(part)
+        key = key * max(len(uniques), 1) + codes
+        vocabularies.append(uniques)
+    combos, inverse = np.unique(key, return_inverse=True)
+    texts = []
+    for combo in combos:  # few distinct combinations: decode each once
+        pieces = []
+        for uniques in reversed(vocabularies):
+            size = max(len(uniques), 1)
+            pieces.append(uniques[combo % size] if len(uniques) else "")
+            combo //= size
+        texts.append("; ".join(str(t) for t in reversed(pieces) if t))
+    return np.asarray(texts, dtype=object)[inverse] if n else np.zeros(0, dtype=object)
+
+
+# ---------------------------------------------------------------------------- by kind
+
+
+def _brackets(panel, methods, indices) -> pd.DataFrame:
+    linear = lorenz.fit_panel(panel, "linear")
+    upper = lorenz.fit_panel(panel, "upper")
+    low_vals, up_vals = linear.indices(indices), upper.indices(indices)
+    lower_bound = {k: np.fmin(low_vals[k].value, up_vals[k].value) for k in indices}
+    upper_bound = {k: np.fmax(low_vals[k].value, up_vals[k].value) for k in indices}
+    bound_note = {}
+    for key in indices:
+        # why a bound is infinite (the upper curve's jump or zero incomes), said once
+        infinite = np.isinf(upper_bound[key])
+        reason = np.where(infinite, up_vals[key].note, "")
+        bound_note[key] = _map_text(
+            reason, lambda t: "upper bound " + t if t.startswith("infinite: ") else t
+        )
+    blocks = []
+    for method in methods:
+        if method in ("linear", "upper"):
+            fits, got = (linear, low_vals) if method == "linear" else (upper, up_vals)
+        else:
+            fits = lorenz.fit_panel(panel, method)
+            got = fits.indices(indices)
+        notes = []
+        for key in indices:
+            value = got[key].value
+            slack = 1e-9 * np.maximum(1.0, np.abs(value))
+            with np.errstate(invalid="ignore"):
+                outside = (value < lower_bound[key] - slack) | (value > upper_bound[key] + slack)
+            outside_note = np.where(outside, _OUTSIDE_NOTE, "")
+            extra = bound_note[key] if method != "upper" else np.full(len(value), "")
+            notes.append(_join_notes(got[key].note, outside_note, extra))
+        blocks.append(
+            _block(
+                fits.keys,
+                indices,
+                [got[k].value for k in indices],
+                [lower_bound[k] for k in indices],
+                [upper_bound[k] for k in indices],
+                method,
+                notes,
+            )
+        )
+    return pd.concat(blocks, ignore_index=True)
+
+
+def _units(panel, indices, ci, reps, seed, level) -> pd.DataFrame:
+    data = panel.data
+    units = measures.sort_units(
+        data["income"].to_numpy(dtype=float),
+        data["weight"].to_numpy(dtype=float),
+        data[["region", "year"]].reset_index(drop=True),
+    )
+    got = measures.compute(units, indices)
+    n = units.n_groups
+    if ci == "bootstrap":
+        from explorer.stats import intervals
+
+        bounds = intervals.bootstrap(units, indices, reps=int(reps), seed=seed, level=level)
+        lower = [bounds[k][0] for k in indices]
+        upper = [bounds[k][1] for k in indices]
+    else:
+        lower = upper = [np.full(n, np.nan) for _ in indices]
+    keys = units.labels if isinstance(units.labels, pd.DataFrame) else pd.DataFrame()
+    return _block(
+        keys,
+        indices,
+        [got[k].value for k in indices],
+        lower,
+        upper,
+        "units",
+        [got[k].note for k in indices],
+    )
+
+
+def _means(panel, indices, ci) -> pd.DataFrame:
+    data = panel.data
+    year = data["year"].to_numpy().astype(np.int64)
+    population = data["population"].to_numpy(dtype=float)
+    given = np.isfinite(population) & (population > 0)
+    years, code = np.unique(year, return_inverse=True)
+    all_given = np.bincount(code, weights=~given, minlength=years.size) == 0
+    missing = np.bincount(code, weights=~given, minlength=years.size).astype(int)
+    weights = np.where(all_given[code], population, 1.0)
+    units = measures.sort_units(data["mean_income"].to_numpy(dtype=float), weights, year)
+    got = measures.compute(units, indices)
+    # units.labels are the years in sorted order, the same order as ``years``
+    label_years = np.asarray(units.labels).astype(np.int64)
+    order = np.searchsorted(years, label_years)
+    weighting = np.where(
+        all_given[order],
+        "between districts, weighted by population",
+        np.where(
+            missing[order] == np.bincount(code, minlength=years.size)[order],
+            "between districts, unweighted (no populations given)",
+            "between districts, unweighted (population missing for "
+            + missing[order].astype(str)
+            + " districts)",
+        ),
+    ).astype(object)
+    if ci is not None:  # intervals are for unit records; say so rather than leave a gap
+        weighting = weighting + "; no interval: district means carry no sampling information"
+    keys = pd.DataFrame({"region": ALL_DISTRICTS, "year": label_years})
+    n = len(keys)
+    return _block(
+        keys,
+        indices,
+        [got[k].value for k in indices],
+        [np.full(n, np.nan) for _ in indices],
+        [np.full(n, np.nan) for _ in indices],
+        "means",
+        [_join_notes(weighting, got[k].note) for k in indices],
+    )
+
+
+# ---------------------------------------------------------------------------- public
+
+
+def compute(
+    panel,
+    methods=("auto",),
+    indices=DEFAULT_INDICES,
+    ci: str | None = None,
+    reps: int = 199,
+    seed: int | None = 0,
+    level: float = 0.95,
+) -> pd.DataFrame:
+    """The tidy index table of a panel.
+
+    Parameters
+    ----------
+    panel : explorer.data.panel.Panel
+    methods : str or sequence of str
+        Lorenz methods for bracket panels (``linear, upper, pchip, gq, beta, quadratic,
+        lognormal, auto``); one block of rows each. Ignored for unit and means panels.
+    indices : str or sequence of str
+        Index keys (see :func:`explorer.stats.measures.parse_index`).
+    ci : {None, "bootstrap"}
+        Intervals for unit panels: the percentile bootstrap at ``level`` with ``reps``
+        replicates and ``seed``. Bracket panels always carry their bounds instead.
+    reps, seed, level
+        Bootstrap settings.
+
+    Returns
+    -------
+    DataFrame
+        Columns ``region, year, index, value, lower, upper, method, note``; rows by method,
+        then district-year, then index in the order asked. ``attrs`` holds ``kind``, ``ci``
+        and ``level``.
+
+    Raises
+    ------
+    explorer.data.panel.DataError
+        For an unknown method, index, interval or level.
+
+    References
+    ----------
+    Gastwirth, J. L. (1972). The estimation of the Lorenz curve and Gini index.
+    *Review of Economics and Statistics* 54: 306–316 (the bounds).
+    """
+    methods, indices = _check_arguments(methods, indices, ci, reps, level)
+    kind = panel.kind
+    if len(panel.data) == 0:
+        table = _empty_table()
+    elif kind == "brackets":
+        table = _brackets(panel, methods, indices)
+    elif kind == "units":
+        table = _units(panel, indices, ci, reps, seed, level)
+    elif kind == "means":
+        table = _means(panel, indices, ci)
+    else:
+        raise _bad_argument(f"unknown panel kind {kind!r}", "use brackets, units or means")
+    table = table.reset_index(drop=True)
+    table["note"] = table["note"].astype(str).astype(object)
+    table.attrs.update(kind=kind, ci=ci if kind == "units" else None, level=level if ci else None)
+    return table
+
+
+def fits(panel, methods=("auto",)) -> pd.DataFrame:
+    """Lorenz fit diagnostics of a bracket panel, one row per district-year and method.
+
+    Columns ``region, year, method, used, params, sse, max_error, valid, reason``:
+    ``used`` is the method actually used (for ``auto``), ``params`` the fitted parameters
+    as JSON text, ``sse`` and ``max_error`` the squared error summed over the bracket points
+    and the largest absolute error at one. Empty for unit and means panels.
+    """
+    methods, _ = _check_arguments(methods, ("gini",), None, 2, 0.5)
+    if panel.kind != "brackets" or len(panel.data) == 0:
+        return pd.DataFrame({c: pd.Series(dtype=object) for c in FIT_COLUMNS})
+    blocks = []
+    for method in methods:
+        fitted = lorenz.fit_panel(panel, method)
+        blocks.append(
+            pd.DataFrame(
+                {
+                    "region": fitted.keys["region"].astype(str).to_numpy(),
+                    "year": fitted.keys["year"].to_numpy().astype(np.int64),
+                    "method": method,
+                    "used": fitted.used.astype(str),
+                    "params": fitted.params_json(),
+                    "sse": fitted.sse,
+                    "max_error": fitted.max_error,
+                    "valid": fitted.valid.astype(bool),
+                    "reason": fitted.reason.astype(str),
+                }
+            )
+        )
+    return pd.concat(blocks, ignore_index=True)
