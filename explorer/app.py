@@ -10,7 +10,7 @@ from __future__ import annotations
 import streamlit as st
 
 from explorer import ui
-from explorer.data.panel import DataError
+from explorer.data.model import DataError
 from explorer.ui import layout, show, state
 
 

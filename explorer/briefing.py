@@ -13,7 +13,7 @@ import numpy as np
 import pandas as pd
 
 from explorer.data import io
-from explorer.data.panel import DataError, Panel, Problem
+from explorer.data.model import DataError, Panel, Problem
 from explorer.present import cautions, charts, frames, report
 from explorer.stats import decompose, indices
 from explorer.views import ViewState

@@ -17,7 +17,7 @@ from pathlib import Path
 
 import pandas as pd
 
-from explorer.data.panel import DataError, Problem
+from explorer.data.model import DataError, Problem
 
 EXIT_OK = 0
 EXIT_FAILED = 1

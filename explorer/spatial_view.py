@@ -11,7 +11,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from explorer.data.panel import DataError, Panel, Problem
+from explorer.data.model import DataError, Panel, Problem
 from explorer.present.frames import district_means
 from explorer.stats import indices, spatial
 

@@ -3,7 +3,7 @@
 import streamlit as st
 
 from explorer import ui
-from explorer.data.panel import DataError
+from explorer.data.model import DataError
 from explorer.ui import intake
 
 here = ui.here()

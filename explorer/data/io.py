@@ -2,9 +2,9 @@
 Shapefile, GeoParquet) into DataFrames, column maps, and ``load_panel()``.
 
 This is the edge of the program: every failure of the underlying libraries is caught here
-and turned into a :class:`~explorer.data.panel.DataError` naming the file and what to do.
+and turned into a :class:`~explorer.data.model.DataError` naming the file and what to do.
 Inputs are only read: nothing is extracted, written or evaluated. Checking the content
-is the job of :func:`explorer.data.panel.validate`; readers pass their own warnings to it in
+is the job of :func:`explorer.data.validate.validate`; readers pass their own warnings to it in
 ``attrs["problems"]``.
 """
 
@@ -23,7 +23,8 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from explorer.data.panel import DataError, Panel, Problem, validate
+from explorer.data.model import DataError, Panel, Problem, fail
+from explorer.data.validate import validate
 
 MAX_FILE_BYTES = 200 * 1024 * 1024  # matches server.maxUploadSize in .streamlit/config.toml
 MAX_COLUMNS = 1_000  # far more than any panel needs; wider files are refused early
@@ -49,29 +50,25 @@ def _label(path: Path, file_label: str | None) -> str:
     return file_label or path.name
 
 
-def _fail(file: str, message: str, fix: str = "", **kw: Any) -> DataError:
-    return DataError(Problem(message, fix, file=file, **kw))
-
-
 def _check_file(path: str | Path, file: str) -> Path:
     path = Path(path)
     try:
         if not path.exists():
-            raise _fail(file, f"the file {str(path)!r} does not exist", "check the path")
+            raise fail(f"the file {str(path)!r} does not exist", "check the path", file=file)
         if not path.is_file():
-            raise _fail(file, "this is a folder, not a file", "give the path of a file")
+            raise fail("this is a folder, not a file", "give the path of a file", file=file)
         size = path.stat().st_size
     except OSError as exc:
-        raise _fail(
-            file,
+        raise fail(
             f"the file cannot be opened ({exc.strerror or exc})",
             "check the path and permissions",
+            file=file,
         ) from None
     if size > MAX_FILE_BYTES:
-        raise _fail(
-            file,
+        raise fail(
             f"the file is larger than the limit ({size / 1e6:.0f} MB > {MAX_FILE_BYTES / 1e6:.0f} MB)",
             "split it (e.g. by year) or drop columns the panel does not need",
+            file=file,
         )
     return path
 
@@ -87,31 +84,31 @@ def check_zip(path: Path, file: str) -> list[zipfile.ZipInfo]:
         with zipfile.ZipFile(path) as archive:
             entries = archive.infolist()
     except (zipfile.BadZipFile, zipfile.LargeZipFile, OSError, ValueError, EOFError) as exc:
-        raise _fail(
-            file, f"this is not a readable zip archive ({exc})", "create the archive again"
+        raise fail(
+            f"this is not a readable zip archive ({exc})", "create the archive again", file=file
         ) from None
     if len(entries) > MAX_ZIP_ENTRIES:
-        raise _fail(
-            file,
+        raise fail(
             f"the zip archive has too many entries ({len(entries)} > {MAX_ZIP_ENTRIES})",
             "put only the files that belong to the data set in the archive",
+            file=file,
         )
     declared = sum(e.file_size for e in entries)
     if declared > MAX_ZIP_UNCOMPRESSED:
-        raise _fail(
-            file,
+        raise fail(
             f"the zip archive declares {declared / 1e9:.1f} GB uncompressed, above the limit of "
             f"{MAX_ZIP_UNCOMPRESSED / 1e9:.1f} GB",
             "this archive is refused for safety; send the files themselves or a smaller archive",
+            file=file,
         )
     for e in entries:
         name = e.filename.replace("\\", "/")
         parts = PurePosixPath(name).parts
         if name.startswith("/") or re.match(r"^[A-Za-z]:", name) or ".." in parts:
-            raise _fail(
-                file,
+            raise fail(
                 f"the zip entry {e.filename!r} escapes the archive's folder (absolute path or '..')",
                 "this archive is refused for safety; create it again from the folder itself",
+                file=file,
             )
     return entries
 
@@ -133,10 +130,10 @@ def _sniff(head: bytes) -> str:
 def _at_the_edge(file: str, what: str, exc: BaseException) -> DataError:
     """Any failure of a library below us, as a DataError naming the file."""
     detail = str(exc).splitlines()[0][:300] if str(exc) else ""
-    return _fail(
-        file,
+    return fail(
         f"the {what} cannot be read ({type(exc).__name__}{': ' + detail if detail else ''})",
         "export it again in one of the supported formats",
+        file=file,
     )
 
 
@@ -179,33 +176,33 @@ def _read_table(
         suffix, "csv"
     )
     if suffix == ".xls":
-        raise _fail(
-            file, "old-style .xls workbooks are not read", "save the sheet as .xlsx or .csv"
+        raise fail(
+            "old-style .xls workbooks are not read", "save the sheet as .xlsx or .csv", file=file
         )
     try:
         with open(p, "rb") as handle:
             head = handle.read(8)
     except OSError as exc:
-        raise _fail(
-            file, f"the file cannot be opened ({exc})", "check the path and permissions"
+        raise fail(
+            f"the file cannot be opened ({exc})", "check the path and permissions", file=file
         ) from None
     if not head:
-        raise _fail(
-            file, "the file is empty: it has no header and no rows", "export the table again"
+        raise fail(
+            "the file is empty: it has no header and no rows", "export the table again", file=file
         )
     sniffed = _sniff(head)
     if kind == "excel" and sniffed != "excel":
         looks = "text (perhaps a CSV file)" if _is_text(p) else "not an Excel workbook"
-        raise _fail(
-            file,
+        raise fail(
             f"this is not an Excel .xlsx workbook: its content is {looks}",
             "open it in a spreadsheet and save as .xlsx, or rename it to .csv if it is CSV",
+            file=file,
         )
     if kind == "parquet" and sniffed != "parquet":
-        raise _fail(
-            file,
+        raise fail(
             "this is not a Parquet file (it lacks the Parquet signature)",
             "export the table again as Parquet or CSV",
+            file=file,
         )
     kind = sniffed
     if kind == "parquet":
@@ -226,10 +223,10 @@ def _is_text(path: Path) -> bool:
 
 def _decode(raw: bytes, file: str) -> str:
     if b"\x00" in raw[:65536]:
-        raise _fail(
-            file,
+        raise fail(
             "this is not a text table: the file holds binary data",
             "export the table as CSV (comma- or semicolon-separated text), Excel .xlsx or Parquet",
+            file=file,
         )
     try:
         return raw.decode("utf-8-sig")
@@ -304,19 +301,19 @@ def _frame_from_rows(
 ) -> pd.DataFrame:
     """First row = header; later rows typed; index = file line - 2; empty lines dropped."""
     if rows.shape[0] == 0:
-        raise _fail(
-            file, "the file is empty: it has no header and no rows", "export the table again"
+        raise fail(
+            "the file is empty: it has no header and no rows", "export the table again", file=file
         )
     header = [
         ("" if h is None or (isinstance(h, float) and np.isnan(h)) else str(h)).strip()
         for h in rows.iloc[0].tolist()
     ]
     if len(header) > MAX_COLUMNS:
-        raise _fail(
-            file,
+        raise fail(
             f"the table has {len(header):,} columns, more than the {MAX_COLUMNS:,} a panel "
             "can have (is this really a table? a boundary file given as the panel, say)",
             "give the panel as a table of region, year and a few value columns",
+            file=file,
         )
     # One object array, sliced per column: per-column access on a wide frame of text
     # columns costs time in the square of the column count.
@@ -342,13 +339,13 @@ def _read_csv(path: Path, file: str) -> pd.DataFrame:
     try:
         raw = path.read_bytes()
     except OSError as exc:
-        raise _fail(
-            file, f"the file cannot be read ({exc})", "check the path and permissions"
+        raise fail(
+            f"the file cannot be read ({exc})", "check the path and permissions", file=file
         ) from None
     text = _decode(raw, file)
     if not text.strip():
-        raise _fail(
-            file, "the file is empty: it has no header and no rows", "export the table again"
+        raise fail(
+            "the file is empty: it has no header and no rows", "export the table again", file=file
         )
     lines = [ln for ln in text.splitlines()[:50] if ln.strip()]
     delimiter = _pick_delimiter(lines)
@@ -364,17 +361,17 @@ def _read_csv(path: Path, file: str) -> pd.DataFrame:
             engine="c",
         )
     except pd.errors.EmptyDataError:
-        raise _fail(
-            file, "the file is empty: it has no header and no rows", "export the table again"
+        raise fail(
+            "the file is empty: it has no header and no rows", "export the table again", file=file
         ) from None
     except (pd.errors.ParserError, ValueError, csv.Error) as exc:
         m = re.search(r"line (\d+), saw (\d+)", str(exc))
         row = int(m.group(1)) if m else None
         detail = f"line {row} has {m.group(2)} fields, more than the header" if m else str(exc)
-        raise _fail(
-            file,
+        raise fail(
             f"the table cannot be parsed: {detail}",
             "every line needs the same number of fields as the header; quote text that contains the delimiter",
+            file=file,
             row=row,
         ) from None
     # the header row decides the width; pandas pads short lines with empty cells
@@ -391,10 +388,10 @@ def _read_parquet(path: Path, file: str) -> pd.DataFrame:
         table = pq.read_table(path)
         frame = table.to_pandas(ignore_metadata=True)  # no pandas metadata is trusted
     except (pa.ArrowException, OSError, ValueError, TypeError) as exc:
-        raise _fail(
-            file,
+        raise fail(
             f"the Parquet file cannot be read ({exc})",
             "export the table again as Parquet or CSV",
+            file=file,
         ) from None
     frame = frame.reset_index(drop=True)
     for c in frame.columns:
@@ -418,10 +415,10 @@ def _read_excel(path: Path, file: str, sheet: str | int | None) -> pd.DataFrame:
     try:
         book = openpyxl.load_workbook(path, read_only=True, data_only=True)
     except Exception as exc:  # openpyxl raises many types for damaged workbooks
-        raise _fail(
-            file,
+        raise fail(
             f"the Excel workbook cannot be read ({type(exc).__name__}: {exc})",
             "open it in a spreadsheet and save it again as .xlsx",
+            file=file,
         ) from None
     try:
         names = book.sheetnames
@@ -432,35 +429,35 @@ def _read_excel(path: Path, file: str, sheet: str | int | None) -> pd.DataFrame:
         ):
             i = int(sheet)
             if not 0 <= i < len(names):
-                raise _fail(
-                    file,
+                raise fail(
                     f"the workbook has no sheet number {i}; its sheets are: {', '.join(names)}",
                     "choose one of these sheets",
+                    file=file,
                 )
             chosen = names[i]
         elif sheet in names:
             chosen = sheet
         else:
-            raise _fail(
-                file,
+            raise fail(
                 f"the workbook has no sheet {sheet!r}; its sheets are: {', '.join(names)}",
                 "choose one of these sheets",
+                file=file,
             )
         try:
             rows = [list(r) for r in book[chosen].iter_rows(values_only=True)]
         except Exception as exc:
-            raise _fail(
-                file,
+            raise fail(
                 f"the sheet {chosen!r} cannot be read ({exc})",
                 "save the workbook again as .xlsx",
+                file=file,
             ) from None
     finally:
         book.close()
     if not rows or all(all(v is None for v in r) for r in rows):
-        raise _fail(
-            file,
+        raise fail(
             f"the sheet {chosen!r} is empty: it has no header and no rows",
             "choose the sheet that holds the table",
+            file=file,
         )
     width = max(len(r) for r in rows)
     grid = pd.DataFrame([r + [None] * (width - len(r)) for r in rows], dtype=object)
@@ -595,19 +592,19 @@ def _read_boundaries(
                 if e.filename.lower().endswith((".geojson", ".gpkg", ".json"))
             ]
             if not inner:
-                raise _fail(
-                    file,
+                raise fail(
                     "the zip archive holds no Shapefile (.shp)",
                     "zip the .shp together with its .shx, .dbf and .prj",
+                    file=file,
                 )
             shps = inner
         if layer:
             pick = [s for s in shps if PurePosixPath(s).stem == layer or s == layer]
             if not pick:
-                raise _fail(
-                    file,
+                raise fail(
                     f"the archive has no layer {layer!r}; it has: {', '.join(PurePosixPath(s).stem for s in shps)}",
                     "choose one of these layers",
+                    file=file,
                 )
             shp = pick[0]
         else:
@@ -626,10 +623,10 @@ def _read_boundaries(
             stem = shp[:-4].lower()
             for side in (".shx", ".dbf"):
                 if stem + side not in names:
-                    raise _fail(
-                        file,
+                    raise fail(
                         f"the Shapefile '{shp}' in the archive lacks its {side} file",
                         f"zip the {side} file together with the .shp (all files of the Shapefile share its name)",
+                        file=file,
                     )
         source = f"/vsizip/{p.resolve()}/{shp}"
         layer = None
@@ -637,10 +634,10 @@ def _read_boundaries(
         with open(p, "rb") as handle:
             start = handle.read(2048).lstrip(b"\xef\xbb\xbf \t\r\n")
         if not start.startswith(b"{"):
-            raise _fail(
-                file,
+            raise fail(
                 "this is not JSON, so not GeoJSON: a GeoJSON file starts with '{'",
                 "export the boundaries again as GeoJSON",
+                file=file,
             )
     if suffix in (".parquet", ".geoparquet", ".pq"):
         gdf = _read_geoparquet(p, file)
@@ -673,19 +670,23 @@ def _read_boundaries(
                 ".zip": "zipped Shapefile",
                 ".shp": "Shapefile",
             }.get(suffix, "boundary")
-            raise _fail(
-                file,
+            raise fail(
                 f"the {what} file cannot be read ({str(exc).splitlines()[0][:300]})",
                 "export the boundaries again as GeoJSON, GeoPackage or a zipped Shapefile",
+                file=file,
             ) from None
     if not isinstance(gdf, gpd.GeoDataFrame) or "geometry" not in gdf.columns:
-        raise _fail(
-            file, "the file has no geometry column", "export the boundaries with their polygons"
+        raise fail(
+            "the file has no geometry column",
+            "export the boundaries with their polygons",
+            file=file,
         )
     empty = gdf.geometry.isna().to_numpy() | gdf.geometry.is_empty.to_numpy()
     if empty.all():
-        raise _fail(
-            file, "the boundary file has no geometries", "export the boundaries with their polygons"
+        raise fail(
+            "the boundary file has no geometries",
+            "export the boundaries with their polygons",
+            file=file,
         )
     if empty.any():
         problems.append(
@@ -700,10 +701,10 @@ def _read_boundaries(
     types = set(gdf.geom_type.unique())
     if not types <= _POLYGONAL:
         other = sorted(types - _POLYGONAL)
-        raise _fail(
-            file,
+        raise fail(
             f"the boundaries hold {', '.join(other)} geometries, but district boundaries must be polygons",
             "export the district areas (polygons), not their centres or borders",
+            file=file,
         )
     gdf = _set_crs(gdf, file, crs, problems)
     invalid = ~shapely.is_valid(gdf.geometry.to_numpy())
@@ -726,10 +727,10 @@ def _read_boundaries(
         try:
             gdf = gdf.to_crs("EPSG:4326")
         except Exception as exc:  # pyproj raises its own types
-            raise _fail(
-                file,
+            raise fail(
                 f"the boundaries cannot be reprojected to longitude/latitude ({exc})",
                 "give the right CRS",
+                file=file,
             ) from None
     gdf = gdf.reset_index(drop=True)
     gdf.attrs = {"problems": tuple(problems)}
@@ -751,26 +752,26 @@ def _choose_layer(p: Path, file: str, layer: str | None, warnings: list[Problem]
     try:
         layers = pyogrio.list_layers(p)
     except (pyogrio.errors.DataSourceError, OSError, ValueError, RuntimeError) as exc:
-        raise _fail(
-            file,
+        raise fail(
             f"the GeoPackage cannot be read ({str(exc).splitlines()[0][:300]})",
             "export the boundaries again",
+            file=file,
         ) from None
     names = [str(n) for n, _ in layers]
     if layer is not None:
         if layer not in names:
-            raise _fail(
-                file,
+            raise fail(
                 f"the GeoPackage has no layer {layer!r}; its layers are: {', '.join(names)}",
                 "choose one of these layers",
+                file=file,
             )
         return layer
     polygonal = [str(n) for n, t in layers if t and "POLYGON" in str(t).upper()]
     if not polygonal:
-        raise _fail(
-            file,
+        raise fail(
             f"no layer of the GeoPackage holds polygons (layers: {', '.join(names)})",
             "export the district areas as polygons",
+            file=file,
         )
     if len(names) > 1:
         warnings.append(
@@ -791,10 +792,10 @@ def _read_geoparquet(p: Path, file: str):
     try:
         return gpd.read_parquet(p)
     except (ValueError, pa.ArrowException, OSError, TypeError, KeyError) as exc:
-        raise _fail(
-            file,
+        raise fail(
             f"the GeoParquet file cannot be read ({str(exc).splitlines()[0][:300]})",
             "export the boundaries as GeoParquet with a geometry column, or as GeoJSON",
+            file=file,
         ) from None
 
 
@@ -806,10 +807,10 @@ def _set_crs(gdf, file: str, crs: str | None, warnings: list[Problem]):
         try:
             given = CRS.from_user_input(crs)
         except CRSError:
-            raise _fail(
-                file,
+            raise fail(
                 f"the CRS {crs!r} is not recognised",
                 "give it as an EPSG code such as EPSG:3035",
+                file=file,
             ) from None
         if gdf.crs is not None and not gdf.crs.equals(given):
             warnings.append(
@@ -835,10 +836,10 @@ def _set_crs(gdf, file: str, crs: str | None, warnings: list[Problem]):
             )
         )
         return gdf.set_crs("EPSG:4326")
-    raise _fail(
-        file,
+    raise fail(
         f"the file declares no CRS and its coordinates ({minx:.0f} to {maxx:.0f}, {miny:.0f} to {maxy:.0f}) are not longitude/latitude",
         "give the coordinate reference system with --crs, e.g. --crs EPSG:3035, or add a .prj file",
+        file=file,
     )
 
 
@@ -913,10 +914,10 @@ def load_panel(
         if boundary_id is not None:
             attrs = [c for c in boundaries.columns if c != "geometry"]
             if boundary_id not in attrs:
-                raise _fail(
-                    boundary_file,
+                raise fail(
                     f"the boundary file has no attribute {boundary_id!r}; its attributes are: {', '.join(attrs)}",
                     "choose one of these attributes as the id",
+                    file=boundary_file,
                 )
             keep = boundaries.attrs
             if boundary_id != "region":

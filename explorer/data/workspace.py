@@ -31,7 +31,7 @@ import pandas as pd
 import platformdirs
 from pyarrow import ArrowException
 
-from explorer.data.panel import KIND_COLUMNS, DataError, Panel, Problem
+from explorer.data.model import KIND_COLUMNS, DataError, Panel, Problem, fail
 
 __all__ = ["SCHEMA_VERSION", "Workspace", "dataset_id", "safe_name"]
 
@@ -90,9 +90,9 @@ def safe_name(name: str, *, what: str = "name") -> str:
         If ``name`` is not a string or is blank.
     """
     if not isinstance(name, str):
-        raise _error(f"The {what} must be text, not {type(name).__name__}.", "Type a name.")
+        raise fail(f"The {what} must be text, not {type(name).__name__}.", "Type a name.")
     if not name.strip():
-        raise _error(f"The {what} is empty.", "Type a name with at least one letter or digit.")
+        raise fail(f"The {what} is empty.", "Type a name with at least one letter or digit.")
     text = unicodedata.normalize("NFKC", name)
     kept = "".join(ch if (ch.isalnum() or ch in " -_.") else "-" for ch in text)
     kept = re.sub(r"-{2,}", "-", kept)
@@ -114,7 +114,7 @@ def _canonical_options(options: dict[str, Any] | None) -> dict[str, Any]:
     """Read options as plain JSON values, ``None`` entries dropped, keys sorted."""
     options = {} if options is None else options
     if not isinstance(options, dict):
-        raise _error(
+        raise fail(
             f"Read options must be a mapping, not {type(options).__name__}.",
             "Pass the options as a dict such as {'kind': 'brackets'}.",
         )
@@ -126,7 +126,7 @@ def _source_bytes_hash(source: Source) -> tuple[str, str, int]:
     """(display name, sha256, size) of one input, reading a path in chunks, read-only."""
     if isinstance(source, tuple):
         if len(source) != 2 or not isinstance(source[1], bytes | bytearray | memoryview):
-            raise _error(
+            raise fail(
                 "An uploaded source must be a (file name, bytes) pair.",
                 "Pass uploads as (name, content_bytes).",
             )
@@ -141,7 +141,7 @@ def _source_bytes_hash(source: Source) -> tuple[str, str, int]:
                 digest.update(chunk)
                 size += len(chunk)
     except OSError as exc:
-        raise _error(
+        raise fail(
             f"Cannot read the input file: {exc.strerror or exc}.",
             "Check that the file exists and is readable.",
             file=path.name,
@@ -276,10 +276,6 @@ def _leftover(name: str) -> bool:
     return not (pid.isdigit() and _pid_alive(int(pid)))
 
 
-def _error(message: str, fix: str = "", file: str = "", column: str | None = None) -> DataError:
-    return DataError([Problem(message=message, fix=fix, file=file, column=column)])
-
-
 # ---------------------------------------------------------------------------------------
 # the workspace
 
@@ -319,7 +315,7 @@ class Workspace:
             self.datasets_dir.mkdir(parents=True, exist_ok=True)
             self.views_dir.mkdir(parents=True, exist_ok=True)
         except OSError as exc:
-            raise _error(
+            raise fail(
                 f"Cannot use {self.root} as the data directory: {exc.strerror or exc}.",
                 f"Point {_ENV_VAR} at a directory you can write to.",
             ) from None
@@ -403,7 +399,7 @@ class Workspace:
             _fsync_dir(tmp)
             self._move_into_place(tmp, final)
         except OSError as exc:
-            raise _error(
+            raise fail(
                 f"Cannot save the dataset in {self.root}: {exc.strerror or exc}.",
                 f"Free some disk space or point {_ENV_VAR} at a writable directory.",
             ) from None
@@ -451,7 +447,7 @@ class Workspace:
             try:
                 frame.to_parquet(path, index=False)
             except (ValueError, TypeError, ImportError, ArrowException) as exc:
-                raise _error(
+                raise fail(
                     f"The {name} table cannot be stored as Parquet: {exc}.",
                     "Report this with the input files; the dataset was not saved.",
                 ) from None
@@ -482,13 +478,13 @@ class Workspace:
 
     def _manifest(self, ident: str) -> dict[str, Any]:
         if not isinstance(ident, str) or not _ID_RE.match(ident):
-            raise _error(
+            raise fail(
                 f"{ident!r} is not a dataset id (16 hex digits).",
                 "Pick a dataset from the list of stored datasets.",
             )
         folder = self.datasets_dir / ident
         if not folder.is_dir():
-            raise _error(
+            raise fail(
                 f"There is no dataset {ident} in {self.root}.",
                 "Pick a dataset from the list, or add the files again.",
             )
@@ -503,7 +499,7 @@ class Workspace:
             raise _damaged(ident, "its manifest is not a JSON object", where)
         version = manifest.get("schema_version")
         if version != SCHEMA_VERSION:
-            raise _error(
+            raise fail(
                 f"Dataset {ident} was stored in format version {version!r}; this version "
                 f"of Rift reads version {SCHEMA_VERSION}.",
                 "Add the original files again.",
@@ -529,7 +525,7 @@ class Workspace:
         return manifest
 
     def open(self, ident: str) -> Panel:
-        """Read a stored dataset back as a :class:`~explorer.data.panel.Panel`.
+        """Read a stored dataset back as a :class:`~explorer.data.model.Panel`.
 
         Every stored file is checked against the SHA-256 in the manifest and the tables
         against the columns their kind needs, so a damaged dataset is reported rather
@@ -727,17 +723,17 @@ class Workspace:
             If there is no such dataset.
         """
         if not isinstance(ident, str) or not _ID_RE.match(ident):
-            raise _error(f"{ident!r} is not a dataset id (16 hex digits).")
+            raise fail(f"{ident!r} is not a dataset id (16 hex digits).")
         folder = self.datasets_dir / ident
         trash = self.datasets_dir / _temp_name(_REMOVING)
         try:
             os.rename(folder, trash)
         except FileNotFoundError:
-            raise _error(
+            raise fail(
                 f"There is no dataset {ident} in {self.root}.", "Pick one from the list."
             ) from None
         except OSError as exc:
-            raise _error(f"Cannot remove dataset {ident}: {exc.strerror or exc}.") from None
+            raise fail(f"Cannot remove dataset {ident}: {exc.strerror or exc}.") from None
         _fsync_dir(self.datasets_dir)
         shutil.rmtree(trash, ignore_errors=True)
         self._index_entries()
@@ -748,7 +744,7 @@ class Workspace:
         path = self.views_dir / (safe_name(name, what="view name") + _VIEW_SUFFIX)
         # safe_name leaves no separators; this guards the invariant itself.
         if path.parent != self.views_dir:
-            raise _error(f"The view name {name!r} cannot be used.", "Choose a plain name.")
+            raise fail(f"The view name {name!r} cannot be used.", "Choose a plain name.")
         return path
 
     def save_view(self, name: str, text: str) -> Path:
@@ -767,9 +763,9 @@ class Workspace:
             Where the view was saved, always inside ``views/``.
         """
         if not isinstance(text, str):
-            raise _error("A view must be text.", "Save ViewState.to_json().")
+            raise fail("A view must be text.", "Save ViewState.to_json().")
         if len(text.encode("utf-8", "surrogatepass")) > _MAX_VIEW_BYTES:
-            raise _error(
+            raise fail(
                 f"The view is larger than {_MAX_VIEW_BYTES // 1000} kB.",
                 "Select fewer districts or filters.",
             )
@@ -777,7 +773,7 @@ class Workspace:
         try:
             _write_text_atomic(path, text)
         except (OSError, UnicodeEncodeError) as exc:
-            raise _error(f"Cannot save the view {name!r}: {exc}.") from None
+            raise fail(f"Cannot save the view {name!r}: {exc}.") from None
         return path
 
     def load_view(self, name: str) -> str:
@@ -793,12 +789,11 @@ class Workspace:
             with open(path, encoding="utf-8", newline="") as handle:  # keep "\r" as saved
                 return handle.read()
         except FileNotFoundError:
-            raise _error(
-                f"There is no saved view called {name!r}.",
-                "Pick one of the saved views.",
+            raise fail(
+                f"There is no saved view called {name!r}.", "Pick one of the saved views."
             ) from None
         except (OSError, UnicodeDecodeError) as exc:
-            raise _error(f"The view {name!r} cannot be read: {exc}.", file=path.name) from None
+            raise fail(f"The view {name!r} cannot be read: {exc}.", file=path.name) from None
 
     def list_views(self) -> list[str]:
         """Names of the saved views (as stored, i.e. after :func:`safe_name`), sorted."""
@@ -820,7 +815,7 @@ def _problem_record(problem: Any) -> dict[str, Any]:
 
 
 def _damaged(ident: str, what: str, file: str) -> DataError:
-    return _error(
+    return fail(
         f"Dataset {ident} is damaged: {what}.",
         "Remove it and add the original files again.",
         file=file,

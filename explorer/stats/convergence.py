@@ -19,7 +19,7 @@ import numpy as np
 import pandas as pd
 from scipy import stats
 
-from explorer.data.panel import DataError, Problem
+from explorer.data.model import DataError, Problem
 
 __all__ = ["BetaConvergence", "beta", "sigma", "SIGMA_MEASURES"]
 
@@ -27,10 +27,6 @@ __all__ = ["BetaConvergence", "beta", "sigma", "SIGMA_MEASURES"]
 SIGMA_MEASURES = ("sd_log", "sd_log_weighted", "cv", "cv_weighted")
 
 _REQUIRED = ("region", "year", "mean_income")
-
-
-def _problem(message: str, fix: str, column: str | None = None) -> Problem:
-    return Problem(message=message, fix=fix, column=column)
 
 
 def _district_years(data: pd.DataFrame) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
@@ -44,11 +40,11 @@ def _district_years(data: pd.DataFrame) -> tuple[np.ndarray, np.ndarray, np.ndar
     if missing:
         raise DataError(
             [
-                _problem(
+                Problem(
                     f"The table has no '{c}' column; convergence needs region, year and "
                     "mean_income per district-year.",
                     f"Add a '{c}' column or map an existing column to it.",
-                    c,
+                    column=c,
                 )
                 for c in missing
             ]
@@ -60,11 +56,11 @@ def _district_years(data: pd.DataFrame) -> tuple[np.ndarray, np.ndarray, np.ndar
     if bad_year.any():
         first = int(np.flatnonzero(bad_year)[0])
         problems.append(
-            _problem(
+            Problem(
                 f"{int(bad_year.sum())} row(s) have a year that is not a whole number, "
                 f"first for district '{region[first]}' ({data['year'].iloc[first]!r}).",
                 "Give each year as a whole number such as 2015.",
-                "year",
+                column="year",
             )
         )
     mean = pd.to_numeric(data["mean_income"], errors="coerce").to_numpy(dtype=float)
@@ -72,12 +68,12 @@ def _district_years(data: pd.DataFrame) -> tuple[np.ndarray, np.ndarray, np.ndar
     if bad_mean.any():
         first = int(np.flatnonzero(bad_mean)[0])
         problems.append(
-            _problem(
+            Problem(
                 f"{int(bad_mean.sum())} district-year(s) have a mean income that is missing, "
                 f"zero or negative, first '{region[first]}' in {data['year'].iloc[first]} "
                 f"({data['mean_income'].iloc[first]!r}); its logarithm is undefined.",
                 "Give a positive mean income for every district-year, or leave those rows out.",
-                "mean_income",
+                column="mean_income",
             )
         )
     if "population" in data.columns:
@@ -86,11 +82,11 @@ def _district_years(data: pd.DataFrame) -> tuple[np.ndarray, np.ndarray, np.ndar
         if negative.any():
             first = int(np.flatnonzero(negative)[0])
             problems.append(
-                _problem(
+                Problem(
                     f"{int(negative.sum())} district-year(s) have a negative population, "
                     f"first '{region[first]}' in {data['year'].iloc[first]}.",
                     "Populations are head counts: give zero or more, or leave them empty.",
-                    "population",
+                    column="population",
                 )
             )
     else:
@@ -101,12 +97,12 @@ def _district_years(data: pd.DataFrame) -> tuple[np.ndarray, np.ndarray, np.ndar
         if dup.any():
             first = int(np.flatnonzero(dup)[0])
             problems.append(
-                _problem(
+                Problem(
                     f"District '{region[first]}' appears more than once in "
                     f"{int(year[first])}; convergence needs one mean per district-year.",
                     "Keep one row per district and year (for bracket tables, one row of "
                     "each district-year's mean income).",
-                    "region",
+                    column="region",
                 )
             )
     if problems:
@@ -299,30 +295,30 @@ def beta(
     region, year, mean, _ = _district_years(data)
     if not 0 < level < 1:
         raise DataError(
-            _problem(f"Confidence level {level!r} is not between 0 and 1.", "Use e.g. 0.95.")
+            Problem(f"Confidence level {level!r} is not between 0 and 1.", "Use e.g. 0.95.")
         )
     present = np.unique(year)
     if present.size == 0:
-        raise DataError(_problem("The table has no rows.", "Give at least two years of means."))
+        raise DataError(Problem("The table has no rows.", "Give at least two years of means."))
     start = int(present[0]) if year_from is None else int(year_from)
     end = int(present[-1]) if year_to is None else int(year_to)
     absent = [y for y in (start, end) if y not in set(present.tolist())]
     if absent:
         raise DataError(
-            _problem(
+            Problem(
                 f"Year {absent[0]} is not in the table (it has {present[0]}-{present[-1]}).",
                 "Choose years that the table covers.",
-                "year",
+                column="year",
             )
         )
     if start == end and year_from is None and year_to is None:
         return _not_estimable(0, start, end, level, "The table has only one year.")
     if end <= start:
         raise DataError(
-            _problem(
+            Problem(
                 f"The end year {end} is not after the start year {start}.",
                 "Choose a start year before the end year.",
-                "year",
+                column="year",
             )
         )
 

@@ -21,7 +21,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from explorer.data.panel import DataError, Problem
+from explorer.data.model import fail
 from explorer.stats.measures import parse_index
 
 __all__ = [
@@ -48,10 +48,6 @@ DEFAULT_GRID = np.unique(np.concatenate([np.linspace(0.0, 0.99, 100), np.linspac
 # errors
 
 
-def _fail(message: str, fix: str, column: str | None = None) -> DataError:
-    return DataError((Problem(message=message, fix=fix, column=column),))
-
-
 def parse_ge_alpha(index: str) -> float:
     """The GE parameter of an index key: ``mld`` -> 0, ``theil_t`` -> 1, ``ge_<alpha>``.
 
@@ -66,7 +62,7 @@ def parse_ge_alpha(index: str) -> float:
         family, alpha = "", None
     if family == "ge" and alpha is not None:
         return float(alpha)
-    raise _fail(
+    raise fail(
         f"'{index}' is not an index that decomposes into within and between parts.",
         "Use gini, theil_t, mld or ge_<alpha> (for example ge_2).",
     )
@@ -74,26 +70,26 @@ def parse_ge_alpha(index: str) -> float:
 
 def _check_arrays(values: np.ndarray, weights: np.ndarray, alpha: float | None) -> None:
     if values.shape != weights.shape or values.ndim != 1:
-        raise _fail(
+        raise fail(
             f"incomes ({values.shape}) and weights ({weights.shape}) must be one-dimensional "
             "and of the same length.",
             "Give one weight per income.",
         )
     if values.size == 0:
-        raise _fail("there are no incomes to decompose.", "Check the year and the filters.")
+        raise fail("there are no incomes to decompose.", "Check the year and the filters.")
     if not (np.all(np.isfinite(values)) and np.all(np.isfinite(weights))):
-        raise _fail("some incomes or weights are missing or infinite.", "Remove or fill them.")
+        raise fail("some incomes or weights are missing or infinite.", "Remove or fill them.")
     if np.any(weights < 0):
-        raise _fail("some weights are negative.", "Weights must be zero or positive.")
+        raise fail("some weights are negative.", "Weights must be zero or positive.")
     if alpha is not None and alpha <= 0 and np.any(values <= 0):
-        raise _fail(
+        raise fail(
             f"GE({alpha:g}) (MLD for alpha = 0) needs every income to be positive; "
             "zero or negative incomes were found.",
             "Use theil_t, ge_2 or gini, or remove the zero incomes.",
             column="income",
         )
     if np.any(values < 0):
-        raise _fail(
+        raise fail(
             "negative incomes were found; these indices need incomes of zero or more.",
             "Remove or correct the negative incomes.",
             column="income",
@@ -160,7 +156,7 @@ def _codes(labels: Any) -> tuple[np.ndarray, np.ndarray]:
     """Integer codes 0..k-1 of ``labels`` and the sorted distinct labels (hashing, O(n))."""
     codes, uniques = pd.factorize(np.asarray(labels), sort=True)
     if codes.size and codes.min() < 0:
-        raise _fail(
+        raise fail(
             f"{int((codes < 0).sum())} units have no group label.",
             "Give every unit a group (district, county) before decomposing.",
         )
@@ -307,7 +303,7 @@ def ge_split(
     codes = [_codes(c)[0] for c in level_codes]
     for k, c in enumerate(codes):
         if c.shape != y.shape:
-            raise _fail(
+            raise fail(
                 f"level {k + 1} has {c.size} group codes for {y.size} incomes.",
                 "Give one group code per income at every level.",
             )
@@ -527,7 +523,7 @@ def dagum_split(values: np.ndarray, weights: np.ndarray | None, groups: np.ndarr
     _check_arrays(y0, w0, None)
     g0, labels = _group_codes(groups)
     if g0.shape != y0.shape:
-        raise _fail(
+        raise fail(
             f"{g0.size} group labels were given for {y0.size} incomes.",
             "Give one group label per income.",
         )
@@ -535,10 +531,10 @@ def dagum_split(values: np.ndarray, weights: np.ndarray | None, groups: np.ndarr
     pop = np.bincount(g0, w0, k)
     income = np.bincount(g0, w0 * y0, k)
     if np.any(pop <= 0):
-        raise _fail("a group has zero total weight.", "Drop empty groups or fix the weights.")
+        raise fail("a group has zero total weight.", "Drop empty groups or fix the weights.")
     total_pop, total_income = pop.sum(), income.sum()
     if total_income <= 0:
-        raise _fail("all incomes are zero; the Gini is undefined.", "Check the income column.")
+        raise fail("all incomes are zero; the Gini is undefined.", "Check the income column.")
     mean = income / pop
     p = pop / total_pop
     s = income / total_income
@@ -675,7 +671,7 @@ def pseudo_units(
         or grid[-1] != 1
         or np.any(np.diff(grid) <= 0)
     ):
-        raise _fail(
+        raise fail(
             "the quantile grid must increase strictly from 0 to 1.",
             "Pass a grid such as numpy.linspace(0, 1, 101).",
         )
@@ -739,7 +735,7 @@ def _panel_units(panel: Any, method: str) -> _Units:
         missing = np.isnan(pop)
         if missing.any() and not missing.all():
             first = data.loc[missing, ["region", "year"]].iloc[0]
-            raise _fail(
+            raise fail(
                 f"population is given for some districts but not for {first['region']} in "
                 f"{first['year']} (and {int(missing.sum()) - 1} more).",
                 "Give every district-year a population, or none (then districts count equally).",
@@ -762,7 +758,7 @@ def _panel_units(panel: Any, method: str) -> _Units:
         population = per_row["population"].reindex(index).to_numpy(dtype=float)
         mean = per_row["mean_income"].reindex(index).to_numpy(dtype=float)
         if np.all(np.isnan(mean)):
-            raise _fail(
+            raise fail(
                 "a decomposition of grouped data needs each district's mean income, and none "
                 "is given.",
                 "Add a mean_income column (one value per district and year).",
@@ -778,7 +774,7 @@ def _panel_units(panel: Any, method: str) -> _Units:
             True,
             units.dropped,
         )
-    raise _fail(f"unknown panel kind '{panel.kind}'.", "Load the panel through explorer.data.io.")
+    raise fail(f"unknown panel kind '{panel.kind}'.", "Load the panel through explorer.data.io.")
 
 
 def _level_labels(panel: Any, by: Sequence[str], regions: np.ndarray) -> list[np.ndarray]:
@@ -786,7 +782,7 @@ def _level_labels(panel: Any, by: Sequence[str], regions: np.ndarray) -> list[np
     missing = [b for b in by if b not in hierarchy.columns or b == "region"]
     if missing:
         options = [c for c in hierarchy.columns if c != "region"]
-        raise _fail(
+        raise fail(
             f"there is no level called {', '.join(repr(m) for m in missing)}.",
             f"Choose from: {', '.join(options) if options else '(no higher levels in this panel)'}.",
             column=missing[0],
@@ -797,7 +793,7 @@ def _level_labels(panel: Any, by: Sequence[str], regions: np.ndarray) -> list[np
         mapped = lookup[level].reindex(regions).to_numpy(dtype=object)
         absent = pd.isna(mapped)
         if absent.any():
-            raise _fail(
+            raise fail(
                 f"district {regions[absent][0]} has no {level}.",
                 f"Give every district a {level} in the hierarchy.",
                 column=level,
@@ -959,11 +955,11 @@ def table(
     key = str(index).strip().lower()
     units = _panel_units(panel, method)
     if units.income.size == 0:
-        raise _fail("the panel has no district-years left to decompose.", "Check the data.")
+        raise fail("the panel has no district-years left to decompose.", "Check the data.")
     labels = _level_labels(panel, by, units.region)
     if key == "gini":
         if len(by) > 1:
-            raise _fail(
+            raise fail(
                 "the Gini splits (after Dagum) one level at a time; several levels were asked.",
                 "Choose one level, or a GE index (theil_t, mld) for a nested split.",
             )
@@ -971,7 +967,7 @@ def table(
             group = labels[0] if by else units.region.astype(str)
             out = _gini_table(units, group, by[0] if by else "region")
         else:
-            raise _fail(
+            raise fail(
                 "a means-only panel has one value per district, so there is nothing to split "
                 "the between-district Gini into.",
                 "Choose a higher level (for example county) to split by.",
@@ -1043,7 +1039,7 @@ def change(
     """
     key = str(index).strip().lower()
     if key not in ("mld", "theil_t"):
-        raise _fail(
+        raise fail(
             f"the change over time is split for mld and theil_t only, not '{index}'.",
             "Choose mld or theil_t.",
         )
@@ -1056,7 +1052,7 @@ def change(
     year_to = int(years[-1]) if year_to is None else int(year_to)
     for y in (year_from, year_to):
         if y not in years:
-            raise _fail(
+            raise fail(
                 f"the panel has no data for {y}.",
                 f"Choose years from {years[0]} to {years[-1]}.",
                 column="year",
@@ -1076,7 +1072,7 @@ def change(
     before = _group_stats(units, units.year == year_from, codes, n, alpha)
     after = _group_stats(units, units.year == year_to, codes, n, alpha)
     if before is None or after is None:
-        raise _fail(
+        raise fail(
             f"some {name} groups have no data in {year_from} or {year_to}.",
             "Compare years in which every group is present.",
             column=name,

@@ -22,7 +22,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from explorer.data.panel import DataError, Problem
+from explorer.data.model import fail
 from explorer.stats import lorenz, measures
 
 DEFAULT_INDICES: tuple[str, ...] = measures.STANDARD_INDICES
@@ -39,35 +39,31 @@ _OUTSIDE_NOTE = "the fitted curve gives a value outside the bounds the bracket s
 # ---------------------------------------------------------------------------- checks
 
 
-def _bad_argument(message: str, fix: str, column: str | None = None) -> DataError:
-    return DataError([Problem(message=message, fix=fix, column=column)])
-
-
 def _check_arguments(methods, indices, ci, reps, level) -> tuple[tuple[str, ...], tuple[str, ...]]:
     methods = (methods,) if isinstance(methods, str) else tuple(methods)
     indices = (indices,) if isinstance(indices, str) else tuple(indices)
     unknown = [m for m in methods if m not in lorenz.METHODS]
     if unknown or not methods:
-        raise _bad_argument(
+        raise fail(
             f"unknown Lorenz method {', '.join(map(repr, unknown)) or '(none given)'}",
             f"use one or more of {', '.join(lorenz.METHODS)}",
-            "method",
+            column="method",
         )
     if not indices:
-        raise _bad_argument("no index asked for", f"use e.g. {', '.join(DEFAULT_INDICES)}")
+        raise fail("no index asked for", f"use e.g. {', '.join(DEFAULT_INDICES)}")
     for key in indices:
         try:
             measures.parse_index(key)
         except ValueError as err:
-            raise _bad_argument(str(err), "correct the index name", "index") from None
+            raise fail(str(err), "correct the index name", column="index") from None
     if ci not in CI_CHOICES:
-        raise _bad_argument(
-            f"unknown interval {ci!r}", "use ci=None (no interval) or ci='bootstrap'", "ci"
+        raise fail(
+            f"unknown interval {ci!r}", "use ci=None (no interval) or ci='bootstrap'", column="ci"
         )
     if not 0.0 < float(level) < 1.0:
-        raise _bad_argument(f"confidence level {level} is not between 0 and 1", "use e.g. 0.95")
+        raise fail(f"confidence level {level} is not between 0 and 1", "use e.g. 0.95")
     if int(reps) < 2:
-        raise _bad_argument(f"{reps} bootstrap replicates are too few", "use e.g. 199 or 999")
+        raise fail(f"{reps} bootstrap replicates are too few", "use e.g. 199 or 999")
     return tuple(dict.fromkeys(methods)), tuple(dict.fromkeys(indices))
 
 
@@ -265,7 +261,7 @@ def compute(
 
     Parameters
     ----------
-    panel : explorer.data.panel.Panel
+    panel : explorer.data.model.Panel
     methods : str or sequence of str
         Lorenz methods for bracket panels (``linear, upper, pchip, gq, beta, quadratic,
         lognormal, auto``); one block of rows each. Ignored for unit and means panels.
@@ -286,7 +282,7 @@ def compute(
 
     Raises
     ------
-    explorer.data.panel.DataError
+    explorer.data.model.DataError
         For an unknown method, index, interval or level.
 
     References
@@ -305,7 +301,7 @@ def compute(
     elif kind == "means":
         table = _means(panel, indices, ci)
     else:
-        raise _bad_argument(f"unknown panel kind {kind!r}", "use brackets, units or means")
+        raise fail(f"unknown panel kind {kind!r}", "use brackets, units or means")
     table = table.reset_index(drop=True)
     table["note"] = table["note"].astype(str).astype(object)
     table.attrs.update(kind=kind, ci=ci if kind == "units" else None, level=level if ci else None)

@@ -60,7 +60,7 @@ import numpy as np
 import pandas as pd
 from scipy import special
 
-from explorer.data.panel import DataError, Problem
+from explorer.data.model import DataError, Problem
 from explorer.stats.measures import parse_index
 
 METHODS = ("linear", "upper", "pchip", "gq", "beta", "quadratic", "lognormal", "auto")

@@ -15,7 +15,7 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from explorer.data.panel import DataError, Problem
+from explorer.data.model import DataError, Problem, fail
 
 __all__ = [
     "STANDARD_INDICES",
@@ -185,14 +185,6 @@ class IndexValues:
     note: np.ndarray
 
 
-def _problem(message: str, fix: str, column: str | None) -> Problem:
-    return Problem(message=message + ".", fix=fix + ".", column=column)
-
-
-def _data_error(message: str, fix: str, column: str | None) -> DataError:
-    return DataError((_problem(message, fix, column),))
-
-
 def _positions(mask: np.ndarray) -> str:
     where = np.flatnonzero(mask)
     shown = ", ".join(str(i + 1) for i in where[:5])
@@ -204,16 +196,16 @@ def _as_float(data, column: str) -> np.ndarray:
     try:
         array = np.asarray(data, dtype=np.float64)
     except (TypeError, ValueError) as exc:
-        raise _data_error(
-            f"{column} must be numbers; found a value that is not ({exc})",
-            f"make every {column} a plain number (no units, no thousands separators)",
-            column,
+        raise fail(
+            f"{column} must be numbers; found a value that is not ({exc})" + ".",
+            f"make every {column} a plain number (no units, no thousands separators)" + ".",
+            column=column,
         ) from None
     if array.ndim != 1:
-        raise _data_error(
-            f"{column} must be one column of numbers, got an array of shape {array.shape}",
-            f"pass a single {column} column",
-            column,
+        raise fail(
+            f"{column} must be one column of numbers, got an array of shape {array.shape}" + ".",
+            f"pass a single {column} column" + ".",
+            column=column,
         )
     return array
 
@@ -221,17 +213,16 @@ def _as_float(data, column: str) -> np.ndarray:
 def _group_codes(groups, n: int) -> tuple[np.ndarray, np.ndarray | pd.DataFrame]:
     if isinstance(groups, pd.DataFrame):
         if len(groups) != n:
-            raise _data_error(
-                f"group columns have {len(groups)} rows but income has {n}",
-                "pass group columns from the same table as the incomes",
-                None,
+            raise fail(
+                f"group columns have {len(groups)} rows but income has {n}" + ".",
+                "pass group columns from the same table as the incomes" + ".",
             )
         missing = groups.isna().any(axis=1).to_numpy()
         if missing.any():
-            raise _data_error(
-                f"group label missing in {_positions(missing)}",
-                "fill in the district (and year) of every record",
-                ", ".join(map(str, groups.columns)),
+            raise fail(
+                f"group label missing in {_positions(missing)}" + ".",
+                "fill in the district (and year) of every record" + ".",
+                column=", ".join(map(str, groups.columns)),
             )
         codes, uniques = pd.MultiIndex.from_frame(groups).factorize(sort=True)
         labels = uniques.to_frame(index=False)
@@ -239,17 +230,17 @@ def _group_codes(groups, n: int) -> tuple[np.ndarray, np.ndarray | pd.DataFrame]
         return codes.astype(np.int64), labels
     labels = groups.to_numpy() if isinstance(groups, pd.Series | pd.Index) else np.asarray(groups)
     if labels.ndim != 1 or len(labels) != n:
-        raise _data_error(
-            f"groups must be one label per income ({n}), got shape {np.shape(labels)}",
-            "pass one group label for each record",
-            "group",
+        raise fail(
+            f"groups must be one label per income ({n}), got shape {np.shape(labels)}" + ".",
+            "pass one group label for each record" + ".",
+            column="group",
         )
     codes, uniques = pd.factorize(labels, sort=True)
     if (codes < 0).any():
-        raise _data_error(
-            f"group label missing in {_positions(codes < 0)}",
-            "fill in the group (district) of every record",
-            "group",
+        raise fail(
+            f"group label missing in {_positions(codes < 0)}" + ".",
+            "fill in the group (district) of every record" + ".",
+            column="group",
         )
     return codes.astype(np.int64), np.asarray(uniques)
 
@@ -275,7 +266,7 @@ def sort_units(values, weights=None, groups=None) -> SortedUnits:
 
     Raises
     ------
-    explorer.data.panel.DataError
+    explorer.data.model.DataError
         For non-numeric or non-finite incomes, negative or non-finite weights, missing
         group labels, or inputs of different lengths. The inputs are never modified.
     """
@@ -283,28 +274,28 @@ def sort_units(values, weights=None, groups=None) -> SortedUnits:
     n = len(income)
     weight = np.ones(n) if weights is None else _as_float(weights, "weight")
     if len(weight) != n:
-        raise _data_error(
-            f"weight has {len(weight)} entries but income has {n}",
-            "give one weight per income, or none",
-            "weight",
+        raise fail(
+            f"weight has {len(weight)} entries but income has {n}" + ".",
+            "give one weight per income, or none" + ".",
+            column="weight",
         )
     problems = []
     bad = ~np.isfinite(income)
     if bad.any():
         problems.append(
-            _problem(
-                f"income is missing or not finite in {_positions(bad)}",
-                "fill in or drop those records",
-                "income",
+            Problem(
+                f"income is missing or not finite in {_positions(bad)}" + ".",
+                "fill in or drop those records" + ".",
+                column="income",
             )
         )
     bad = ~np.isfinite(weight) | (weight < 0)
     if bad.any():
         problems.append(
-            _problem(
-                f"weight is negative, missing or not finite in {_positions(bad)}",
-                "weights are population counts or shares: use finite numbers >= 0",
-                "weight",
+            Problem(
+                f"weight is negative, missing or not finite in {_positions(bad)}" + ".",
+                "weights are population counts or shares: use finite numbers >= 0" + ".",
+                column="weight",
             )
         )
     if problems:

@@ -16,7 +16,7 @@ import scipy.sparse as sp
 import shapely
 from scipy.spatial import cKDTree
 
-from explorer.data.panel import DataError, Problem
+from explorer.data.model import fail
 
 __all__ = [
     "CLUSTERS",
@@ -35,10 +35,6 @@ __all__ = [
 
 CLUSTERS = ("high-high", "low-low", "high-low", "low-high", "not significant")
 _PERM_ELEMENTS = 1_000_000  # permutations x districts held at once (~8 MB, cache-friendly)
-
-
-def _fail(message: str, fix: str, column: str | None = None) -> DataError:
-    return DataError((Problem(message=message, fix=fix, column=column),))
 
 
 # --------------------------------------------------------------------------------------------
@@ -133,9 +129,9 @@ def neighbours(
     Cliff, A. D. & Ord, J. K. (1981). *Spatial Processes: Models and Applications*. Pion.
     """
     if kind not in ("queen", "rook", "knn"):
-        raise _fail(f"unknown neighbour rule '{kind}'.", "Use queen, rook or knn.")
+        raise fail(f"unknown neighbour rule '{kind}'.", "Use queen, rook or knn.")
     if id_column not in districts.columns:
-        raise _fail(
+        raise fail(
             f"the boundary file has no column '{id_column}'.",
             "Name the column that holds the district ids.",
             column=id_column,
@@ -143,7 +139,7 @@ def neighbours(
     ids = districts[id_column].astype(str).to_numpy(dtype=object)
     if pd.Series(ids).duplicated().any():
         dup = pd.Series(ids)[pd.Series(ids).duplicated()].iloc[0]
-        raise _fail(
+        raise fail(
             f"district {dup} appears more than once in the boundaries.",
             "Dissolve its parts into one row per district.",
             column=id_column,
@@ -151,12 +147,12 @@ def neighbours(
     geometry = np.asarray(districts.geometry.values)
     if shapely.is_missing(geometry).any() or shapely.is_empty(geometry).any():
         bad = ids[shapely.is_missing(geometry) | shapely.is_empty(geometry)][0]
-        raise _fail(
+        raise fail(
             f"district {bad} has no geometry.", "Give every district a boundary.", column="geometry"
         )
     n = ids.size
     if n < 2:
-        raise _fail("a neighbour graph needs at least two districts.", "Add districts.")
+        raise fail("a neighbour graph needs at least two districts.", "Add districts.")
     points = _centroid_points(geometry, getattr(districts, "crs", None))
     islands: tuple[str, ...] = ()
     if kind == "knn":
@@ -196,13 +192,13 @@ def _values(values: Any, graph: NeighbourGraph) -> np.ndarray:
         series.index = series.index.astype(str)
         missing = [i for i in graph.ids if i not in series.index]
         if missing:
-            raise _fail(
+            raise fail(
                 f"{len(missing)} district(s) of the map have no value, e.g. {missing[0]}.",
                 "Give every mapped district a value, or drop it from the boundaries.",
                 column="region",
             )
         if series.index.duplicated().any():
-            raise _fail(
+            raise fail(
                 f"district {series.index[series.index.duplicated()][0]} has more than one value.",
                 "Give one value per district.",
                 column="region",
@@ -211,13 +207,13 @@ def _values(values: Any, graph: NeighbourGraph) -> np.ndarray:
     else:
         x = np.asarray(values, dtype=float)
         if x.shape != (graph.n,):
-            raise _fail(
+            raise fail(
                 f"{x.size} values were given for {graph.n} districts.",
                 "Give one value per district, in the graph's order.",
             )
     if not np.all(np.isfinite(x)):
         bad = graph.ids[~np.isfinite(x)][0]
-        raise _fail(f"district {bad} has a missing value.", "Fill or drop it.", column="value")
+        raise fail(f"district {bad} has a missing value.", "Fill or drop it.", column="value")
     return x
 
 
@@ -238,7 +234,7 @@ def _distinct_draws(rng: np.random.Generator, rows: int, population: int, size: 
     common practice), and with ``size`` much smaller than ``population`` few rows repeat.
     """
     if size > population:
-        raise _fail("a district has more neighbours than there are other districts.", "")
+        raise fail("a district has more neighbours than there are other districts.", "")
     if 2 * size * size > population:  # repeats would be frequent: shuffle instead
         keys = rng.random((rows, population))
         return np.argpartition(keys, size - 1, axis=1)[:, :size]
@@ -315,13 +311,13 @@ def moran(
     x = _values(values, graph)
     n = graph.n
     if n < 4:
-        raise _fail("Moran's I needs at least four districts.", "Add districts.")
+        raise fail("Moran's I needs at least four districts.", "Add districts.")
     w = _row_standardised(graph.matrix) if row_standardise else graph.matrix
     z = x - x.mean()
     zz = float(z @ z)
     expected = -1.0 / (n - 1)
     if zz == 0:
-        raise _fail(
+        raise fail(
             "every district has the same value; Moran's I is undefined.", "Check the values."
         )
     s0 = float(w.sum())
@@ -390,13 +386,13 @@ def local_moran(
     x = _values(values, graph)
     n = graph.n
     if not 0 < alpha < 1:
-        raise _fail(f"significance level {alpha} is not between 0 and 1.", "Use e.g. 0.05.")
+        raise fail(f"significance level {alpha} is not between 0 and 1.", "Use e.g. 0.05.")
     matrix = graph.matrix
     degree = np.diff(matrix.indptr)
     z = x - x.mean()
     m2 = float(z @ z) / n
     if m2 == 0:
-        raise _fail(
+        raise fail(
             "every district has the same value; local Moran is undefined.", "Check the values."
         )
     lag = _row_standardised(matrix) @ z
@@ -480,7 +476,7 @@ def spatial_gini(
     x = _values(values, graph)
     n = graph.n
     if np.any(x < 0) or x.sum() <= 0:
-        raise _fail("the Gini needs values of zero or more, not all zero.", "Check the values.")
+        raise fail("the Gini needs values of zero or more, not all zero.", "Check the values.")
     gini = _gini(x)
     pairs = sp.triu(graph.matrix + graph.matrix.T, k=1).tocoo()
     rows, cols = pairs.row, pairs.col

@@ -12,7 +12,7 @@ from typing import Any
 import pandas as pd
 import streamlit as st
 
-from explorer.data.panel import DataError
+from explorer.data.model import DataError
 from explorer.ui import data, layout, show, state
 
 KINDS = {
@@ -127,7 +127,7 @@ def read_upload(panel_file: Any, boundary_file: Any, options: dict[str, Any]):
                 raise
             except Exception as error:  # a reader failure must still read as a data problem
                 status.update(label="The files could not be read", state="error")
-                from explorer.data.panel import Problem
+                from explorer.data.model import Problem
 
                 raise DataError(
                     (

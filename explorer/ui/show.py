@@ -13,7 +13,7 @@ from typing import Any
 import pandas as pd
 import streamlit as st
 
-from explorer.data.panel import DataError
+from explorer.data.model import DataError
 
 LOG = logging.getLogger("rift")
 

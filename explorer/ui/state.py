@@ -92,7 +92,7 @@ def panel():
 
 def _open_or_demo(dataset_id: str, notices: list[str]) -> tuple[Any, str]:
     """The dataset's panel and id, or the demo's (with a notice) if it cannot be opened."""
-    from explorer.data.panel import DataError
+    from explorer.data.model import DataError
 
     try:
         return data.open_dataset(dataset_id), dataset_id

@@ -13,7 +13,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from explorer.data import io
-from explorer.data.panel import DataError
+from explorer.data.model import DataError
 
 BAD = Path(__file__).resolve().parents[1] / "fixtures" / "bad"
 

@@ -4,7 +4,7 @@ Inputs are random bytes, mutated copies of valid files (CSV, Parquet, Excel, Geo
 GeoPackage, GeoParquet, zipped Shapefile), random CSV text with odd delimiters, quotes,
 huge numbers and Unicode, and random GeoJSON-like documents; ``load_panel`` is driven end
 to end with random read options. The property (common practice for code at a trust
-boundary): the only exception that escapes is ``explorer.data.panel.DataError``, it names a
+boundary): the only exception that escapes is ``explorer.data.model.DataError``, it names a
 problem, no reader hangs (a watchdog per example), the input file is left byte for byte as
 it was and nothing is written outside the example's temporary directory.
 
@@ -38,7 +38,7 @@ from hypothesis import HealthCheck, Phase, given, settings
 from hypothesis import strategies as st
 
 from explorer.data import io as rio
-from explorer.data.panel import DataError
+from explorer.data.model import DataError
 
 FIXTURE = Path(pyogrio.__file__).parent / "tests" / "fixtures" / "naturalearth_lowres"
 WATCHDOG_SECONDS = 5  # honest reads of these inputs take milliseconds: only a hang trips it

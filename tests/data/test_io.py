@@ -21,7 +21,7 @@ from pyproj import Transformer
 from shapely.geometry import Point, Polygon, box
 
 from explorer.data import io
-from explorer.data.panel import DataError
+from explorer.data.model import DataError
 
 NATURAL_EARTH = (
     Path(pyogrio.__file__).parent

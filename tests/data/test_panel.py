@@ -16,7 +16,8 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy import integrate
 
-from explorer.data.panel import DataError, Panel, Problem, detect_kind, validate
+from explorer.data.model import DataError, Panel, Problem
+from explorer.data.validate import detect_kind, validate
 
 K = 5
 

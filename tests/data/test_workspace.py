@@ -1,6 +1,6 @@
 """Tests of explorer.data.workspace: datasets and views on disk.
 
-Outside references: ``explorer.data.panel.fingerprint`` (the panel's own content hash) and
+Outside references: ``explorer.data.model.fingerprint`` (the panel's own content hash) and
 shapely's exact geometry equality for the round trip; Python's ``hashlib`` for "inputs
 untouched"; ``os.path.commonpath`` for "stays inside the root". That a content-hashed
 store is idempotent and that user names must not reach the file system unfiltered is
@@ -25,7 +25,8 @@ import shapely
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from explorer.data.panel import DataError, Panel, fingerprint, validate
+from explorer.data.model import DataError, Panel, fingerprint
+from explorer.data.validate import validate
 from explorer.data.workspace import Workspace, dataset_id, safe_name
 
 HOSTILE_NAMES = [
@@ -48,7 +49,7 @@ HOSTILE_NAMES = [
 
 
 # ---------------------------------------------------------------------------------------
-# sample panels (built through explorer.data.panel.validate, as readers do)
+# sample panels (built through explorer.data.validate.validate, as readers do)
 
 
 def _boundaries(regions: list[str]) -> gpd.GeoDataFrame:

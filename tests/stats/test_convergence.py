@@ -10,7 +10,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy import stats
 
-from explorer.data.panel import DataError
+from explorer.data.model import DataError
 from explorer.stats import convergence
 
 

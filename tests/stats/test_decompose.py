@@ -9,7 +9,8 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy.interpolate import PchipInterpolator
 
-from explorer.data.panel import DataError, validate
+from explorer.data.model import DataError
+from explorer.data.validate import validate
 from explorer.stats import decompose, lorenz, measures
 
 ALPHAS = [0.0, 1.0, 2.0, 0.5, -1.0]

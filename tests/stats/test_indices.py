@@ -14,7 +14,8 @@ import pandas as pd
 import pytest
 from scipy import special
 
-from explorer.data.panel import DataError, validate
+from explorer.data.model import DataError
+from explorer.data.validate import validate
 from explorer.stats import indices, lorenz
 
 SIGMA = 0.7

@@ -609,7 +609,7 @@ def test_fitting_never_writes_to_the_input_arrays():
 
 def test_bad_arguments_raise_data_errors_with_a_fix():
     """Every refusal is a DataError naming what is wrong and how to fix it."""
-    from explorer.data.panel import DataError
+    from explorer.data.model import DataError
 
     P, L = lognormal_points(5)
     cases = [

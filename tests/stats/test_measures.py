@@ -19,7 +19,7 @@ from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 from scipy import integrate, special, stats
 
-from explorer.data.panel import DataError
+from explorer.data.model import DataError
 from explorer.stats.measures import (
     STANDARD_INDICES,
     compute,

@@ -15,7 +15,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy.spatial.distance import cdist
 
-from explorer.data.panel import DataError
+from explorer.data.model import DataError
 from explorer.stats import measures, spatial
 
 # Natural Earth 1:110m countries, public domain, shipped with pyogrio's own tests.

@@ -1,5 +1,5 @@
-"""The panel data model: validated district-year tables, the problems found in them, and
-``validate()``, the one place where input is checked.
+"""Validation: a raw table (and boundaries) in, a :class:`~explorer.data.model.Panel` out, or
+a :class:`~explorer.data.model.DataError` naming every problem. The one place input is checked.
 
 Readers in :mod:`explorer.data.io` turn files into DataFrames; everything downstream trusts a
 :class:`Panel`. Readers may leave warnings of their own in ``frame.attrs["problems"]`` (and
@@ -8,231 +8,35 @@ Readers in :mod:`explorer.data.io` turn files into DataFrames; everything downst
 
 from __future__ import annotations
 
-import hashlib
 import re
 from collections.abc import Iterable, Sequence
-from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
 import numpy as np
 import pandas as pd
 
-KINDS = ("brackets", "units", "means")
+from explorer.data.model import (
+    KIND_COLUMNS,
+    KINDS,
+    LISTED,
+    DataError,
+    Panel,
+    Problem,
+    _listing,
+    fingerprint,
+)
+
 SHARE_EXACT = 1e-6  # shares within this of 1 are taken as they are
 SHARE_RESCALE = (
     0.01  # within this, rescaled to 1 with a warning; beyond, the district-year is left out
 )
 CONVEX_TOL = 1e-9  # relative slack on bracket mean incomes (rounding of printed shares)
-LISTED = 8  # how many lines or ids a message names before "and N more"
 
 _SHARE_COLUMN = re.compile(r"^share_(\d+)$")
-#: The columns of ``Panel.data`` for each kind, in order (the contract of DEVELOPERS.md).
-KIND_COLUMNS: dict[str, tuple[str, ...]] = {
-    "brackets": (
-        "region",
-        "year",
-        "bracket",
-        "pop_share",
-        "income_share",
-        "population",
-        "mean_income",
-    ),
-    "units": ("region", "year", "income", "weight"),
-    "means": ("region", "year", "mean_income", "population"),
-}
 _DATA_COLUMNS = {column for columns in KIND_COLUMNS.values() for column in columns}
 _NOT_LEVELS = _DATA_COLUMNS | {"name", "income_concept", "geometry"}
 _NAME_ATTRIBUTES = ("name", "district_name", "district", "label", "title")
-
-
-# --------------------------------------------------------------------------------------
-# Problems
-# --------------------------------------------------------------------------------------
-
-
-@dataclass(frozen=True)
-class Problem:
-    """One thing wrong with an input, in the planner's words.
-
-    Parameters
-    ----------
-    message : str
-        What is wrong, in plain words.
-    fix : str
-        How to put it right.
-    file : str
-        File name as the user gave it.
-    row : int or None
-        1-based line in the file, header = line 1; None for the whole file.
-    column : str or None
-        Column as named in the file.
-    severity : {"error", "warning"}
-    """
-
-    message: str
-    fix: str = ""
-    file: str = ""
-    row: int | None = None
-    column: str | None = None
-    severity: str = "error"
-
-    def __post_init__(self) -> None:
-        if self.severity not in ("error", "warning"):
-            raise ValueError(f"severity must be 'error' or 'warning', not {self.severity!r}")
-
-    def text(self) -> str:
-        """One line naming where, what and how to fix it."""
-        where = [self.file or "input"]
-        if self.row is not None:
-            where.append(f"line {self.row}")
-        if self.column is not None:
-            where.append(f"column '{self.column}'")
-        out = f"{', '.join(where)} [{self.severity}]: {self.message}"
-        return f"{out} Fix: {self.fix}" if self.fix else out
-
-
-class DataError(ValueError):
-    """Input that cannot be used, with every problem found in it.
-
-    ``problems`` holds errors and the warnings found alongside them; ``str()`` lists them
-    all, one per line; ``table()`` gives them as a DataFrame for display.
-    """
-
-    def __init__(self, problems: Problem | str | Iterable[Problem | str]) -> None:
-        if isinstance(problems, Problem | str):
-            problems = [problems]
-        self.problems: tuple[Problem, ...] = tuple(
-            p if isinstance(p, Problem) else Problem(str(p)) for p in problems
-        )
-        super().__init__(self._render())
-
-    def _render(self) -> str:
-        errors = sum(p.severity == "error" for p in self.problems)
-        head = f"{errors} error(s), {len(self.problems) - errors} warning(s) in the input:"
-        return "\n".join([head, *("- " + p.text() for p in self.problems)])
-
-    def __str__(self) -> str:
-        return self._render()
-
-    def table(self) -> pd.DataFrame:
-        """The problems as a DataFrame: file, row, column, severity, message, fix."""
-        return problems_table(self.problems)
-
-
-def problems_table(problems: Sequence[Problem]) -> pd.DataFrame:
-    """Problems as a DataFrame with columns file, row, column, severity, message, fix."""
-    return pd.DataFrame(
-        {
-            "file": pd.Series([p.file for p in problems], dtype=object),
-            "row": pd.array([p.row for p in problems], dtype="Int64"),
-            "column": pd.Series([p.column for p in problems], dtype=object),
-            "severity": pd.Series([p.severity for p in problems], dtype=object),
-            "message": pd.Series([p.message for p in problems], dtype=object),
-            "fix": pd.Series([p.fix for p in problems], dtype=object),
-        }
-    )
-
-
-def _listing(items: Sequence[Any], limit: int = LISTED) -> str:
-    shown = ", ".join(str(i) for i in items[:limit])
-    return shown + (f" and {len(items) - limit} more" if len(items) > limit else "")
-
-
-# --------------------------------------------------------------------------------------
-# The panel
-# --------------------------------------------------------------------------------------
-
-
-def _empty_excluded() -> pd.DataFrame:
-    return pd.DataFrame(
-        {"region": pd.Series(dtype=str), "year": pd.Series(dtype="int64"), "reason": ""}
-    ).iloc[:0]
-
-
-@dataclass(frozen=True, eq=False)
-class Panel:
-    """A validated district-year panel of one kind.
-
-    Attributes
-    ----------
-    kind : {"brackets", "units", "means"}
-    data : DataFrame
-        Long tidy table sorted by region, year (then bracket or income); columns by kind:
-        brackets ``region, year, bracket, pop_share, income_share, population,
-        mean_income``; units ``region, year, income, weight``; means ``region, year,
-        mean_income, population``.
-    levels : tuple of str
-        Higher-level columns (e.g. ``("county",)``), outermost first.
-    hierarchy : DataFrame
-        ``region`` plus one column per level, one row per district.
-    boundaries : GeoDataFrame or None
-        ``region``, ``geometry`` (EPSG:4326), ``name`` when the file had one, and the
-        level attributes it holds; every district of the boundary file, including those
-        with no data in the panel (filter on ``regions`` where only those are wanted).
-    warnings : tuple of Problem
-    fingerprint : str
-        16 hex characters of sha256 over data, hierarchy and boundary geometry.
-    name, income_concept : str
-    excluded : DataFrame
-        District-years left out because a value rule failed: ``region, year, reason``.
-    """
-
-    kind: str
-    data: pd.DataFrame
-    levels: tuple[str, ...] = ()
-    hierarchy: pd.DataFrame = field(default_factory=lambda: pd.DataFrame({"region": []}))
-    boundaries: Any = None
-    warnings: tuple[Problem, ...] = ()
-    fingerprint: str = ""
-    name: str = ""
-    income_concept: str = ""
-    excluded: pd.DataFrame = field(default_factory=_empty_excluded)
-
-    @property
-    def regions(self) -> tuple[str, ...]:
-        """District ids, sorted."""
-        return tuple(pd.unique(self.data["region"]).tolist())
-
-    @property
-    def years(self) -> tuple[int, ...]:
-        """Years present for at least one district, sorted."""
-        return tuple(int(y) for y in np.unique(self.data["year"].to_numpy()))
-
-    def describe(self) -> dict[str, Any]:
-        """A summary for a check report: sizes, coverage, levels, boundary matches."""
-        years = self.years
-        sizes = self.data.groupby(["region", "year"], sort=False).size()
-        summary: dict[str, Any] = {
-            "kind": self.kind,
-            "name": self.name,
-            "income_concept": self.income_concept,
-            "districts": len(self.regions),
-            "district_years": int(len(sizes)),
-            "years": {
-                "first": years[0] if years else None,
-                "last": years[-1] if years else None,
-                "count": len(years),
-            },
-            "brackets": None,
-            "units": None,
-            "levels": {lv: int(self.hierarchy[lv].nunique()) for lv in self.levels},
-            "boundaries": None,
-            "warnings": len(self.warnings),
-            "excluded": int(len(self.excluded)),
-            "fingerprint": self.fingerprint,
-        }
-        if self.kind in ("brackets", "units") and len(sizes):
-            summary[self.kind] = {"min": int(sizes.min()), "max": int(sizes.max())}
-        if self.boundaries is not None:
-            ours = set(self.regions)
-            theirs = set(self.boundaries["region"])
-            summary["boundaries"] = {
-                "matched": len(ours & theirs),
-                "panel_only": sorted(ours - theirs),
-                "boundary_only": sorted(theirs - ours),
-            }
-        return summary
 
 
 # --------------------------------------------------------------------------------------
@@ -1230,24 +1034,3 @@ def _match_boundaries(boundaries, regions, boundary_file, log):
             severity="warning",
         )
     return out.sort_values("region", kind="stable").reset_index(drop=True)
-
-
-def fingerprint(
-    kind: str, data: pd.DataFrame, hierarchy: pd.DataFrame, boundaries: Any = None
-) -> str:
-    """16 hex characters of sha256 over the canonical content of a panel.
-
-    Equal content gives an equal fingerprint whatever file or order it came from, so
-    caches keyed by it are safe to share within one session.
-    """
-    h = hashlib.sha256(kind.encode())
-    for frame in (data, hierarchy):
-        h.update("|".join(map(str, frame.columns)).encode())
-        h.update(pd.util.hash_pandas_object(frame, index=False).to_numpy().tobytes())
-    if boundaries is not None:
-        import shapely
-
-        h.update("|".join(boundaries["region"].astype(str)).encode())
-        for wkb in shapely.to_wkb(boundaries.geometry.to_numpy()):
-            h.update(wkb or b"")
-    return h.hexdigest()[:16]
