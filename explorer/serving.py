@@ -11,30 +11,36 @@ import time
 import urllib.request
 from pathlib import Path
 
-PROJECT = Path(__file__).resolve().parent.parent
+#: A neutral working directory for the server (its own settings travel on the command line).
+PROJECT = Path(__file__).resolve().parent
 APP = Path(__file__).resolve().parent / "app.py"
 
 
-def app_command(port: int, host: str = "127.0.0.1") -> list[str]:
-    """The ``streamlit run`` command serving Rift on ``host:port``, headless, no statistics.
+#: The Streamlit settings Rift depends on, passed on the command line by :func:`app_command`
+#: so that they hold wherever ``rift app`` is started (an installed wheel has no
+#: ``.streamlit/config.toml`` beside the working directory). A local tool for confidential
+#: data: no usage statistics, no hosted-deployment toolbar, no error details in the browser
+#: (they go to the server's log), a deliberate upload ceiling in MB.
+SETTINGS: dict[str, str] = {
+    "server.headless": "true",
+    "browser.gatherUsageStats": "false",
+    "client.toolbarMode": "minimal",
+    "client.showErrorDetails": "none",
+    "server.maxUploadSize": "200",
+    "theme.base": "light",
+}
 
-    Run it with ``cwd=PROJECT`` so that the project's ``.streamlit/config.toml`` applies.
+
+def app_command(port: int, host: str = "127.0.0.1") -> list[str]:
+    """The ``streamlit run`` command serving Rift on ``host:port`` with :data:`SETTINGS`.
+
+    The command works from any working directory: every setting is on the command line.
     """
-    return [
-        sys.executable,
-        "-m",
-        "streamlit",
-        "run",
-        str(APP),
-        "--server.port",
-        str(port),
-        "--server.headless",
-        "true",
-        "--server.address",
-        host,
-        "--browser.gatherUsageStats",
-        "false",
-    ]
+    command = [sys.executable, "-m", "streamlit", "run", str(APP)]
+    settings = {**SETTINGS, "server.port": str(port), "server.address": host}
+    for name, value in settings.items():
+        command += [f"--{name}", value]
+    return command
 
 
 def wait_until_serving(base_url: str, timeout: float = 60.0, process=None) -> bool:

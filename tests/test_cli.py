@@ -214,8 +214,15 @@ def test_app_serves_this_machine_only_by_default_and_passes_the_data_folder(
     assert command[command.index("--server.port") + 1] == "8611"
     assert command[command.index("run") + 1].endswith("app.py")
     assert seen["env"]["RIFT_DATA"] == str(tmp_path.resolve())
-    # Run from the project folder so its .streamlit/config.toml (no usage statistics) applies.
-    assert (Path(seen["cwd"]) / ".streamlit" / "config.toml").exists()
+    # The settings travel on the command line, so they hold from any working directory
+    # (an installed wheel has no .streamlit/config.toml beside it).
+    for flag, value in (
+        ("--browser.gatherUsageStats", "false"),
+        ("--client.toolbarMode", "minimal"),
+        ("--client.showErrorDetails", "none"),
+        ("--server.maxUploadSize", "200"),
+    ):
+        assert command[command.index(flag) + 1] == value, flag
     assert "http://localhost:8611" in err
 
 

@@ -23,15 +23,16 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from explorer import resources
 from explorer.data.model import DataError, Panel, Problem, fail
 from explorer.data.validate import validate
 
-MAX_FILE_BYTES = 200 * 1024 * 1024  # matches server.maxUploadSize in .streamlit/config.toml
+MAX_FILE_BYTES = 200 * 1024 * 1024  # matches server.maxUploadSize in explorer.serving.SETTINGS
 MAX_COLUMNS = 1_000  # far more than any panel needs; wider files are refused early
 MAX_ZIP_ENTRIES = 1_000
 MAX_ZIP_UNCOMPRESSED = 1_000_000_000  # declared total, 1 GB
 
-DEMO_DIR = Path(__file__).resolve().parents[2] / "demo_data"
+DEMO_DIR = resources.demo_dir()
 DEMO_FILES = {"brackets": "deciles.csv", "units": "households.csv", "means": "means.csv"}
 DEMO_BOUNDARIES = "districts.geojson"
 

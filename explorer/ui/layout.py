@@ -9,6 +9,7 @@ import numpy as np
 import pandas as pd
 import streamlit as st
 
+from explorer import resources
 from explorer.present import frames
 from explorer.present.frames import (  # noqa: F401 — re-exported for the pages
     BREAKDOWN_FIELD,
@@ -31,7 +32,7 @@ from explorer.present.frames import (  # noqa: F401 — re-exported for the page
 )
 from explorer.ui.state import Here
 
-PAGES = Path(__file__).resolve().parent.parent.parent / "pages"
+PAGES = resources.pages_dir()
 # view name -> (script, title, icon); the first one is served at "/".
 PAGE_FILES = {
     "atlas": ("atlas.py", "Atlas", ":material/map:"),
