@@ -1,6 +1,6 @@
 """The Streamlit entrypoint: page set-up, navigation over pages/, the shared sidebar.
 
-Run with ``rift app`` (or ``streamlit run explorer/app.py``). The data folder for saved
+Run with ``rift app``, which passes the Streamlit settings Rift needs (explorer.serving). The data folder for saved
 datasets comes from the ``RIFT_DATA`` environment variable; without one the demo province
 and the user's default data folder are used.
 """
