@@ -38,7 +38,7 @@ def test_straight_line_gini_on_the_map_equals_the_trapezoid_rule_on_the_file(app
 
 
 def test_top_decile_share_on_the_map_equals_the_files_top_share(app):
-    # At a bracket limit every Lorenz-consistent curve passes through the published point,
+    # At a bracket limit every Lorenz-consistent curve passes through the file's point,
     # so the top 10 % share is the file's share_10 (common practice).
     app.query_params.update({"lm": "linear", "y": "2020", "ix": "top10_share"})
     run(app)

@@ -204,8 +204,9 @@ def _within_ss(sorted_x: np.ndarray, cuts: tuple[int, ...]) -> float:
 
 def test_natural_breaks_reach_the_brute_force_optimum():
     """Natural breaks minimise the within-class sum of squares over every partition into
-    k contiguous classes (Fisher 1958, "On grouping for maximum homogeneity"), checked by
-    enumerating all partitions."""
+    k contiguous classes (Fisher 1958, "On grouping for maximum homogeneity", Journal of
+    the American Statistical Association 53: 789-798), checked by enumerating all
+    partitions."""
     x = np.sort(np.random.default_rng(11).gamma(2.0, 1.0, 13))
     k = 4
     best = min(_within_ss(x, cuts) for cuts in itertools.combinations(range(1, x.size), k - 1))
