@@ -13,8 +13,9 @@ def trapezoid_gini(year: int) -> pd.Series:
     """Gini of the straight-line Lorenz curve through the decile points, per district.
 
     G = 1 - sum (P_i - P_{i-1}) (L_i + L_{i-1}): the trapezoid rule, the lower bound of
-    Gastwirth (1972) "The estimation of the Lorenz curve and Gini index", computed here from
-    the shipped CSV with numpy, independently of the app.
+    Gastwirth (1972) "The estimation of the Lorenz curve and Gini index", Review of
+    Economics and Statistics 54: 306-316, computed here from the shipped CSV with numpy,
+    independently of the app.
     """
     frame = pd.read_csv(DECILES)
     frame = frame[frame["year"] == year].set_index("region")
@@ -134,7 +135,8 @@ def test_cluster_layer_shows_global_moran_within_its_range(app):
         for m in app.metric
         if not m.label.startswith(("Highest", "Lowest", "Median"))
     }
-    # With n districts, Moran's I under no autocorrelation is -1/(n-1) (Cliff & Ord 1981).
+    # With n districts, Moran's I under no autocorrelation is -1/(n-1) (Cliff & Ord 1981,
+    # Spatial Processes: Models and Applications, Pion).
     n = len(ranking(app))
     assert metrics["Value without clustering"] == round(-1 / (n - 1), 3)
     assert 0 <= metrics["p-value (permutations)"] <= 1

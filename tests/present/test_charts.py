@@ -564,7 +564,8 @@ def test_png_export_is_a_png():
 
 def test_change_bars_colour_terms_by_their_sign_and_keep_the_residual():
     """Diverging colours: positive terms raise, negative lower inequality; the residual is
-    drawn (Mookherjee & Shorrocks 1982 is an approximation, its residual must show)."""
+    drawn (Mookherjee & Shorrocks 1982, Economic Journal 92: 886-902, is an approximation,
+    its residual must show)."""
     chart = charts.change_bars(change_table())
     rows = {r["component"]: r for r in spec_values(chart)}
     assert rows["within"]["kind"] == "raises inequality"
@@ -575,9 +576,9 @@ def test_change_bars_colour_terms_by_their_sign_and_keep_the_residual():
 
 
 def test_components_stack_to_the_total_for_each_level_and_year():
-    """Within + between equal the total (Shorrocks 1980 exact additivity, built into the
-    test input), so the drawn stack height is the province total; per-group rows are left
-    out."""
+    """Within + between equal the total (Shorrocks 1980, Econometrica 48: 613-625, exact
+    additivity, built into the test input), so the drawn stack height is the province
+    total; per-group rows are left out."""
     decomp = decomposition_table()
     chart = charts.components(decomp, index="theil_t")
     rows = pd.DataFrame(spec_values(chart))
