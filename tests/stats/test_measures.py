@@ -240,8 +240,9 @@ def test_closed_forms_agree_with_quadrature_and_published_values(name):
     """Closed forms against quadrature, then the project's compute against both: units at
     the means of 100,000 equal-population bins (derived from the closed-form Lorenz curve
     by differences) lose only the within-bin inequality, so each index lies at most 1e-4
-    below the truth (derived: the bins' Jensen gap, largest in the Pareto top bin), and
-    the share indices, read at bin edges, are exact."""
+    below the truth (derived: the bins' Jensen gap, largest in the Pareto top bin; for the
+    Gini only within-bin pairs are lost, of order 1/N^2 away from the tails, so 1e-8),
+    and the share indices, read at bin edges, are exact."""
     dist, _, closed = CLOSED_FORMS[name]
     for key, value in closed.items():
         assert value == pytest.approx(_quadrature(dist, key), rel=1e-8, abs=1e-10), key
@@ -256,7 +257,8 @@ def test_closed_forms_agree_with_quadrature_and_published_values(name):
         if key in EQUALITY_SHARES:
             assert got[key][0] == pytest.approx(value, rel=1e-12), key
         else:
-            assert -1e-9 <= value - got[key][0] <= 1e-4, (key, got[key][0], value)
+            gap = 1e-8 if key == "gini" else 1e-4
+            assert -1e-9 <= value - got[key][0] <= gap, (key, got[key][0], value)
 
 
 @pytest.mark.parametrize("name", sorted(CLOSED_FORMS))
