@@ -74,7 +74,9 @@ def test_compute_writes_the_tidy_table_with_bounds(tmp_path, capsys):
     ]
     assert set(table["method"]) == {"auto", "linear"}
     gini = table[(table["index"] == "gini") & (table["method"] == "auto")]
-    # Gastwirth (1972): every Lorenz-consistent curve's Gini lies between the bounds.
+    # Gastwirth (1972), "The estimation of the Lorenz curve and Gini index", Review of
+    # Economics and Statistics 54: 306-316: every Lorenz-consistent curve's Gini lies
+    # between the bounds.
     assert (gini["lower"] <= gini["value"] + 1e-12).all()
     assert (gini["value"] <= gini["upper"] + 1e-12).all()
     # The linear method's value is the lower bound itself.
@@ -118,7 +120,8 @@ def test_decompose_components_add_up_to_the_total(tmp_path, capsys):
     for year, rows in everyone.groupby("year"):
         total = rows.loc[rows["component"] == "total", "value"].iloc[0]
         others = rows.loc[rows["component"] != "total", "value"].sum()
-        # Shorrocks (1980): the GE split is exact.
+        # Shorrocks (1980), "The class of additively decomposable inequality measures",
+        # Econometrica 48: 613-625: the GE split is exact.
         assert others == pytest.approx(total, abs=1e-9), year
 
 

@@ -13,8 +13,9 @@ def trapezoid_gini(year: int) -> pd.Series:
     """Gini of the straight-line Lorenz curve through the decile points, per district.
 
     G = 1 - sum (P_i - P_{i-1}) (L_i + L_{i-1}): the trapezoid rule, the lower bound of
-    Gastwirth (1972) "The estimation of the Lorenz curve and Gini index", computed here from
-    the shipped CSV with numpy, independently of the app.
+    Gastwirth (1972) "The estimation of the Lorenz curve and Gini index", Review of
+    Economics and Statistics 54: 306-316, computed here from the shipped CSV with numpy,
+    independently of the app.
     """
     frame = pd.read_csv(DECILES)
     frame = frame[frame["year"] == year].set_index("region")
@@ -38,7 +39,7 @@ def test_straight_line_gini_on_the_map_equals_the_trapezoid_rule_on_the_file(app
 
 
 def test_top_decile_share_on_the_map_equals_the_files_top_share(app):
-    # At a bracket limit every Lorenz-consistent curve passes through the published point,
+    # At a bracket limit every Lorenz-consistent curve passes through the file's point,
     # so the top 10 % share is the file's share_10 (common practice).
     app.query_params.update({"lm": "linear", "y": "2020", "ix": "top10_share"})
     run(app)
@@ -134,7 +135,8 @@ def test_cluster_layer_shows_global_moran_within_its_range(app):
         for m in app.metric
         if not m.label.startswith(("Highest", "Lowest", "Median"))
     }
-    # With n districts, Moran's I under no autocorrelation is -1/(n-1) (Cliff & Ord 1981).
+    # With n districts, Moran's I under no autocorrelation is -1/(n-1) (Cliff & Ord 1981,
+    # Spatial Processes: Models and Applications, Pion).
     n = len(ranking(app))
     assert metrics["Value without clustering"] == round(-1 / (n - 1), 3)
     assert 0 <= metrics["p-value (permutations)"] <= 1

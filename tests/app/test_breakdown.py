@@ -24,7 +24,8 @@ def test_theil_parts_of_every_level_add_up_to_the_provinces_total(app):
     total = float(
         detail[(detail["component"] == "total") & (detail["group"] == "(all)")]["value"].iloc[0]
     )
-    # Shorrocks (1980): total = sum of the nested between parts + within districts, exactly.
+    # Shorrocks (1980), "The class of additively decomposable inequality measures",
+    # Econometrica 48: 613-625: total = nested between parts + within districts, exactly.
     nested = detail[(detail["group"] == "(all)") & (detail["level"] != "total")]
     assert abs(nested["value"].sum() - total) < 1e-9
     by_level = dataframe(app, "breakdown_table")
@@ -48,7 +49,8 @@ def test_gini_breakdown_has_an_overlap_part(app):
 
 def test_between_district_theil_of_district_means_matches_a_direct_formula(app):
     # Between-district Theil T = sum_i s_i ln(s_i / p_i) over district population shares
-    # p_i and income shares s_i (Theil 1967; Shorrocks 1980), from the shipped means.
+    # p_i and income shares s_i (Theil 1967, Economics and Information Theory,
+    # North-Holland; Shorrocks 1980), from the shipped means.
     open_breakdown(app, dx="theil_t", y="2018", d="demo-means")
     assert view(app).dataset == "demo-means"
     means = pd.read_csv(ROOT / "demo_data" / "means.csv")

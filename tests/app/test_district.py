@@ -22,10 +22,11 @@ def test_sheet_opens_on_the_district_of_the_link(app):
 
 
 def test_every_index_lies_within_its_bounds(app):
-    # Gastwirth (1972): a curve through the points that is convex lies between the
-    # straight-line and the steepest convex curve, so its index lies between their values
-    # (for shares of the bottom the order of the two bounds flips). The monotone cubic
-    # interpolates the points; fitted curves need not pass through them.
+    # Gastwirth (1972), "The estimation of the Lorenz curve and Gini index", Review of
+    # Economics and Statistics 54: 306-316: a curve through the points that is convex lies
+    # between the straight-line and the steepest convex curve, so its index lies between
+    # their values (for shares of the bottom the order of the two bounds flips). The
+    # monotone cubic interpolates the points; fitted curves need not pass through them.
     open_sheet(app, sel="CAL01", y="2020", lm="pchip")
     table = dataframe(app, "district_indices")
     finite = table[np.isfinite(table["Upper bound"]) & np.isfinite(table["Lower bound"])]

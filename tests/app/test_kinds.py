@@ -24,9 +24,9 @@ def test_every_page_renders_for_each_kind_of_data(app, dataset):
 def weighted_gini(income: np.ndarray, weight: np.ndarray) -> float:
     """Mean absolute difference over twice the mean, by brute force over all pairs.
 
-    The population convention of Lerman & Yitzhaki (1984), "Improving the accuracy of
-    estimates of Gini coefficients", Journal of Econometrics 42: 43-47 / Economics Letters
-    15: 363-368, written directly as the double sum (no sorting) for the check.
+    The population convention of Lerman & Yitzhaki (1984), "A note on the calculation and
+    interpretation of the Gini index", Economics Letters 15: 363-368, written directly as
+    the double sum (no sorting) for the check.
     """
     w = weight / weight.sum()
     mean = np.sum(w * income)

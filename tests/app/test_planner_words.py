@@ -38,7 +38,9 @@ def test_change_terms_are_shown_in_words_that_name_the_counties(app):
     terms = dataframe(app, "change_table")
     words = shown_columns(terms)
     assert not set(words.to_numpy().ravel()) & RAW_KEYS
-    # Mookherjee & Shorrocks (1982) name this term the effect of population shifts; the
+    # Mookherjee & Shorrocks (1982), "A decomposition analysis of the trend in UK income
+    # inequality", Economic Journal 92: 886-902, name this term the effect of population
+    # shifts; the
     # shown row is the one whose key it is (the data behind the table keep the keys).
     row = terms[(terms["component"] == "population_within") & (terms["group"] == "(all)")]
     assert row["component (shown)"].tolist() == ["Population shifts within counties"]
@@ -52,7 +54,8 @@ def test_breakdown_shares_read_as_percentages_and_rounding_noise_as_zero(app):
     metrics = [m.value for m in app.metric]
     assert metrics and not [m for m in metrics if m.startswith("-0.0")]
     detail = dataframe(app, "breakdown_detail")
-    # Within districts is exactly zero for district means (Shorrocks 1980: no units inside).
+    # Within districts is exactly zero for district means (Shorrocks 1980, Econometrica 48:
+    # 613-625: a group of one unit has no inequality inside).
     within = detail[(detail["component"] == "within") & (detail["level"] == "region")]
     within = within[within["group"] == "(all)"]
     assert (within["value"] == 0.0).all()
@@ -73,7 +76,9 @@ def test_an_infinite_upper_bound_is_written_out_where_the_data_are_infinite(app)
     open_page(app, "district", sel="BRE01", y="2025")
     table = dataframe(app, "district_indices")
     infinite = np.isinf(table["Upper bound"].to_numpy(dtype=float))
-    assert infinite.any()  # Theil T's upper curve jumps at p = 1 (Gastwirth 1972)
+    # Theil T's upper curve jumps at p = 1 (Gastwirth 1972, Review of Economics and
+    # Statistics 54: 306-316)
+    assert infinite.any()
     shown = table["Upper bound (shown)"]
     assert (shown[infinite] == "no finite bound").all()
     assert (shown[~infinite] != "no finite bound").all()

@@ -28,7 +28,8 @@ def test_highlighting_districts_shows_exactly_their_series(app):
 def test_highlighted_series_are_the_atlas_values_of_each_year(app):
     open_timelines(app, sel="BRE01", lm="linear")
     series = dataframe(app, "timelines_table").iloc[:, 0]
-    # The straight-line Gini by the trapezoid rule (Gastwirth 1972), from the CSV.
+    # The straight-line Gini by the trapezoid rule, from the CSV: the lower bound of
+    # Gastwirth (1972), Review of Economics and Statistics 54: 306-316.
     frame = pd.read_csv(ROOT / "demo_data" / "deciles.csv")
     frame = frame[frame["region"] == "BRE01"].sort_values("year")
     shares = frame[[f"share_{i}" for i in range(1, 11)]].to_numpy()

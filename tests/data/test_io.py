@@ -30,7 +30,8 @@ NATURAL_EARTH = (
     / "naturalearth_lowres"
     / "naturalearth_lowres.shp"
 )
-QUINTILES = np.diff(np.linspace(0, 1, 6) ** 2)  # uniform incomes, L(p) = p^2 (REFERENCES.md)
+# uniform incomes: L(p) = p^2 (derived: the integral of the quantile b u, over the mean b/2)
+QUINTILES = np.diff(np.linspace(0, 1, 6) ** 2)
 
 
 def means_csv(delimiter=",", decimal="."):

@@ -1,10 +1,11 @@
 """Tests of explorer.data.panel: the Panel model, Problem/DataError and every validation rule.
 
-Bracket shares come from closed-form Lorenz curves (REFERENCES.md): the uniform
-distribution on (0, b) has L(p) = p^2 and Pareto I with alpha has
-L(p) = 1 - (1 - p)^(1 - 1/alpha) (Kleiber & Kotz 2003, from memory; cross-checked below
-by integrating the quantile function with scipy). Bracket k of K equal groups holds
-L(k/K) - L((k-1)/K) of income.
+Bracket shares come from closed-form Lorenz curves: the uniform distribution on (0, b)
+has L(p) = p^2 (derived: the integral of its quantile function b u from 0 to p over the
+mean b/2) and Pareto I with alpha has L(p) = 1 - (1 - p)^(1 - 1/alpha) (Kleiber & Kotz
+2003, Statistical Size Distributions in Economics and Actuarial Sciences, Wiley; from
+memory; cross-checked below by integrating the quantile function with scipy). Bracket k
+of K equal groups holds L(k/K) - L((k-1)/K) of income.
 """
 
 from __future__ import annotations
@@ -23,7 +24,7 @@ K = 5
 
 
 def uniform_shares(k: int = K) -> np.ndarray:
-    """Shares of k equal groups under L(p) = p^2 (uniform incomes; REFERENCES.md)."""
+    """Shares of k equal groups under L(p) = p^2 (uniform incomes; derived above)."""
     p = np.linspace(0, 1, k + 1)
     return np.diff(p**2)
 
@@ -37,7 +38,9 @@ def pareto_shares(alpha: float = 3.0, k: int = K) -> np.ndarray:
 def test_pareto_shares_match_quadrature_of_the_quantile_function():
     """Cross-check of the from-memory Pareto Lorenz curve: the share of bracket k is the
     integral of the quantile function Q(p) = (1 - p)^(-1/alpha) over it, divided by the
-    mean alpha/(alpha - 1) (Kleiber & Kotz 2003), computed with scipy.integrate.quad."""
+    mean alpha/(alpha - 1) (Kleiber & Kotz 2003), computed with scipy.integrate.quad. The
+    project's validation then takes the quadrature shares as they are: no rescaling, no
+    warning, nothing set aside."""
     alpha = 3.0
     edges = np.linspace(0, 1, K + 1)
     mean = alpha / (alpha - 1)
@@ -46,6 +49,9 @@ def test_pareto_shares_match_quadrature_of_the_quantile_function():
         for a, b in zip(edges[:-1], edges[1:], strict=True)
     ]
     np.testing.assert_allclose(pareto_shares(alpha), quad, rtol=1e-8)
+    panel = validate(long_frame({("A1", 2020): np.array(quad)}))
+    np.testing.assert_allclose(panel.data.income_share, quad, rtol=0, atol=1e-15)
+    assert panel.warnings == () and len(panel.excluded) == 0
 
 
 def long_frame(cells: dict[tuple[str, int], np.ndarray], **extra) -> pd.DataFrame:
@@ -111,8 +117,8 @@ def test_valid_long_brackets_keep_closed_form_shares_sorted_by_region_year_brack
 
 
 def test_wide_shares_become_long_equal_population_groups_with_the_same_fingerprint():
-    """share_1..share_k are k equal population groups (DESIGN data model): the long and
-    wide forms of the same shares are the same panel."""
+    """share_1..share_k are k equal population groups (the data model of
+    explorer.data.model): the long and wide forms of the same shares are the same panel."""
     cells = two_districts()
     wide = validate(wide_frame(cells))
     long = validate(long_frame(cells))
@@ -132,7 +138,7 @@ def test_wide_shares_become_long_equal_population_groups_with_the_same_fingerpri
     ],
 )
 def test_kind_is_detected_from_the_columns(columns, kind):
-    """Column sets of the data model (DESIGN.md) decide the kind."""
+    """Column sets of the data model (explorer.data.validate.detect_kind) decide the kind."""
     assert detect_kind(columns) == kind
 
 

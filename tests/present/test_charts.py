@@ -204,8 +204,9 @@ def _within_ss(sorted_x: np.ndarray, cuts: tuple[int, ...]) -> float:
 
 def test_natural_breaks_reach_the_brute_force_optimum():
     """Natural breaks minimise the within-class sum of squares over every partition into
-    k contiguous classes (Fisher 1958, "On grouping for maximum homogeneity"), checked by
-    enumerating all partitions."""
+    k contiguous classes (Fisher 1958, "On grouping for maximum homogeneity", Journal of
+    the American Statistical Association 53: 789-798), checked by enumerating all
+    partitions."""
     x = np.sort(np.random.default_rng(11).gamma(2.0, 1.0, 13))
     k = 4
     best = min(_within_ss(x, cuts) for cuts in itertools.combinations(range(1, x.size), k - 1))
@@ -563,7 +564,8 @@ def test_png_export_is_a_png():
 
 def test_change_bars_colour_terms_by_their_sign_and_keep_the_residual():
     """Diverging colours: positive terms raise, negative lower inequality; the residual is
-    drawn (Mookherjee & Shorrocks 1982 is an approximation, its residual must show)."""
+    drawn (Mookherjee & Shorrocks 1982, Economic Journal 92: 886-902, is an approximation,
+    its residual must show)."""
     chart = charts.change_bars(change_table())
     rows = {r["component"]: r for r in spec_values(chart)}
     assert rows["within"]["kind"] == "raises inequality"
@@ -574,9 +576,9 @@ def test_change_bars_colour_terms_by_their_sign_and_keep_the_residual():
 
 
 def test_components_stack_to_the_total_for_each_level_and_year():
-    """Within + between equal the total (Shorrocks 1980 exact additivity, built into the
-    test input), so the drawn stack height is the province total; per-group rows are left
-    out."""
+    """Within + between equal the total (Shorrocks 1980, Econometrica 48: 613-625, exact
+    additivity, built into the test input), so the drawn stack height is the province
+    total; per-group rows are left out."""
     decomp = decomposition_table()
     chart = charts.components(decomp, index="theil_t")
     rows = pd.DataFrame(spec_values(chart))

@@ -151,7 +151,8 @@ def test_a_chart_that_cannot_be_drawn_does_not_lose_the_report():
 
 
 def test_ranking_views_carry_the_funds_caution_first():
-    """Where districts are ranked, the index-alone caution leads (DESIGN: cautions)."""
+    """Where districts are ranked, the index-alone caution leads (the order of
+    explorer.present.cautions: a decision rests on the office's own rules first)."""
     chosen = cautions.for_view("brackets", ranking=True)
     assert chosen[0] == cautions.CAUTIONS["funds"]
     assert cautions.CAUTIONS["funds"] not in cautions.for_view("brackets", ranking=False)

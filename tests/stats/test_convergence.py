@@ -54,7 +54,9 @@ def measure(table: pd.DataFrame, name: str) -> pd.Series:
 
 def test_sigma_measures_match_numpy_per_year():
     """sd_log = np.std of the logs; weighted forms from np.cov with aweights (ddof=0);
-    cv = np.std / np.mean; cv_weighted is Williamson's (1965) population-weighted CV."""
+    cv = np.std / np.mean; cv_weighted is the population-weighted CV of Williamson (1965),
+    "Regional inequality and the process of national development", Economic Development
+    and Cultural Change 13(4): 1-84."""
     data = random_panel(1)
     table = convergence.sigma(data)
     for year, rows in data.groupby("year"):

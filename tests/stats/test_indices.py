@@ -1,6 +1,8 @@
 """Tests of explorer.stats.indices: the tidy index table for each kind of panel.
 
-Bracket panels are built from exact lognormal bracket shares (REFERENCES.md values);
+Bracket panels are built from exact lognormal bracket shares (Aitchison & Brown 1957, The
+Lognormal Distribution, CUP: L(p) = Phi(Phi^-1(p) - sigma), from memory, checked by
+quadrature in test_measures and test_lorenz);
 unit and means panels from a few incomes whose indices follow by hand from the
 definitions (common practice). District names are invented.
 """
@@ -56,12 +58,18 @@ def test_table_has_the_contract_columns_and_one_row_per_district_year_index_meth
 
 def test_bracket_bounds_are_gastwirths_bounds_and_contain_the_truth(quintile_panel):
     """Gini bounds at quintiles of lognormal 0.7: 0.3537347204 and 0.4233549230 (Gastwirth
-    1972, REFERENCES.md); the lognormal fit gives the true 0.3793820536 between them."""
+    1972, "The estimation of the Lorenz curve and Gini index", Review of Economics and
+    Statistics 54: 306-316; values derived by the trapezoid rule and by quadrature of the
+    envelope, both recomputed in test_lorenz); the lognormal fit gives the true
+    2 Phi(0.7 / sqrt 2) - 1 = 0.3793820536 (Aitchison & Brown 1957) between them."""
     table = indices.compute(quintile_panel, methods=("lognormal",))
     gini = table[table["index"] == "gini"]
     assert np.allclose(gini["lower"], 0.3537347204, atol=1e-10)
     assert np.allclose(gini["upper"], 0.4233549230, atol=2e-10)
     assert np.allclose(gini["value"], 0.3793820536, atol=1e-9)
+    P, L = np.linspace(0, 1, 6), np.cumsum(np.r_[0.0, lognormal_shares(5)])
+    assert 1 - np.sum(np.diff(P) * (L[1:] + L[:-1])) == pytest.approx(0.3537347204, abs=1e-10)
+    assert 2 * special.ndtr(SIGMA / np.sqrt(2)) - 1 == pytest.approx(0.3793820536, abs=1e-10)
     finite = np.isfinite(table["upper"])
     assert (table["lower"] <= table["value"] + 1e-12).all()
     assert (table.loc[finite, "value"] <= table.loc[finite, "upper"] + 1e-12).all()

@@ -1,8 +1,9 @@
 """Tests of explorer.stats.lorenz against published values, closed forms and reference libraries.
 
 Exact bracket shares of a distribution (its Lorenz curve at the bracket points) give
-deterministic checks; values are from /work/shared/REFERENCES.md with the source named
-beside each check.
+deterministic checks. Each check value names its source beside it; values derived from a
+method rather than printed in a paper say how they were derived, and the test recomputes
+them independently of explorer (numpy.linalg.lstsq, scipy.integrate.quad, scipy.special).
 """
 
 from __future__ import annotations
@@ -11,7 +12,7 @@ import numpy as np
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
-from scipy import integrate, interpolate, special
+from scipy import integrate, interpolate, special, stats
 
 from explorer.stats import lorenz
 
@@ -35,26 +36,31 @@ ALL_KEYS = ["gini", *INTEGRAL_KEYS, "palma", "s80_s20", "top10_share", "bottom40
 
 
 def lognormal_points(k: int, sigma: float = SIGMA):
-    """Exact Lorenz points of the lognormal at k equal brackets (Aitchison & Brown 1957)."""
+    """Exact Lorenz points of the lognormal at k equal brackets: L(p) = Phi(Phi^-1(p) - sigma)
+    (Aitchison & Brown 1957, from memory; checked by quadrature in test_measures.py)."""
     P = np.linspace(0.0, 1.0, k + 1)
     return P[None, :], special.ndtr(special.ndtri(P) - sigma)[None, :]
 
 
 def pareto_points(k: int, alpha: float):
-    """Exact Lorenz points of Pareto I: L(p) = 1 - (1 - p)^(1 - 1/alpha) (Kleiber & Kotz 2003)."""
+    """Exact Lorenz points of Pareto I: L(p) = 1 - (1 - p)^(1 - 1/alpha) (Kleiber & Kotz 2003,
+    Statistical Size Distributions in Economics and Actuarial Sciences, Wiley; from memory,
+    checked by quadrature in tests/stats/test_measures.py)."""
     P = np.linspace(0.0, 1.0, k + 1)
     return P[None, :], (1 - (1 - P) ** (1 - 1 / alpha))[None, :]
 
 
 def lognormal_closed_form(key: str, sigma: float) -> float:
-    """REFERENCES.md closed forms for the lognormal (Aitchison & Brown 1957; Cowell 2011)."""
+    """Closed forms for the lognormal, from memory of Aitchison & Brown (1957), The Lognormal
+    Distribution, CUP, and Cowell (2011), Measuring Inequality, 3rd ed., OUP; checked by
+    quadrature in test_lognormal_method_recovers_sigma_and_every_closed_form."""
     s2 = sigma**2
     if key == "gini":
         return 2 * special.ndtr(sigma / np.sqrt(2)) - 1
     if key in ("theil_t", "mld"):
         return s2 / 2
     if key == "cv":
-        return np.sqrt(np.exp(s2) - 1)  # CV^2 = 2 GE(2) (REFERENCES.md identity)
+        return np.sqrt(np.exp(s2) - 1)  # CV^2 = 2 GE(2) (common practice)
     family, value = key.split("_")
     value = float(value)
     if family == "ge":
@@ -66,14 +72,22 @@ def lognormal_closed_form(key: str, sigma: float) -> float:
 
 
 def test_linear_and_upper_gini_are_gastwirths_bounds_at_lognormal_quintiles():
-    """Gastwirth (1972) bounds at quintiles of lognormal sigma = 0.7 (REFERENCES.md)."""
+    """Gastwirth (1972), "The estimation of the Lorenz curve and Gini index", Review of
+    Economics and Statistics 54: 306-316: the trapezoid (lower) and convex-envelope (upper)
+    Gini bounds at quintiles of lognormal sigma = 0.7. The values are derived, not printed
+    there: lower by the trapezoid rule on the exact points, upper by quadrature of the
+    envelope; both are recomputed below without explorer."""
     P, L = lognormal_points(5)
     lower = lorenz.fit_points(P, L, "linear").indices(["gini"])["gini"].value[0]
     upper = lorenz.fit_points(P, L, "upper").indices(["gini"])["gini"].value[0]
     assert lower == pytest.approx(0.3537347204, abs=1e-10)
-    # REFERENCES.md gives 0.4233549230; the quad below gives 0.42335492310, so allow 2e-10
+    # the quad below gives 0.42335492310; the 10-digit value is rounded, so allow 2e-10
     assert upper == pytest.approx(0.4233549230, abs=2e-10)
-    assert lower < 0.3793820536 < upper  # the true lognormal Gini lies between
+    # the true lognormal Gini 2 Phi(sigma / sqrt 2) - 1 (Aitchison & Brown 1957) lies between
+    assert lower < 0.3793820536 < upper
+    assert 2 * special.ndtr(SIGMA / np.sqrt(2)) - 1 == pytest.approx(0.3793820536, abs=1e-10)
+    trapezoid = 1 - np.sum(np.diff(P[0]) * (L[0, 1:] + L[0, :-1]))
+    assert trapezoid == pytest.approx(0.3537347204, abs=1e-10)
 
     # cross-check: in bracket i the curve is the larger of the neighbouring chords
     # extended (floor 0), integrated by scipy.integrate.quad
@@ -95,22 +109,52 @@ def test_linear_and_upper_gini_are_gastwirths_bounds_at_lognormal_quintiles():
 
 
 def test_gq_gini_at_lognormal_deciles_matches_reference_value():
-    """Villaseñor & Arnold (1989) GQ at deciles of lognormal 0.7: 0.3788570611 (REFERENCES)."""
-    fit = lorenz.fit_points(*lognormal_points(10), "gq")
+    """Villaseñor & Arnold (1989), "Elliptical Lorenz curves", Journal of Econometrics 40:
+    327-338: the general quadratic fitted by least squares (no intercept) to deciles of
+    lognormal 0.7 has Gini 0.3788570611. Derived, not printed there: recomputed below by
+    numpy.linalg.lstsq and scipy.integrate.quad of the fitted curve, without explorer."""
+    P, L = lognormal_points(10)
+    fit = lorenz.fit_points(P, L, "gq")
     assert fit.valid[0]
     assert fit.indices(["gini"])["gini"].value[0] == pytest.approx(0.3788570611, abs=1e-10)
+    p, l_ = P[0, 1:-1], L[0, 1:-1]
+    X = np.column_stack([p * p - l_, l_ * (p - 1), p - l_])
+    a, b, c = np.linalg.lstsq(X, l_ * (1 - l_), rcond=None)[0]
+    e = -(a + b + c + 1)
+    m, n = b * b - 4 * a, 2 * b * e - 4 * c
+
+    def curve(q):
+        return -(b * q + e + np.sqrt(m * q * q + n * q + e * e)) / 2
+
+    area = integrate.quad(curve, 0, 1, epsabs=1e-14, epsrel=1e-13)[0]
+    assert 1 - 2 * area == pytest.approx(0.3788570611, abs=1e-10)
 
 
 def test_beta_gini_at_lognormal_deciles_matches_reference_value():
-    """Kakwani (1980) Beta at deciles of lognormal 0.7: 0.3802814461 (REFERENCES.md)."""
-    fit = lorenz.fit_points(*lognormal_points(10), "beta")
+    """Kakwani (1980), "On a class of poverty measures", Econometrica 48: 437-446: the Beta
+    curve L = p - theta p^gamma (1 - p)^delta fitted to deciles of lognormal 0.7 has Gini
+    0.3802814461. Derived, not printed there: recomputed below by numpy.linalg.lstsq of
+    the log-linear regression and Gini = 2 theta B(1 + gamma, 1 + delta) (Kakwani 1980,
+    from memory), which scipy.integrate.quad of the curve confirms."""
+    P, L = lognormal_points(10)
+    fit = lorenz.fit_points(P, L, "beta")
     assert fit.valid[0]
     assert fit.indices(["gini"])["gini"].value[0] == pytest.approx(0.3802814461, abs=1e-10)
+    p, l_ = P[0, 1:-1], L[0, 1:-1]
+    X = np.column_stack([np.ones_like(p), np.log(p), np.log(1 - p)])
+    log_theta, gamma, delta = np.linalg.lstsq(X, np.log(p - l_), rcond=None)[0]
+    theta = np.exp(log_theta)
+    gini = 2 * theta * special.beta(1 + gamma, 1 + delta)
+    assert gini == pytest.approx(0.3802814461, abs=1e-10)
+    area = integrate.quad(lambda q: q - theta * q**gamma * (1 - q) ** delta, 0, 1)[0]
+    assert 1 - 2 * area == pytest.approx(gini, abs=1e-10)
 
 
 @pytest.mark.parametrize("k", [5, 10, 20])
 def test_lognormal_method_recovers_sigma_and_every_closed_form(k):
-    """Exact lognormal points give sigma = 0.7 and REFERENCES.md values to 1e-9."""
+    """Exact lognormal points give sigma = 0.7 and the lognormal closed forms (Aitchison &
+    Brown 1957, from memory) to 1e-9; the 10-digit values are checked here by
+    scipy.stats.lognorm.expect and quadrature of the Lorenz curve, without explorer."""
     fit = lorenz.fit_points(*lognormal_points(k), "lognormal")
     assert fit.params[0, 0] == pytest.approx(SIGMA, abs=1e-9)
     values = fit.indices(ALL_KEYS)
@@ -121,8 +165,17 @@ def test_lognormal_method_recovers_sigma_and_every_closed_form(k):
         "atkinson_2": 0.3873736058,
         "ge_2": 0.3161581100,
     }
+    dist = stats.lognorm(s=SIGMA)
+    by_quadrature = {
+        "gini": 1 - 2 * integrate.quad(lambda q: special.ndtr(special.ndtri(q) - SIGMA), 0, 1)[0],
+        "theil_t": dist.expect(lambda x: x / dist.mean() * np.log(x / dist.mean())),
+        "mld": -dist.expect(lambda x: np.log(x / dist.mean())),
+        "atkinson_2": 1 - 1 / (dist.expect(lambda x: 1 / x) * dist.mean()),
+        "ge_2": (dist.expect(lambda x: x * x) / dist.mean() ** 2 - 1) / 2,
+    }
     for key, expected in published.items():
         assert values[key].value[0] == pytest.approx(expected, abs=1e-9), key
+        assert by_quadrature[key] == pytest.approx(expected, abs=1e-8), key
     for key in INTEGRAL_KEYS:
         expected = lognormal_closed_form(key, SIGMA)
         assert values[key].value[0] == pytest.approx(expected, abs=1e-9), key
@@ -150,7 +203,8 @@ def test_probit_grid_quadrature_reaches_lognormal_closed_forms(sigma):
 @pytest.mark.parametrize("alpha", [3.0, 4.0])
 def test_gq_is_exact_on_its_own_family_and_pareto_alpha2(alpha):
     """Pareto I with alpha = 2 is a GQ curve (a = b = 0, c = 1, so m = 0): the quadrature
-    fallback must give 1/(2 alpha - 1) = 1/3 (Kleiber & Kotz 2003). Other alphas are close."""
+    fallback must give 1/(2 alpha - 1) = 1/3 (Kleiber & Kotz 2003, from memory; here 1/3 is
+    also 1 - 2 * integral of 1 - sqrt(1 - p), which is 1 - 2/3). Other alphas are close."""
     fit = lorenz.fit_points(*pareto_points(10, 2.0), "gq")
     assert fit.valid[0]
     assert fit.indices(["gini"])["gini"].value[0] == pytest.approx(1 / 3, abs=1e-12)
@@ -219,7 +273,9 @@ def test_gq_and_beta_parameters_equal_numpy_lstsq_row_by_row(method):
 
 
 def gq_points(a, b, c, k=10):
-    """Points on the GQ curve with parameters (a, b, c), formula from REFERENCES.md."""
+    """Points on the GQ curve with parameters (a, b, c): the explicit root of Villaseñor &
+    Arnold (1989), from memory; test_gq_closed_form_gini_equals_quad_area_for_both_signs_of_m
+    checks the fit recovers (a, b, c) from them."""
     e = -(a + b + c + 1)
     m, n = b * b - 4 * a, 2 * b * e - 4 * c
     P = np.linspace(0, 1, k + 1)
@@ -409,8 +465,8 @@ def test_gq_fit_to_pareto_is_flagged_invalid_with_a_reason():
 
 
 def test_non_convex_pchip_and_out_of_range_quadratic_are_flagged():
-    """Monotone cubics need not be convex (REFERENCES.md: check it); the quadratic needs
-    0 <= a <= 1 (common practice)."""
+    """Monotone cubics need not be convex (Fritsch & Carlson 1980, SIAM J. Numer. Anal. 17:
+    238-246, preserve monotonicity only); the quadratic needs 0 <= a <= 1 (common practice)."""
     P, L = lognormal_points(10)
     pchip = lorenz.fit_points(P, L, "pchip")
     assert not pchip.valid[0] and "not convex" in pchip.reason[0]
@@ -437,7 +493,7 @@ def test_bad_points_are_invalid_for_every_method_and_never_used():
 @settings(max_examples=40, deadline=None)
 @given(seed=st.integers(0, 10_000), k=st.integers(4, 12))
 def test_every_curve_flagged_valid_is_a_lorenz_curve_on_a_fine_grid(seed, k):
-    """valid => L(0) = 0, L(1) = 1, non-decreasing and convex (REFERENCES.md definition),
+    """valid => L(0) = 0, L(1) = 1, non-decreasing and convex (common practice),
     checked numerically on a fine grid: this cross-checks the GQ conditions (from memory of
     Datt 1998) and the Beta and pchip checks."""
     P, L = random_convex_points(np.random.default_rng(seed), 8, k)

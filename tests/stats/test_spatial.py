@@ -1,4 +1,10 @@
-"""Tests of explorer.stats.spatial against shapely's predicates, closed forms and enumeration."""
+"""Tests of explorer.stats.spatial against shapely's predicates, closed forms and enumeration.
+
+Sources: Cliff & Ord (1981), Spatial Processes: Models and Applications, Pion, London (Moran's
+I, its moments under randomisation); Anselin (1995), "Local indicators of spatial
+association - LISA", Geographical Analysis 27: 93-115; Rey & Smith (2013), "A spatial
+decomposition of the Gini coefficient", Letters in Spatial and Resource Sciences 6: 55-70.
+"""
 
 from __future__ import annotations
 
