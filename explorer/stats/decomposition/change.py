@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Sequence
-from typing import Any
+from typing import Any, NamedTuple
 
 import numpy as np
 import pandas as pd
@@ -25,7 +25,19 @@ __all__ = ["change"]
 _CHANGE_COMPONENTS = ("within", "population_within", "population_between", "relative_income")
 
 
-def _group_stats(units: _Units, rows: np.ndarray, codes: np.ndarray, n: int, alpha: float):
+class _YearGroups(NamedTuple):
+    """One year's groups: population shares, means, means over the overall mean, own index."""
+
+    share: np.ndarray
+    mean: np.ndarray
+    relative: np.ndarray
+    inside: np.ndarray
+    total: float  # the year's index over all units
+
+
+def _group_stats(
+    units: _Units, rows: np.ndarray, codes: np.ndarray, n: int, alpha: float
+) -> _YearGroups | None:
     y, w, g = units.income[rows], units.weight[rows], codes[rows]
     pop = np.bincount(g, w, n)
     inc = np.bincount(g, w * y, n)
@@ -35,7 +47,7 @@ def _group_stats(units: _Units, rows: np.ndarray, codes: np.ndarray, n: int, alp
     inside = np.bincount(g, _ge_term(y / mean[g], w / pop[g], alpha), n)
     share = pop / pop.sum()
     total = float(_ge_term(y / (inc.sum() / pop.sum()), w / pop.sum(), alpha).sum())
-    return share, mean, mean / (inc.sum() / pop.sum()), inside, total
+    return _YearGroups(share, mean, mean / (inc.sum() / pop.sum()), inside, total)
 
 
 def change(
@@ -95,16 +107,7 @@ def change(
                 f"Choose years from {years[0]} to {years[-1]}.",
                 column="year",
             )
-    if by:
-        labels = _level_labels(panel, by, units.region)
-        name = by[-1]
-        group = (
-            labels[-1]
-            if len(labels) == 1
-            else np.array(["/".join(t) for t in zip(*labels, strict=True)], dtype=object)
-        )
-    else:
-        name, group = "region", units.region.astype(str)
+    name, group = _change_groups(panel, units, by)
     codes, uniq = pd.factorize(group, sort=True)
     n = len(uniq)
     before = _group_stats(units, units.year == year_from, codes, n, alpha)
@@ -115,7 +118,31 @@ def change(
             "Compare years in which every group is present.",
             column=name,
         )
-    (p0, mu0, lam0, i0, t0), (p1, mu1, lam1, i1, t1) = before, after
+    terms = _change_terms(before, after, alpha)
+    exact = after.total - before.total
+    out = _change_frame(terms, exact, name, uniq, f"{year_from}-{year_to}")
+    out.attrs["excluded"] = units.dropped
+    return out
+
+
+def _change_groups(panel: Any, units: _Units, by: tuple[str, ...]) -> tuple[str, np.ndarray]:
+    """The level the change is split by and each unit's group at it (joined paths if nested)."""
+    if by:
+        labels = _level_labels(panel, by, units.region)
+        name = by[-1]
+        group = (
+            labels[-1]
+            if len(labels) == 1
+            else np.array(["/".join(t) for t in zip(*labels, strict=True)], dtype=object)
+        )
+    else:
+        name, group = "region", units.region.astype(str)
+    return name, group
+
+
+def _change_terms(before: _YearGroups, after: _YearGroups, alpha: float) -> dict[str, np.ndarray]:
+    """The four approximate terms per group from the two years' group statistics."""
+    (p0, mu0, lam0, i0, _), (p1, mu1, lam1, i1, _) = before, after
     pb, ib, lb = (p0 + p1) / 2, (i0 + i1) / 2, (lam0 + lam1) / 2
     dp = p1 - p0
     if alpha == 0:
@@ -134,9 +161,15 @@ def change(
             "population_between": lb * np.log(lb) * dp,
             "relative_income": pb * (ib + np.log(lb) + 1.0) * (lam1 - lam0),
         }
-    exact = t1 - t0
+    return terms
+
+
+def _change_frame(
+    terms: dict[str, np.ndarray], exact: float, name: str, uniq: np.ndarray, label: str
+) -> pd.DataFrame:
+    """The summary rows (total, the four terms, residual) then each group's part of the terms."""
+    n = len(uniq)
     approx = sum(float(v.sum()) for v in terms.values())
-    label = f"{year_from}-{year_to}"
     summary = pd.DataFrame(
         {
             "level": ["total", *[name] * (len(_CHANGE_COMPONENTS) + 1)],
@@ -156,5 +189,4 @@ def change(
     out = pd.concat([summary, per_group], ignore_index=True)
     out.insert(0, "year", label)
     out["share"] = out["value"] / exact if exact != 0 else math.nan
-    out.attrs["excluded"] = units.dropped
     return out

@@ -215,29 +215,15 @@ def dagum_split(values: np.ndarray, weights: np.ndarray | None, groups: np.ndarr
     """
     y0 = np.asarray(values, dtype=float)
     w0 = np.ones_like(y0) if weights is None else np.asarray(weights, dtype=float)
-    _check_arrays(y0, w0, None)
-    g0, labels = _group_codes(groups)
-    if g0.shape != y0.shape:
-        raise fail(
-            f"{g0.size} group labels were given for {y0.size} incomes.",
-            "Give one group label per income.",
-        )
+    codes, labels, pop, income = _group_totals(y0, w0, groups)
     k = labels.size
-    pop = np.bincount(g0, w0, k)
-    income = np.bincount(g0, w0 * y0, k)
-    if np.any(pop <= 0):
-        raise fail("a group has zero total weight.", "Drop empty groups or fix the weights.")
     total_pop, total_income = pop.sum(), income.sum()
-    if total_income <= 0:
-        raise fail("all incomes are zero; the Gini is undefined.", "Check the income column.")
     mean = income / pop
     p = pop / total_pop
     s = income / total_income
 
     # One sort. Few arrays of n live at once: fresh memory costs page faults on every call.
     # np.take gathers faster than indexing; narrow codes make the gather's source small.
-    codes = g0.astype(np.int32) if k < 2**31 else g0
-    del g0
     order, y = _pooled_order(y0)
     w_sorted = np.take(w0, order)
     g_sorted = np.take(codes, order)
@@ -252,36 +238,14 @@ def dagum_split(values: np.ndarray, weights: np.ndarray | None, groups: np.ndarr
     # below-above pairs both ways round, plus each unit's own w^2 y
     low, own, level = _pair_sums(wy, w_sorted, g_sorted, k)
     del g_sorted
-    low_sum = low + low.T
-    low_sum[np.diag_indices(k)] += own
-    # |a - b| = a + b - 2 min(a, b); the signed sum of y_r - y_i (i in j, r in h) is
-    # W_j Y_h - Y_j W_h exactly, and the excess of h over j is half absolute plus signed
-    signed = pop[:, None] * level[None, :] - level[:, None] * pop[None, :]
-    spread = level[:, None] * pop[None, :] + pop[:, None] * level[None, :] - 2.0 * low_sum
-    abs_sum = np.maximum(spread, np.abs(signed))  # |signed| <= abs_sum; rounding may cross
-    excess = 0.5 * (abs_sum + signed)  # excess[j, h]: h above j
-    pair_mad = abs_sum / np.outer(pop, pop)
-    mean_sum = mean[:, None] + mean[None, :]
-    with np.errstate(divide="ignore", invalid="ignore"):
-        pair_gini = np.where(mean_sum > 0, pair_mad / mean_sum, 0.0)
-        # d_jh - p_jh over d_jh + p_jh, oriented so the richer group is j (Dagum's D_jh >= 0)
-        richer_over = np.where(mean[:, None] >= mean[None, :], excess.T, excess)
-        poorer_over = np.where(mean[:, None] >= mean[None, :], excess, excess.T)
-        distance = np.where(abs_sum > 0, (richer_over - poorer_over) / abs_sum, 0.0)
-    np.fill_diagonal(distance, 0.0)
+    pair_gini, distance = _pair_terms(low, own, level, pop, mean)
 
     weight = np.outer(p, s)
     off = ~np.eye(k, dtype=bool)
     within_groups = np.diag(pair_gini) * p * s
     between_groups = np.where(off, pair_gini * weight * distance, 0.0).sum(axis=1)
     overlap_groups = np.where(off, pair_gini * weight * (1.0 - distance), 0.0).sum(axis=1)
-
-    # the total straight from the pooled sorted incomes, independent of the pair sums
-    # (shifting incomes by the centre changes nothing: sum_i w_i (2 c_i - w_i - W) = 0);
-    # einsum runs its own loops, not a BLAS dot that may wait on a thread of a busy core
-    below = np.einsum("i,i->", wy, np.cumsum(w_sorted))
-    twice_below = 2.0 * below - np.einsum("i,i->", wy, w_sorted)
-    total = float((twice_below - total_pop * wy.sum()) / (total_pop * total_income))
+    total = _pooled_gini(wy, w_sorted, total_pop, total_income)
     return DagumSplit(
         total=total,
         within=float(within_groups.sum()),
@@ -297,3 +261,62 @@ def dagum_split(values: np.ndarray, weights: np.ndarray | None, groups: np.ndarr
         between_groups=between_groups,
         overlap_groups=overlap_groups,
     )
+
+
+def _group_totals(
+    values: np.ndarray, weights: np.ndarray, groups: Any
+) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """Checked group codes (narrowed to int32 where they fit), labels, weights and incomes."""
+    _check_arrays(values, weights, None)
+    codes, labels = _group_codes(groups)
+    if codes.shape != values.shape:
+        raise fail(
+            f"{codes.size} group labels were given for {values.size} incomes.",
+            "Give one group label per income.",
+        )
+    k = labels.size
+    pop = np.bincount(codes, weights, k)
+    income = np.bincount(codes, weights * values, k)
+    if np.any(pop <= 0):
+        raise fail("a group has zero total weight.", "Drop empty groups or fix the weights.")
+    if income.sum() <= 0:
+        raise fail("all incomes are zero; the Gini is undefined.", "Check the income column.")
+    # the wide codes are freed on return: only the narrow copy lives through the sort
+    return (codes.astype(np.int32) if k < 2**31 else codes), labels, pop, income
+
+
+def _pair_terms(
+    low: np.ndarray, own: np.ndarray, level: np.ndarray, pop: np.ndarray, mean: np.ndarray
+) -> tuple[np.ndarray, np.ndarray]:
+    """Dagum's G_jh and D_jh of every pair of groups from the pair sums of :func:`_pair_sums`."""
+    low_sum = low + low.T
+    low_sum[np.diag_indices(pop.size)] += own
+    # |a - b| = a + b - 2 min(a, b); the signed sum of y_r - y_i (i in j, r in h) is
+    # W_j Y_h - Y_j W_h exactly, and the excess of h over j is half absolute plus signed
+    signed = pop[:, None] * level[None, :] - level[:, None] * pop[None, :]
+    spread = level[:, None] * pop[None, :] + pop[:, None] * level[None, :] - 2.0 * low_sum
+    abs_sum = np.maximum(spread, np.abs(signed))  # |signed| <= abs_sum; rounding may cross
+    excess = 0.5 * (abs_sum + signed)  # excess[j, h]: h above j
+    pair_mad = abs_sum / np.outer(pop, pop)
+    mean_sum = mean[:, None] + mean[None, :]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        pair_gini = np.where(mean_sum > 0, pair_mad / mean_sum, 0.0)
+        # d_jh - p_jh over d_jh + p_jh, oriented so the richer group is j (Dagum's D_jh >= 0)
+        richer_over = np.where(mean[:, None] >= mean[None, :], excess.T, excess)
+        poorer_over = np.where(mean[:, None] >= mean[None, :], excess, excess.T)
+        distance = np.where(abs_sum > 0, (richer_over - poorer_over) / abs_sum, 0.0)
+    np.fill_diagonal(distance, 0.0)
+    return pair_gini, distance
+
+
+def _pooled_gini(
+    wy: np.ndarray, w_sorted: np.ndarray, total_pop: float, total_income: float
+) -> float:
+    """The Gini straight from the pooled sorted incomes, independent of the pair sums.
+
+    Shifting incomes by the centre changes nothing: sum_i w_i (2 c_i - w_i - W) = 0.
+    """
+    # einsum runs its own loops, not a BLAS dot that may wait on a thread of a busy core
+    below = np.einsum("i,i->", wy, np.cumsum(w_sorted))
+    twice_below = 2.0 * below - np.einsum("i,i->", wy, w_sorted)
+    return float((twice_below - total_pop * wy.sum()) / (total_pop * total_income))
