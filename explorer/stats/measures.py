@@ -197,14 +197,14 @@ def _as_float(data, column: str) -> np.ndarray:
         array = np.asarray(data, dtype=np.float64)
     except (TypeError, ValueError) as exc:
         raise fail(
-            f"{column} must be numbers; found a value that is not ({exc})" + ".",
-            f"make every {column} a plain number (no units, no thousands separators)" + ".",
+            f"{column} must be numbers; found a value that is not ({exc}).",
+            f"make every {column} a plain number (no units, no thousands separators).",
             column=column,
         ) from None
     if array.ndim != 1:
         raise fail(
-            f"{column} must be one column of numbers, got an array of shape {array.shape}" + ".",
-            f"pass a single {column} column" + ".",
+            f"{column} must be one column of numbers, got an array of shape {array.shape}.",
+            f"pass a single {column} column.",
             column=column,
         )
     return array
@@ -214,14 +214,14 @@ def _group_codes(groups, n: int) -> tuple[np.ndarray, np.ndarray | pd.DataFrame]
     if isinstance(groups, pd.DataFrame):
         if len(groups) != n:
             raise fail(
-                f"group columns have {len(groups)} rows but income has {n}" + ".",
-                "pass group columns from the same table as the incomes" + ".",
+                f"group columns have {len(groups)} rows but income has {n}.",
+                "pass group columns from the same table as the incomes.",
             )
         missing = groups.isna().any(axis=1).to_numpy()
         if missing.any():
             raise fail(
-                f"group label missing in {_positions(missing)}" + ".",
-                "fill in the district (and year) of every record" + ".",
+                f"group label missing in {_positions(missing)}.",
+                "fill in the district (and year) of every record.",
                 column=", ".join(map(str, groups.columns)),
             )
         codes, uniques = pd.MultiIndex.from_frame(groups).factorize(sort=True)
@@ -231,15 +231,15 @@ def _group_codes(groups, n: int) -> tuple[np.ndarray, np.ndarray | pd.DataFrame]
     labels = groups.to_numpy() if isinstance(groups, pd.Series | pd.Index) else np.asarray(groups)
     if labels.ndim != 1 or len(labels) != n:
         raise fail(
-            f"groups must be one label per income ({n}), got shape {np.shape(labels)}" + ".",
-            "pass one group label for each record" + ".",
+            f"groups must be one label per income ({n}), got shape {np.shape(labels)}.",
+            "pass one group label for each record.",
             column="group",
         )
     codes, uniques = pd.factorize(labels, sort=True)
     if (codes < 0).any():
         raise fail(
-            f"group label missing in {_positions(codes < 0)}" + ".",
-            "fill in the group (district) of every record" + ".",
+            f"group label missing in {_positions(codes < 0)}.",
+            "fill in the group (district) of every record.",
             column="group",
         )
     return codes.astype(np.int64), np.asarray(uniques)
@@ -275,29 +275,29 @@ def sort_units(values, weights=None, groups=None) -> SortedUnits:
     weight = np.ones(n) if weights is None else _as_float(weights, "weight")
     if len(weight) != n:
         raise fail(
-            f"weight has {len(weight)} entries but income has {n}" + ".",
-            "give one weight per income, or none" + ".",
+            f"weight has {len(weight)} entries but income has {n}.",
+            "give one weight per income, or none.",
             column="weight",
         )
-    problems = []
-    bad = ~np.isfinite(income)
-    if bad.any():
-        problems.append(
-            Problem(
-                f"income is missing or not finite in {_positions(bad)}" + ".",
-                "fill in or drop those records" + ".",
-                column="income",
-            )
-        )
-    bad = ~np.isfinite(weight) | (weight < 0)
-    if bad.any():
-        problems.append(
-            Problem(
-                f"weight is negative, missing or not finite in {_positions(bad)}" + ".",
-                "weights are population counts or shares: use finite numbers >= 0" + ".",
-                column="weight",
-            )
-        )
+    checks = (
+        (
+            ~np.isfinite(income),
+            "income",
+            "income is missing or not finite",
+            "fill in or drop those records.",
+        ),
+        (
+            ~np.isfinite(weight) | (weight < 0),
+            "weight",
+            "weight is negative, missing or not finite",
+            "weights are population counts or shares: use finite numbers >= 0.",
+        ),
+    )
+    problems = [
+        Problem(f"{what} in {_positions(bad)}.", fix, column=column)
+        for bad, column, what, fix in checks
+        if bad.any()
+    ]
     if problems:
         raise DataError(problems)
     if groups is None:

@@ -73,11 +73,15 @@ class _Piecewise:
         return batch.extra["knots_p"], batch.extra["knots_l"]
 
     @classmethod
-    def evaluate(cls, batch, p):
+    def _piece_ends(cls, batch, p):
+        """Knots on either side of every point: x0, x1, y0, y1."""
         xs, ys = cls.knots(batch)
         j = _row_search(xs, p)
-        x0, x1 = _gather(xs, j), _gather(xs, j + 1)
-        y0, y1 = _gather(ys, j), _gather(ys, j + 1)
+        return _gather(xs, j), _gather(xs, j + 1), _gather(ys, j), _gather(ys, j + 1)
+
+    @classmethod
+    def evaluate(cls, batch, p):
+        x0, x1, y0, y1 = cls._piece_ends(batch, p)
         width = x1 - x0
         with np.errstate(divide="ignore", invalid="ignore"):
             t = np.where(width > 0, (p - x0) / width, 1.0)
@@ -86,10 +90,7 @@ class _Piecewise:
 
     @classmethod
     def slope(cls, batch, p):
-        xs, ys = cls.knots(batch)
-        j = _row_search(xs, p)
-        x0, x1 = _gather(xs, j), _gather(xs, j + 1)
-        y0, y1 = _gather(ys, j), _gather(ys, j + 1)
+        x0, x1, y0, y1 = cls._piece_ends(batch, p)
         with np.errstate(divide="ignore", invalid="ignore"):
             return np.where(x1 > x0, (y1 - y0) / (x1 - x0), np.inf)
 
