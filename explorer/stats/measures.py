@@ -333,6 +333,9 @@ def sort_units(values, weights=None, groups=None) -> SortedUnits:
 # Units run along the last, contiguous axis so segment reductions stream through memory.
 
 
+_ROUNDING = 8 * np.finfo(float).eps  # population shares closer than this to p count as p
+
+
 def _segment_sum(x: np.ndarray, starts: np.ndarray) -> np.ndarray:
     return np.add.reduceat(x, starts, axis=-1)
 
@@ -451,7 +454,10 @@ class _Engine:
             with np.errstate(invalid="ignore", divide="ignore"):
                 # Cumulative population share at the top of each unit's stretch.
                 self._cache["P"] = self.cumulative() / self.W[:, self.codes]
-        below = self._cache["P"] < p  # the units wholly below p
+        # The units wholly below p. A unit whose top lies within rounding of p reaches p:
+        # otherwise a stretch of rounding size (p W - c ~ 1e-17 W) would take the next
+        # unit's income, and a bottom share that is exactly 0 would come out ~1e-17.
+        below = self._cache["P"] < p - _ROUNDING
         # Weight and income below p as direct sums (no differences of running totals);
         # the stretch of the first unit reaching p adds income at that unit's level.
         w_below = self.w * below
