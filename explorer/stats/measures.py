@@ -14,6 +14,7 @@ from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
+from numpy.typing import ArrayLike
 
 from explorer.data.model import DataError, Problem, fail
 
@@ -115,7 +116,17 @@ def parse_index(key: str) -> tuple[str, float | None]:
 
 
 def index_name(key: str) -> str:
-    """Human-readable name of an index key, as used in notes (e.g. ``"GE(2)"``)."""
+    """Human-readable name of an index key, as used in notes (e.g. ``"GE(2)"``).
+
+    Parameters
+    ----------
+    key : str
+        An index key such as ``gini``, ``ge_2`` or ``atkinson_0.5``.
+
+    Returns
+    -------
+    str
+    """
     family, param = parse_index(key)
     if family == "ge":
         return {0.0: "MLD", 1.0: "Theil T"}.get(param, f"GE({param:g})")
@@ -245,31 +256,8 @@ def _group_codes(groups, n: int) -> tuple[np.ndarray, np.ndarray | pd.DataFrame]
     return codes.astype(np.int64), np.asarray(uniques)
 
 
-def sort_units(values, weights=None, groups=None) -> SortedUnits:
-    """Sort units by (group, income) with one ``np.lexsort``.
-
-    Parameters
-    ----------
-    values : array_like, shape (n,)
-        Incomes. Finite; zeros and negatives are allowed (indices that cannot take them
-        come out NaN with a note).
-    weights : array_like, shape (n,), optional
-        Non-negative finite weights (population represented by each unit); 1 when
-        omitted. Zero weights are allowed and change nothing.
-    groups : array_like, shape (n,), or DataFrame, optional
-        Group label of each unit (e.g. district), or several key columns (e.g. region
-        and year). One group when omitted.
-
-    Returns
-    -------
-    SortedUnits
-
-    Raises
-    ------
-    explorer.data.model.DataError
-        For non-numeric or non-finite incomes, negative or non-finite weights, missing
-        group labels, or inputs of different lengths. The inputs are never modified.
-    """
+def _checked_units(values: ArrayLike, weights: ArrayLike | None) -> tuple[np.ndarray, np.ndarray]:
+    """Incomes and weights as float arrays, every bad record named in one error."""
     income = _as_float(values, "income")
     n = len(income)
     weight = np.ones(n) if weights is None else _as_float(weights, "weight")
@@ -300,6 +288,40 @@ def sort_units(values, weights=None, groups=None) -> SortedUnits:
     ]
     if problems:
         raise DataError(problems)
+    return income, weight
+
+
+def sort_units(
+    values: ArrayLike,
+    weights: ArrayLike | None = None,
+    groups: ArrayLike | pd.DataFrame | None = None,
+) -> SortedUnits:
+    """Sort units by (group, income) with one ``np.lexsort``.
+
+    Parameters
+    ----------
+    values : array_like, shape (n,)
+        Incomes. Finite; zeros and negatives are allowed (indices that cannot take them
+        come out NaN with a note).
+    weights : array_like, shape (n,), optional
+        Non-negative finite weights (population represented by each unit); 1 when
+        omitted. Zero weights are allowed and change nothing.
+    groups : array_like, shape (n,), or DataFrame, optional
+        Group label of each unit (e.g. district), or several key columns (e.g. region
+        and year). One group when omitted.
+
+    Returns
+    -------
+    SortedUnits
+
+    Raises
+    ------
+    explorer.data.model.DataError
+        For non-numeric or non-finite incomes, negative or non-finite weights, missing
+        group labels, or inputs of different lengths. The inputs are never modified.
+    """
+    income, weight = _checked_units(values, weights)
+    n = len(income)
     if groups is None:
         codes, labels = np.zeros(n, dtype=np.int64), np.array(["(all)"], dtype=object)
         if n == 0:
@@ -730,7 +752,10 @@ def compute(
 
 
 def weighted(
-    values, weights, groups, indices: Sequence[str] | str = STANDARD_INDICES
+    values: ArrayLike,
+    weights: ArrayLike | None,
+    groups: ArrayLike | pd.DataFrame | None,
+    indices: Sequence[str] | str = STANDARD_INDICES,
 ) -> pd.DataFrame:
     """Sort and compute in one call; a tidy table.
 

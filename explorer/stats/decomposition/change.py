@@ -75,6 +75,18 @@ def change(
     ``population_between`` sum λ̄_k ln λ̄_k dp_k, ``relative_income``
     sum p̄_k (T̄_k + ln λ̄_k + 1) dλ_k. This Theil form is our analogue, not the paper's.
 
+    Parameters
+    ----------
+    panel : Panel
+        Any kind of panel (see :func:`explorer.stats.decompose.table`).
+    by : sequence of str
+        Higher levels, outermost first; the groups are those of the last one.
+    index : {"mld", "theil_t"}
+    year_from, year_to : int, optional
+        The two years; default the panel's first and last.
+    method : str
+        Lorenz method for grouped data.
+
     Returns
     -------
     DataFrame
@@ -97,16 +109,7 @@ def change(
     by = tuple(by)
     units = _panel_units(panel, method)
     _check_arrays(units.income, units.weight, alpha)
-    years = np.unique(units.year)
-    year_from = int(years[0]) if year_from is None else int(year_from)
-    year_to = int(years[-1]) if year_to is None else int(year_to)
-    for y in (year_from, year_to):
-        if y not in years:
-            raise fail(
-                f"the panel has no data for {y}.",
-                f"Choose years from {years[0]} to {years[-1]}.",
-                column="year",
-            )
+    year_from, year_to = _two_years(units, year_from, year_to)
     name, group = _change_groups(panel, units, by)
     codes, uniq = pd.factorize(group, sort=True)
     n = len(uniq)
@@ -123,6 +126,21 @@ def change(
     out = _change_frame(terms, exact, name, uniq, f"{year_from}-{year_to}")
     out.attrs["excluded"] = units.dropped
     return out
+
+
+def _two_years(units: _Units, year_from: int | None, year_to: int | None) -> tuple[int, int]:
+    """The years compared, the panel's first and last by default; both must have data."""
+    years = np.unique(units.year)
+    year_from = int(years[0]) if year_from is None else int(year_from)
+    year_to = int(years[-1]) if year_to is None else int(year_to)
+    for y in (year_from, year_to):
+        if y not in years:
+            raise fail(
+                f"the panel has no data for {y}.",
+                f"Choose years from {years[0]} to {years[-1]}.",
+                column="year",
+            )
+    return year_from, year_to
 
 
 def _change_groups(panel: Any, units: _Units, by: tuple[str, ...]) -> tuple[str, np.ndarray]:

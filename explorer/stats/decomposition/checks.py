@@ -18,6 +18,15 @@ ALL = "(all)"
 def parse_ge_alpha(index: str) -> float:
     """The GE parameter of an index key: ``mld`` -> 0, ``theil_t`` -> 1, ``ge_<alpha>``.
 
+    Parameters
+    ----------
+    index : str
+        An index key.
+
+    Returns
+    -------
+    float
+
     Raises
     ------
     DataError

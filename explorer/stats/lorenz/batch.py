@@ -3,11 +3,14 @@
 from __future__ import annotations
 
 import json
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 
 import numpy as np
 import pandas as pd
+from numpy.typing import ArrayLike
 
+from explorer.data.model import Panel
 from explorer.stats.lorenz.curves import _CURVES, _Batch
 from explorer.stats.lorenz.indices_from_curve import _family
 from explorer.stats.lorenz.points import _blank, _prepare, _refuse, panel_points
@@ -87,7 +90,7 @@ class LorenzFits:
             out[rows] = compute(batch)
         return out
 
-    def evaluate(self, p) -> np.ndarray:
+    def evaluate(self, p: ArrayLike) -> np.ndarray:
         """L(p) for every row at the points ``p`` (1-D), shape ``(n, len(p))``.
 
         L(1) = 1 for every curve, so the ``upper`` curve's jump at p = 1 is included.
@@ -95,12 +98,12 @@ class LorenzFits:
         p = np.atleast_1d(np.asarray(p, dtype=float))
         return self._gather(lambda b: b.evaluate(p), p.size)
 
-    def slope(self, p) -> np.ndarray:
+    def slope(self, p: ArrayLike) -> np.ndarray:
         """Relative income L'(p) (income over the mean) at ``p``, shape ``(n, len(p))``."""
         p = np.atleast_1d(np.asarray(p, dtype=float))
         return self._gather(lambda b: b.slope(p), p.size)
 
-    def indices(self, keys) -> dict[str, CurveIndex]:
+    def indices(self, keys: str | Sequence[str]) -> dict[str, CurveIndex]:
         """Every index in ``keys`` for every row.
 
         Closed forms where published (lognormal: all; GQ, Beta, quadratic: Gini), exact
@@ -228,7 +231,7 @@ def _check_method(method: str) -> None:
         )
 
 
-def fit_points(P, L, method: str = "auto") -> LorenzFits:
+def fit_points(P: ArrayLike, L: ArrayLike, method: str = "auto") -> LorenzFits:
     """Fit one Lorenz method to many rows of cumulative shares at once.
 
     Parameters
@@ -274,10 +277,26 @@ def fit_points(P, L, method: str = "auto") -> LorenzFits:
     return _assemble(method, pieces, n, pd.DataFrame({"row": np.arange(n)}))
 
 
-def fit_panel(panel, method: str = "auto") -> LorenzFits:
+def fit_panel(panel: Panel, method: str = "auto") -> LorenzFits:
     """Fit ``method`` to every district-year of a bracket panel (see :func:`fit_points`).
 
     District-years with the same bracket count are fitted as one batch.
+
+    Parameters
+    ----------
+    panel : explorer.data.model.Panel
+        A bracket panel.
+    method : str
+        One of :data:`METHODS`.
+
+    Returns
+    -------
+    LorenzFits
+        Rows keyed by ``region, year`` in panel order.
+
+    References
+    ----------
+    As for :func:`fit_points`.
     """
     _check_method(method)
     if getattr(panel, "kind", "brackets") != "brackets":

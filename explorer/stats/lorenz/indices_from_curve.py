@@ -6,7 +6,10 @@ index is a weighted average over quadrature nodes of a function of the slope.
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+
 import numpy as np
+from numpy.typing import ArrayLike
 
 from explorer.stats.lorenz.points import _blank, _refuse
 from explorer.stats.lorenz.quadrature import _CHUNK_NODES, GAUSS_NODES, PROBIT_GRID
@@ -225,7 +228,9 @@ def _grid_moments(batch, curve, needed) -> dict[str, np.ndarray]:
     return moments
 
 
-def indices_from_slope(y, weights, keys, jump=None) -> dict[str, np.ndarray]:
+def indices_from_slope(
+    y: ArrayLike, weights: ArrayLike, keys: Sequence[str], jump: ArrayLike | None = None
+) -> dict[str, np.ndarray]:
     """Mean-based indices from relative incomes on a quadrature grid.
 
     Parameters
@@ -238,6 +243,17 @@ def indices_from_slope(y, weights, keys, jump=None) -> dict[str, np.ndarray]:
         Index keys of integral type: ``theil_t, mld, ge_<alpha>, atkinson_<eps>, cv``.
     jump : ndarray, shape (n,), optional
         Income share held by a vanishing share of people.
+
+    Returns
+    -------
+    dict of str to ndarray, shape (n,)
+
+    References
+    ----------
+    Shorrocks, A. F. (1980). The class of additively decomposable inequality measures.
+    *Econometrica* 48: 613-625.
+    Atkinson, A. B. (1970). On the measurement of inequality. *Journal of Economic
+    Theory* 2: 244-263.
     """
     y = np.asarray(y, dtype=float)
     jump = np.zeros(y.shape[0]) if jump is None else np.asarray(jump, dtype=float)

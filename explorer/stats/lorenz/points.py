@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from explorer.data.model import DataError, Problem
+from explorer.data.model import DataError, Panel, Problem
 
 __all__ = ["panel_points"]
 
@@ -103,12 +103,23 @@ def _prepare(P, L):
     return P, L, good, point_reason
 
 
-def panel_points(panel) -> tuple[pd.DataFrame, list[tuple[np.ndarray, np.ndarray, np.ndarray]]]:
+def panel_points(
+    panel: Panel,
+) -> tuple[pd.DataFrame, list[tuple[np.ndarray, np.ndarray, np.ndarray]]]:
     """Cumulative shares of a bracket panel, one batch per bracket count.
 
-    Returns the ``region, year`` keys (one row per district-year, in panel order) and a
-    list of ``(rows, P, L)`` with ``rows`` indexing the keys. Cumulative shares are divided
-    by their totals so every curve ends exactly at (1, 1).
+    Parameters
+    ----------
+    panel : explorer.data.model.Panel
+        A bracket panel, its rows grouped by district-year in bracket order.
+
+    Returns
+    -------
+    keys : DataFrame
+        ``region, year`` of every district-year, in panel order.
+    batches : list of (rows, P, L)
+        ``rows`` indexes ``keys``; ``P`` and ``L`` are the cumulative population and
+        income shares, divided by their totals so every curve ends exactly at (1, 1).
     """
     data = panel.data
     region = data["region"].to_numpy()
