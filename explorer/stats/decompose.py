@@ -9,6 +9,9 @@ Three families, all computed from arrays first and then wrapped for a :class:`Pa
 
 Grouped (bracket) data enter through :func:`pseudo_units`, which rebuilds each district-year
 on a fixed quantile grid from its Lorenz fit, so every decomposition sees units.
+
+This module is the public entry point; the work is in :mod:`explorer.stats.decomposition`
+(``ge``, ``dagum``, ``pseudo_units``, ``panel_units``, ``levels`` for the table, ``change``).
 """
 
 from __future__ import annotations

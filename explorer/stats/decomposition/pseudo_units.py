@@ -19,7 +19,7 @@ from explorer.data.model import fail
 __all__ = ["DEFAULT_GRID", "PseudoUnits", "pseudo_units"]
 
 # Percentiles, with the top percentile cut ten times finer: the top cell carries most of the
-# within-cell dispersion a pseudo-unit cannot keep (see tests/test_decompose.py for the error).
+# within-cell dispersion a pseudo-unit cannot keep (see tests/stats/test_decompose.py for the error).
 DEFAULT_GRID = np.unique(np.concatenate([np.linspace(0.0, 0.99, 100), np.linspace(0.99, 1.0, 11)]))
 
 
@@ -56,7 +56,7 @@ def pseudo_units(
     low. On a lognormal sample (sigma = 0.7) rebuilt from its own Lorenz curve, the default
     grid (percentiles, the top one cut in ten) loses 0.14 % of the Theil and 0.02 % of the
     Gini (an even 100-cell grid: 0.7 % and 0.03 %); from decile shares through the ``auto``
-    fit the whole chain is within 0.2 % (``tests/test_decompose.py``). The fit, not the
+    fit the whole chain is within 0.2 % (``tests/stats/test_decompose.py``). The fit, not the
     grid, is the larger error.
 
     Parameters

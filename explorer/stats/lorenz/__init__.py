@@ -34,6 +34,16 @@ and CV without a finite upper bound, and its zero incomes at the bottom leave ML
 GE(alpha < 0) without one (Atkinson(epsilon >= 1) reaches 1); each such value is inf with
 a note saying why.
 
+One module per family of curve, and the shared parts beside them:
+
+* ``points``: cumulative shares of a panel, their checks, row-wise knot search;
+* ``quadrature``: the probit grid and the Gauss–Legendre pieces;
+* ``bounds``: ``linear`` and ``upper``; ``pchip``; ``gq``; ``beta``; ``quadratic``;
+  ``lognormal``; ``parametric``: batched least squares and grid integrals they share;
+* ``indices_from_curve``: node averages of the slope, shares, notes on infinite values;
+* ``curves``: the method table and one fitted batch;
+* ``batch``: :func:`fit_points`, :func:`fit_panel`, :class:`LorenzFits`, the ``auto`` choice.
+
 References
 ----------
 Gastwirth, J. L. (1972). The estimation of the Lorenz curve and Gini index. *Review of
