@@ -397,14 +397,8 @@ def local_moran(
 
     Parameters
     ----------
-    values : array_like, shape (n,)
-        One value per district, in the graph's order.
-    graph : NeighbourGraph
-        Who neighbours whom.
-    permutations : int
-        Random relabellings for the p-value.
-    seed : int
-        Seed of ``numpy.random.default_rng``.
+    values, graph, permutations, seed
+        As for :func:`moran`.
     alpha : float
         Pseudo p-value at or below which a district is labelled a cluster.
 
@@ -518,14 +512,8 @@ def spatial_gini(
 
     Parameters
     ----------
-    values : array_like, shape (n,)
-        One value per district, in the graph's order.
-    graph : NeighbourGraph
-        Who neighbours whom.
-    permutations : int
-        Random relabellings for the p-value.
-    seed : int
-        Seed of ``numpy.random.default_rng``.
+    values, graph, permutations, seed
+        As for :func:`moran`.
 
     Returns
     -------
@@ -587,14 +575,8 @@ def global_stats(
 
     Parameters
     ----------
-    values : array_like, shape (n,)
-        One value per district, in the graph's order.
-    graph : NeighbourGraph
-        Who neighbours whom.
-    permutations : int
-        Random relabellings for the p-value.
-    seed : int
-        Seed of ``numpy.random.default_rng``.
+    values, graph, permutations, seed
+        As for :func:`moran`.
 
     Returns
     -------
@@ -633,14 +615,8 @@ def district_table(
 
     Parameters
     ----------
-    values : array_like, shape (n,)
-        One value per district, in the graph's order.
-    graph : NeighbourGraph
-        Who neighbours whom.
-    permutations : int
-        Random relabellings for the p-value.
-    seed : int
-        Seed of ``numpy.random.default_rng``.
+    values, graph, permutations, seed
+        As for :func:`moran`.
     alpha : float
         As for :func:`local_moran`.
 
