@@ -13,6 +13,7 @@ Barro, R. J. and Sala-i-Martin, X. (1992). Convergence. *Journal of Political Ec
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
@@ -52,43 +53,40 @@ def _district_years(data: pd.DataFrame) -> tuple[np.ndarray, np.ndarray, np.ndar
     problems = []
     region = data["region"].astype(str).to_numpy()
     year = pd.to_numeric(data["year"], errors="coerce").to_numpy(dtype=float)
-    bad_year = ~np.isfinite(year) | (year != np.round(year))
-    if bad_year.any():
-        first = int(np.flatnonzero(bad_year)[0])
-        problems.append(
-            Problem(
-                f"{int(bad_year.sum())} row(s) have a year that is not a whole number, "
-                f"first for district '{region[first]}' ({data['year'].iloc[first]!r}).",
-                "Give each year as a whole number such as 2015.",
-                column="year",
-            )
-        )
+    _flag(
+        problems,
+        ~np.isfinite(year) | (year != np.round(year)),
+        "year",
+        lambda count, first: (
+            f"{count} row(s) have a year that is not a whole number, "
+            f"first for district '{region[first]}' ({data['year'].iloc[first]!r})."
+        ),
+        "Give each year as a whole number such as 2015.",
+    )
     mean = pd.to_numeric(data["mean_income"], errors="coerce").to_numpy(dtype=float)
-    bad_mean = ~np.isfinite(mean) | (mean <= 0)
-    if bad_mean.any():
-        first = int(np.flatnonzero(bad_mean)[0])
-        problems.append(
-            Problem(
-                f"{int(bad_mean.sum())} district-year(s) have a mean income that is missing, "
-                f"zero or negative, first '{region[first]}' in {data['year'].iloc[first]} "
-                f"({data['mean_income'].iloc[first]!r}); its logarithm is undefined.",
-                "Give a positive mean income for every district-year, or leave those rows out.",
-                column="mean_income",
-            )
-        )
+    _flag(
+        problems,
+        ~np.isfinite(mean) | (mean <= 0),
+        "mean_income",
+        lambda count, first: (
+            f"{count} district-year(s) have a mean income that is missing, "
+            f"zero or negative, first '{region[first]}' in {data['year'].iloc[first]} "
+            f"({data['mean_income'].iloc[first]!r}); its logarithm is undefined."
+        ),
+        "Give a positive mean income for every district-year, or leave those rows out.",
+    )
     if "population" in data.columns:
         population = pd.to_numeric(data["population"], errors="coerce").to_numpy(dtype=float)
-        negative = population < 0
-        if negative.any():
-            first = int(np.flatnonzero(negative)[0])
-            problems.append(
-                Problem(
-                    f"{int(negative.sum())} district-year(s) have a negative population, "
-                    f"first '{region[first]}' in {data['year'].iloc[first]}.",
-                    "Populations are head counts: give zero or more, or leave them empty.",
-                    column="population",
-                )
-            )
+        _flag(
+            problems,
+            population < 0,
+            "population",
+            lambda count, first: (
+                f"{count} district-year(s) have a negative population, "
+                f"first '{region[first]}' in {data['year'].iloc[first]}."
+            ),
+            "Populations are head counts: give zero or more, or leave them empty.",
+        )
     else:
         population = np.full(len(data), np.nan)
     if not problems:
@@ -297,76 +295,26 @@ def beta(
         raise DataError(
             Problem(f"Confidence level {level!r} is not between 0 and 1.", "Use e.g. 0.95.")
         )
-    present = np.unique(year)
-    if present.size == 0:
-        raise DataError(Problem("The table has no rows.", "Give at least two years of means."))
-    start = int(present[0]) if year_from is None else int(year_from)
-    end = int(present[-1]) if year_to is None else int(year_to)
-    absent = [y for y in (start, end) if y not in set(present.tolist())]
-    if absent:
-        raise DataError(
-            Problem(
-                f"Year {absent[0]} is not in the table (it has {present[0]}-{present[-1]}).",
-                "Choose years that the table covers.",
-                column="year",
-            )
-        )
-    if start == end and year_from is None and year_to is None:
+    start, end = _year_span(year, year_from, year_to)
+    if start == end:
         return _not_estimable(0, start, end, level, "The table has only one year.")
-    if end <= start:
-        raise DataError(
-            Problem(
-                f"The end year {end} is not after the start year {start}.",
-                "Choose a start year before the end year.",
-                column="year",
-            )
-        )
 
-    first = pd.Series(np.log(mean[year == start]), index=region[year == start])
-    last = pd.Series(np.log(mean[year == end]), index=region[year == end])
-    both = first.index.intersection(last.index)
-    n = len(both)
+    x, x_end = _paired_logs(region, year, mean, start, end)
+    n = x.size
     if n < 3:
+        few = f"Only {n} district(s) have means in both {start} and {end}; "
         return _not_estimable(
-            n,
-            start,
-            end,
-            level,
-            f"Only {n} district(s) have means in both {start} and {end}; "
-            "a slope with a standard error needs at least 3.",
+            n, start, end, level, few + "a slope with a standard error needs at least 3."
         )
     span = end - start
-    x = first[both].to_numpy()
-    g = (last[both].to_numpy() - x) / span
-    xc = x - x.mean()
-    sxx = xc @ xc
-    if sxx <= 1e-24 * max(1.0, float(x @ x)):
+    g = (x_end - x) / span
+    fit = _least_squares(x, g, level)
+    if fit is None:
         return _not_estimable(
             n, start, end, level, f"All districts had the same mean income in {start}."
         )
-    slope = float(xc @ (g - g.mean()) / sxx)
-    intercept = float(g.mean() - slope * x.mean())
-    resid = g - intercept - slope * x
-    ssr, sst = float(resid @ resid), float(((g - g.mean()) ** 2).sum())
-    se = float(np.sqrt(ssr / (n - 2) / sxx))
-    half_width = float(stats.t.ppf(0.5 + level / 2, n - 2)) * se
-    r_squared = 1.0 - ssr / sst if sst > 0 else float("nan")
-
-    reason = ""
-    speed = half_life = float("nan")
-    if slope >= 0:
-        reason = (
-            f"β = {slope:.4g} ≥ 0: richer districts grew as fast as poorer ones or faster "
-            f"(divergence), so there is no speed of convergence or half-life."
-        )
-    elif 1 + slope * span <= 0:
-        reason = (
-            f"1 + βT = {1 + slope * span:.3g} ≤ 0: poorer districts overtook richer ones, "
-            "which the convergence model's speed cannot describe."
-        )
-    else:
-        speed = -np.log1p(slope * span) / span
-        half_life = float(np.log(2) / speed)
+    slope, se, half_width, intercept, r_squared = fit
+    speed, half_life, reason = _speed(slope, span)
     return BetaConvergence(
         beta=slope,
         se=se,
@@ -382,3 +330,95 @@ def beta(
         half_life=half_life,
         reason=reason,
     )
+
+
+def _year_span(year: np.ndarray, year_from: int | None, year_to: int | None) -> tuple[int, int]:
+    """Start and end years, the table's first and last by default; equal only by default."""
+    present = np.unique(year)
+    if present.size == 0:
+        raise DataError(Problem("The table has no rows.", "Give at least two years of means."))
+    start = int(present[0]) if year_from is None else int(year_from)
+    end = int(present[-1]) if year_to is None else int(year_to)
+    absent = [y for y in (start, end) if y not in set(present.tolist())]
+    if absent:
+        raise DataError(
+            Problem(
+                f"Year {absent[0]} is not in the table (it has {present[0]}-{present[-1]}).",
+                "Choose years that the table covers.",
+                column="year",
+            )
+        )
+    one_year = start == end and year_from is None and year_to is None
+    if end <= start and not one_year:
+        raise DataError(
+            Problem(
+                f"The end year {end} is not after the start year {start}.",
+                "Choose a start year before the end year.",
+                column="year",
+            )
+        )
+    return start, end
+
+
+def _speed(slope: float, span: int) -> tuple[float, float, str]:
+    """Speed of convergence and half-life from β, or NaN and the reason they do not exist."""
+    nan = float("nan")
+    if slope >= 0:
+        reason = (
+            f"β = {slope:.4g} ≥ 0: richer districts grew as fast as poorer ones or faster "
+            f"(divergence), so there is no speed of convergence or half-life."
+        )
+        return nan, nan, reason
+    if 1 + slope * span <= 0:
+        reason = (
+            f"1 + βT = {1 + slope * span:.3g} ≤ 0: poorer districts overtook richer ones, "
+            "which the convergence model's speed cannot describe."
+        )
+        return nan, nan, reason
+    speed = -np.log1p(slope * span) / span
+    return float(speed), float(np.log(2) / speed), ""
+
+
+def _least_squares(
+    x: np.ndarray, g: np.ndarray, level: float
+) -> tuple[float, float, float, float, float] | None:
+    """OLS of g on x: slope, its standard error and interval half-width, intercept, R².
+
+    None when every x is the same (no slope can be fitted).
+    """
+    n = x.size
+    xc = x - x.mean()
+    sxx = xc @ xc
+    if sxx <= 1e-24 * max(1.0, float(x @ x)):
+        return None
+    slope = float(xc @ (g - g.mean()) / sxx)
+    intercept = float(g.mean() - slope * x.mean())
+    resid = g - intercept - slope * x
+    ssr, sst = float(resid @ resid), float(((g - g.mean()) ** 2).sum())
+    se = float(np.sqrt(ssr / (n - 2) / sxx))
+    half_width = float(stats.t.ppf(0.5 + level / 2, n - 2)) * se
+    r_squared = 1.0 - ssr / sst if sst > 0 else float("nan")
+    return slope, se, half_width, intercept, r_squared
+
+
+def _paired_logs(
+    region: np.ndarray, year: np.ndarray, mean: np.ndarray, start: int, end: int
+) -> tuple[np.ndarray, np.ndarray]:
+    """Log mean incomes in ``start`` and in ``end`` of the districts present in both."""
+    first = pd.Series(np.log(mean[year == start]), index=region[year == start])
+    last = pd.Series(np.log(mean[year == end]), index=region[year == end])
+    both = first.index.intersection(last.index)
+    return first[both].to_numpy(), last[both].to_numpy()
+
+
+def _flag(
+    problems: list[Problem],
+    bad: np.ndarray,
+    column: str,
+    message: Callable[[int, int], str],
+    fix: str,
+) -> None:
+    """Add one problem for the rows marked ``bad``, worded by ``message(count, first row)``."""
+    if bad.any():
+        first = int(np.flatnonzero(bad)[0])
+        problems.append(Problem(message(int(bad.sum()), first), fix, column=column))

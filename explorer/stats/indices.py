@@ -19,11 +19,23 @@ District-years left out by validation are not in the table; they are in
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+
 import numpy as np
 import pandas as pd
 
-from explorer.data.model import fail
+from explorer.data.model import Panel, fail
 from explorer.stats import lorenz, measures
+
+__all__ = [
+    "ALL_DISTRICTS",
+    "CI_CHOICES",
+    "COLUMNS",
+    "DEFAULT_INDICES",
+    "FIT_COLUMNS",
+    "compute",
+    "fits",
+]
 
 DEFAULT_INDICES: tuple[str, ...] = measures.STANDARD_INDICES
 """The default indices: every family at its usual parameters (as measures.STANDARD_INDICES)."""
@@ -249,9 +261,9 @@ def _means(panel, indices, ci) -> pd.DataFrame:
 
 
 def compute(
-    panel,
-    methods=("auto",),
-    indices=DEFAULT_INDICES,
+    panel: Panel,
+    methods: str | Sequence[str] = ("auto",),
+    indices: str | Sequence[str] = DEFAULT_INDICES,
     ci: str | None = None,
     reps: int = 199,
     seed: int | None = 0,
@@ -308,13 +320,23 @@ def compute(
     return table
 
 
-def fits(panel, methods=("auto",)) -> pd.DataFrame:
+def fits(panel: Panel, methods: str | Sequence[str] = ("auto",)) -> pd.DataFrame:
     """Lorenz fit diagnostics of a bracket panel, one row per district-year and method.
 
-    Columns ``region, year, method, used, params, sse, max_error, valid, reason``:
-    ``used`` is the method actually used (for ``auto``), ``params`` the fitted parameters
-    as JSON text, ``sse`` and ``max_error`` the squared error summed over the bracket points
-    and the largest absolute error at one. Empty for unit and means panels.
+    Parameters
+    ----------
+    panel : explorer.data.model.Panel
+    methods : str or sequence of str
+        Lorenz methods, one block of rows each (as for :func:`compute`).
+
+    Returns
+    -------
+    DataFrame
+        Columns ``region, year, method, used, params, sse, max_error, valid, reason``:
+        ``used`` is the method actually used (for ``auto``), ``params`` the fitted
+        parameters as JSON text, ``sse`` and ``max_error`` the squared error summed over
+        the bracket points and the largest absolute error at one. Empty for unit and means
+        panels.
     """
     methods, _ = _check_arguments(methods, ("gini",), None, 2, 0.5)
     if panel.kind != "brackets" or len(panel.data) == 0:

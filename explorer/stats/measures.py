@@ -14,6 +14,7 @@ from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
+from numpy.typing import ArrayLike
 
 from explorer.data.model import DataError, Problem, fail
 
@@ -115,7 +116,17 @@ def parse_index(key: str) -> tuple[str, float | None]:
 
 
 def index_name(key: str) -> str:
-    """Human-readable name of an index key, as used in notes (e.g. ``"GE(2)"``)."""
+    """Human-readable name of an index key, as used in notes (e.g. ``"GE(2)"``).
+
+    Parameters
+    ----------
+    key : str
+        An index key such as ``gini``, ``ge_2`` or ``atkinson_0.5``.
+
+    Returns
+    -------
+    str
+    """
     family, param = parse_index(key)
     if family == "ge":
         return {0.0: "MLD", 1.0: "Theil T"}.get(param, f"GE({param:g})")
@@ -197,14 +208,14 @@ def _as_float(data, column: str) -> np.ndarray:
         array = np.asarray(data, dtype=np.float64)
     except (TypeError, ValueError) as exc:
         raise fail(
-            f"{column} must be numbers; found a value that is not ({exc})" + ".",
-            f"make every {column} a plain number (no units, no thousands separators)" + ".",
+            f"{column} must be numbers; found a value that is not ({exc}).",
+            f"make every {column} a plain number (no units, no thousands separators).",
             column=column,
         ) from None
     if array.ndim != 1:
         raise fail(
-            f"{column} must be one column of numbers, got an array of shape {array.shape}" + ".",
-            f"pass a single {column} column" + ".",
+            f"{column} must be one column of numbers, got an array of shape {array.shape}.",
+            f"pass a single {column} column.",
             column=column,
         )
     return array
@@ -214,14 +225,14 @@ def _group_codes(groups, n: int) -> tuple[np.ndarray, np.ndarray | pd.DataFrame]
     if isinstance(groups, pd.DataFrame):
         if len(groups) != n:
             raise fail(
-                f"group columns have {len(groups)} rows but income has {n}" + ".",
-                "pass group columns from the same table as the incomes" + ".",
+                f"group columns have {len(groups)} rows but income has {n}.",
+                "pass group columns from the same table as the incomes.",
             )
         missing = groups.isna().any(axis=1).to_numpy()
         if missing.any():
             raise fail(
-                f"group label missing in {_positions(missing)}" + ".",
-                "fill in the district (and year) of every record" + ".",
+                f"group label missing in {_positions(missing)}.",
+                "fill in the district (and year) of every record.",
                 column=", ".join(map(str, groups.columns)),
             )
         codes, uniques = pd.MultiIndex.from_frame(groups).factorize(sort=True)
@@ -231,21 +242,60 @@ def _group_codes(groups, n: int) -> tuple[np.ndarray, np.ndarray | pd.DataFrame]
     labels = groups.to_numpy() if isinstance(groups, pd.Series | pd.Index) else np.asarray(groups)
     if labels.ndim != 1 or len(labels) != n:
         raise fail(
-            f"groups must be one label per income ({n}), got shape {np.shape(labels)}" + ".",
-            "pass one group label for each record" + ".",
+            f"groups must be one label per income ({n}), got shape {np.shape(labels)}.",
+            "pass one group label for each record.",
             column="group",
         )
     codes, uniques = pd.factorize(labels, sort=True)
     if (codes < 0).any():
         raise fail(
-            f"group label missing in {_positions(codes < 0)}" + ".",
-            "fill in the group (district) of every record" + ".",
+            f"group label missing in {_positions(codes < 0)}.",
+            "fill in the group (district) of every record.",
             column="group",
         )
     return codes.astype(np.int64), np.asarray(uniques)
 
 
-def sort_units(values, weights=None, groups=None) -> SortedUnits:
+def _checked_units(values: ArrayLike, weights: ArrayLike | None) -> tuple[np.ndarray, np.ndarray]:
+    """Incomes and weights as float arrays, every bad record named in one error."""
+    income = _as_float(values, "income")
+    n = len(income)
+    weight = np.ones(n) if weights is None else _as_float(weights, "weight")
+    if len(weight) != n:
+        raise fail(
+            f"weight has {len(weight)} entries but income has {n}.",
+            "give one weight per income, or none.",
+            column="weight",
+        )
+    checks = (
+        (
+            ~np.isfinite(income),
+            "income",
+            "income is missing or not finite",
+            "fill in or drop those records.",
+        ),
+        (
+            ~np.isfinite(weight) | (weight < 0),
+            "weight",
+            "weight is negative, missing or not finite",
+            "weights are population counts or shares: use finite numbers >= 0.",
+        ),
+    )
+    problems = [
+        Problem(f"{what} in {_positions(bad)}.", fix, column=column)
+        for bad, column, what, fix in checks
+        if bad.any()
+    ]
+    if problems:
+        raise DataError(problems)
+    return income, weight
+
+
+def sort_units(
+    values: ArrayLike,
+    weights: ArrayLike | None = None,
+    groups: ArrayLike | pd.DataFrame | None = None,
+) -> SortedUnits:
     """Sort units by (group, income) with one ``np.lexsort``.
 
     Parameters
@@ -270,36 +320,8 @@ def sort_units(values, weights=None, groups=None) -> SortedUnits:
         For non-numeric or non-finite incomes, negative or non-finite weights, missing
         group labels, or inputs of different lengths. The inputs are never modified.
     """
-    income = _as_float(values, "income")
+    income, weight = _checked_units(values, weights)
     n = len(income)
-    weight = np.ones(n) if weights is None else _as_float(weights, "weight")
-    if len(weight) != n:
-        raise fail(
-            f"weight has {len(weight)} entries but income has {n}" + ".",
-            "give one weight per income, or none" + ".",
-            column="weight",
-        )
-    problems = []
-    bad = ~np.isfinite(income)
-    if bad.any():
-        problems.append(
-            Problem(
-                f"income is missing or not finite in {_positions(bad)}" + ".",
-                "fill in or drop those records" + ".",
-                column="income",
-            )
-        )
-    bad = ~np.isfinite(weight) | (weight < 0)
-    if bad.any():
-        problems.append(
-            Problem(
-                f"weight is negative, missing or not finite in {_positions(bad)}" + ".",
-                "weights are population counts or shares: use finite numbers >= 0" + ".",
-                column="weight",
-            )
-        )
-    if problems:
-        raise DataError(problems)
     if groups is None:
         codes, labels = np.zeros(n, dtype=np.int64), np.array(["(all)"], dtype=object)
         if n == 0:
@@ -331,6 +353,9 @@ def sort_units(values, weights=None, groups=None) -> SortedUnits:
 # The engine. Weights are (R, n): one row per weighting of the same sorted units (R = 1
 # for the point estimate, R replicates in the bootstrap); group results are (R, G).
 # Units run along the last, contiguous axis so segment reductions stream through memory.
+
+
+_ROUNDING = 8 * np.finfo(float).eps  # population shares closer than this to p count as p
 
 
 def _segment_sum(x: np.ndarray, starts: np.ndarray) -> np.ndarray:
@@ -451,7 +476,10 @@ class _Engine:
             with np.errstate(invalid="ignore", divide="ignore"):
                 # Cumulative population share at the top of each unit's stretch.
                 self._cache["P"] = self.cumulative() / self.W[:, self.codes]
-        below = self._cache["P"] < p  # the units wholly below p
+        # The units wholly below p. A unit whose top lies within rounding of p reaches p:
+        # otherwise a stretch of rounding size (p W - c ~ 1e-17 W) would take the next
+        # unit's income, and a bottom share that is exactly 0 would come out ~1e-17.
+        below = self._cache["P"] < p - _ROUNDING
         # Weight and income below p as direct sums (no differences of running totals);
         # the stretch of the first unit reaching p adds income at that unit's level.
         w_below = self.w * below
@@ -724,7 +752,10 @@ def compute(
 
 
 def weighted(
-    values, weights, groups, indices: Sequence[str] | str = STANDARD_INDICES
+    values: ArrayLike,
+    weights: ArrayLike | None,
+    groups: ArrayLike | pd.DataFrame | None,
+    indices: Sequence[str] | str = STANDARD_INDICES,
 ) -> pd.DataFrame:
     """Sort and compute in one call; a tidy table.
 

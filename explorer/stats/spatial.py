@@ -304,6 +304,23 @@ def moran(
     ``permutations`` random relabellings drawn at once (``numpy.random.default_rng(seed)``).
     ``z`` uses E[I] = -1/(n - 1) and the variance under randomisation.
 
+    Parameters
+    ----------
+    values : array_like, shape (n,)
+        One value per district, in the graph's order.
+    graph : NeighbourGraph
+        Who neighbours whom.
+    permutations : int
+        Random relabellings for the p-value.
+    seed : int
+        Seed of ``numpy.random.default_rng``.
+    row_standardise : bool
+        Divide each district's neighbour weights by their sum.
+
+    Returns
+    -------
+    MoranResult
+
     References
     ----------
     Cliff, A. D. & Ord, J. K. (1981). *Spatial Processes: Models and Applications*. Pion.
@@ -378,6 +395,17 @@ def local_moran(
     the neighbours' mean deviation; the rest are "not significant". Permutation draws are
     shared across districts (one set of draws per chunk), each district's test stays exact.
 
+    Parameters
+    ----------
+    values, graph, permutations, seed
+        As for :func:`moran`.
+    alpha : float
+        Pseudo p-value at or below which a district is labelled a cluster.
+
+    Returns
+    -------
+    LocalMoran
+
     References
     ----------
     Anselin, L. (1995). Local indicators of spatial association - LISA. *Geographical
@@ -397,6 +425,34 @@ def local_moran(
         )
     lag = _row_standardised(matrix) @ z
     local_i = z * lag / m2
+    p_value = _local_p_values(z, local_i, degree, m2, permutations, seed)
+    significant = p_value <= alpha
+    quadrant = np.select(
+        [(z > 0) & (lag > 0), (z < 0) & (lag < 0), (z > 0) & (lag < 0), (z < 0) & (lag > 0)],
+        list(CLUSTERS[:4]),
+        default=CLUSTERS[4],
+    )
+    cluster = np.where(significant, quadrant, CLUSTERS[4]).astype(object)
+    return LocalMoran(
+        local_i=np.where(degree > 0, local_i, np.nan),
+        p_value=p_value,
+        lag=lag,
+        cluster=cluster,
+        alpha=alpha,
+        permutations=permutations,
+    )
+
+
+def _local_p_values(
+    z: np.ndarray,
+    local_i: np.ndarray,
+    degree: np.ndarray,
+    m2: float,
+    permutations: int,
+    seed: int,
+) -> np.ndarray:
+    """Conditional-permutation pseudo p-values of every district's I_i (NaN without neighbours)."""
+    n = z.size
     p_value = np.full(n, np.nan)
     kmax = int(degree.max()) if n else 0
     if permutations and kmax:
@@ -418,21 +474,7 @@ def local_moran(
             below = np.count_nonzero(sims <= local_i[sites, None] + 1e-15, axis=1)
             p = np.minimum(1.0, 2.0 * (np.minimum(above, below) + 1) / (permutations + 1))
             p_value[sites] = np.where(k > 0, p, np.nan)
-    significant = p_value <= alpha
-    quadrant = np.select(
-        [(z > 0) & (lag > 0), (z < 0) & (lag < 0), (z > 0) & (lag < 0), (z < 0) & (lag > 0)],
-        list(CLUSTERS[:4]),
-        default=CLUSTERS[4],
-    )
-    cluster = np.where(significant, quadrant, CLUSTERS[4]).astype(object)
-    return LocalMoran(
-        local_i=np.where(degree > 0, local_i, np.nan),
-        p_value=p_value,
-        lag=lag,
-        cluster=cluster,
-        alpha=alpha,
-        permutations=permutations,
-    )
+    return p_value
 
 
 # --------------------------------------------------------------------------------------------
@@ -467,6 +509,15 @@ def spatial_gini(
     sum to G exactly. Under positive autocorrelation neighbours are alike, so the
     non-neighbour part is large; its p-value is ``(1 + #{NN_perm >= NN}) / (permutations + 1)``
     over random relabellings of the districts (which leave G unchanged).
+
+    Parameters
+    ----------
+    values, graph, permutations, seed
+        As for :func:`moran`.
+
+    Returns
+    -------
+    SpatialGini
 
     References
     ----------
@@ -522,6 +573,15 @@ def global_stats(
 ) -> GlobalStats:
     """Moran's I (row-standardised) and the spatial Gini of one district variable.
 
+    Parameters
+    ----------
+    values, graph, permutations, seed
+        As for :func:`moran`.
+
+    Returns
+    -------
+    GlobalStats
+
     References
     ----------
     Cliff, A. D. & Ord, J. K. (1981). *Spatial Processes: Models and Applications*. Pion.
@@ -552,6 +612,18 @@ def district_table(
     alpha: float = 0.05,
 ) -> pd.DataFrame:
     """Local Moran per district: ``region, value, local_i, p_value, cluster``.
+
+    Parameters
+    ----------
+    values, graph, permutations, seed
+        As for :func:`moran`.
+    alpha : float
+        As for :func:`local_moran`.
+
+    Returns
+    -------
+    DataFrame
+        One row per district of the graph.
 
     References
     ----------

@@ -15,6 +15,7 @@ from hypothesis import strategies as st
 from scipy import integrate, interpolate, special, stats
 
 from explorer.stats import lorenz
+from explorer.stats.lorenz.parametric import _lstsq_rows
 
 # quad warns of roundoff at the kinks of piecewise curves; every tolerance asserted below is
 # far looser than the error it then achieves
@@ -589,7 +590,7 @@ def test_auto_ties_go_to_the_earlier_method():
 
 def test_auto_falls_back_to_pchip_then_linear(monkeypatch):
     """With every parametric candidate invalid, auto uses pchip if valid, else linear."""
-    monkeypatch.setattr(lorenz, "AUTO_ORDER", ("gq", "quadratic"))
+    monkeypatch.setattr(lorenz.batch, "AUTO_ORDER", ("gq", "quadratic"))
     P, L = pareto_points(10, 1.5)  # GQ invalid (a + c < 1), quadratic a > 1, pchip not convex
     Pp, Lp = np.linspace(0, 1, 11)[None, :], np.linspace(0, 1, 11)[None, :] ** 6
     auto = lorenz.fit_points(np.vstack([P, Pp]), np.vstack([L, Lp]), "auto")
@@ -743,7 +744,7 @@ def test_batched_least_squares_equals_exact_rational_least_squares(shared):
     cols = [np.ascontiguousarray(X[:, :, j].T) for j in range(3)]
     if shared:
         cols = [c[:, :1] for c in cols]
-    got, ok = lorenz._lstsq_rows(cols, np.ascontiguousarray(y.T))
+    got, ok = _lstsq_rows(cols, np.ascontiguousarray(y.T))
     assert ok.all()
     for row in range(n):
         np.testing.assert_allclose(got[row], _exact_lstsq(X[row], y[row]), rtol=1e-13, atol=1e-14)
@@ -754,7 +755,7 @@ def test_batched_least_squares_flags_a_rank_deficient_design():
     X = np.random.default_rng(2).uniform(size=(2, 6, 3))
     X[1, :, 2] = X[1, :, 1]
     cols = [np.ascontiguousarray(X[:, :, j].T) for j in range(3)]
-    got, ok = lorenz._lstsq_rows(cols, np.ones((6, 2)))
+    got, ok = _lstsq_rows(cols, np.ones((6, 2)))
     assert ok.tolist() == [True, False]
     assert np.isnan(got[1]).all() and np.isfinite(got[0]).all()
 

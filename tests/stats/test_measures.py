@@ -417,6 +417,18 @@ def test_every_index_is_invariant_to_population_replication(units, copies, weigh
     assert_same(base, values_of(ys, ws * weight_scale))
 
 
+def test_a_bottom_share_of_exactly_zero_stays_zero_under_tiny_weights():
+    """Population principle (Cowell 2011, *Measuring Inequality*, ch. 3): two of five equal
+    shares at zero income give a bottom-40% share of exactly 0 (derived by hand), whatever
+    the scale of the weights; rounding of the cumulative weights must not turn it into
+    ~1e-17 and so a Palma ratio of ~1e15."""
+    ys = np.array([0.0, 0.0, 1.0, 1.0, 1.0])
+    for scale in (1.0, 1e-9, 1e-12):
+        v = values_of(ys, np.full(5, 0.05 * scale))
+        assert v["bottom40_share"][0] == 0.0
+        assert np.isnan(v["palma"][0])
+
+
 @given(weighted_units(incomes_with_zeros), st.data())
 @settings(max_examples=80, deadline=None)
 def test_integer_weights_equal_integer_replication(units, data):
