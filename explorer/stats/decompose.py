@@ -37,6 +37,8 @@ __all__ = [
     "table",
 ]
 
+DECOMPOSABLE = ("theil_t", "mld", "ge_2", "gini")
+
 ALL = "(all)"
 
 # Percentiles, with the top percentile cut ten times finer: the top cell carries most of the
