@@ -26,7 +26,11 @@ RANK_COLUMNS = ["rank", "name", "region", "county", "value", "lower", "upper", "
 
 @dataclass(frozen=True)
 class AtlasFigures:
-    """Everything the Atlas page shows for one view (``layer`` empty: nothing to show)."""
+    """Everything the Atlas page shows for one view (``layer`` empty: nothing to show).
+
+    ``notices`` are warnings the page shows above the map (districts without a figure, or
+    without a value for the cluster layer, by name).
+    """
 
     layer: pd.DataFrame
     classification: charts.Classification | None
@@ -41,6 +45,8 @@ class AtlasFigures:
     ranking_caution: str
     headline: tuple[tuple[str, str], ...]
     wide_count: int
+    #: Said in passing (not a warning): e.g. districts listed because there is no map.
+    remark: str = ""
 
     @property
     def empty(self) -> bool:
@@ -164,10 +170,9 @@ def atlas(
     if not mark_wide:
         values = values.assign(wide=False)
     chart = features = found = None
+    remark = ""
     if panel.boundaries is None:
-        notices.append(
-            "This dataset has no boundary file, so the districts are listed instead of mapped."
-        )
+        remark = "This dataset has no boundary file, so the districts are listed instead of mapped."
     else:
         features = compute.map_features(values[_MAP_COLUMNS])
         if layer == "clusters":
@@ -185,5 +190,6 @@ def atlas(
         clusters=found,
         ranking=ranked,
         headline=_headline(ranked, money),
+        remark=remark,
         **common,
     )

@@ -5,6 +5,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Any
 
+import altair as alt
 import pandas as pd
 
 from explorer.data.model import Panel
@@ -30,6 +31,21 @@ class BreakdownFigures:
     shares: pd.DataFrame
     chart: Any
     note: str
+    #: The chart as the page shows it: parts and groups in planner words, panels fitted.
+    shown_chart: Any = None
+
+    def share_metrics(self) -> tuple[tuple[str, str, str], ...]:
+        """(part, share of the total, help) of each part in the view's year, as metrics."""
+        label = vocabulary.index_label(self.index)
+        rows = self.shares.assign(share=vocabulary.tidy_zero(self.shares["share"]))
+        return tuple(
+            (
+                vocabulary.part_label(row.component, row.level),
+                f"{float(row.share):.1%}",
+                f"{vocabulary.figure(row.value, digits=4)} of the province's {label}",
+            )
+            for row in rows.itertuples(index=False)
+        )
 
 
 @dataclass(frozen=True)
@@ -41,6 +57,21 @@ class ChangeFigures:
     chart: Any
     notice: str
     note: str
+    #: Term key -> planner words, naming the groups when there is one level of them.
+    term_words: dict[str, str]
+    shown_chart: Any = None
+
+    def term_help(self) -> str:
+        """The sentence under the change chart: what each term means."""
+        return (
+            "Terms of the change (Mookherjee & Shorrocks 1982): "
+            + "; ".join(
+                f"**{words}**: {vocabulary.CHANGE_TERM_HELP[key]}"
+                for key, words in self.term_words.items()
+                if key in vocabulary.CHANGE_TERM_HELP
+            )
+            + "."
+        )
 
 
 def breakdown(panel: Panel, view: ViewState, compute: Compute) -> BreakdownFigures:
@@ -71,7 +102,14 @@ def breakdown(panel: Panel, view: ViewState, compute: Compute) -> BreakdownFigur
         )
     )
     shares = share_table(by_level, view.year)
-    return BreakdownFigures(index, levels, parts, by_level, shares, chart, note)
+    shown = charts.relabel_chart(chart, "component", vocabulary.PART_WORDS)
+    shown = charts.relabel_chart(
+        shown,
+        "groups",
+        {g: vocabulary.groups_word(g).capitalize() for g in (*levels, "district", "districts")},
+    )
+    shown = charts.fit_facets(shown, panels=by_level["level"].nunique())
+    return BreakdownFigures(index, levels, parts, by_level, shares, chart, note, shown)
 
 
 def change(panel: Panel, view: ViewState, compute: Compute, index: str) -> ChangeFigures | None:
@@ -93,4 +131,15 @@ def change(panel: Panel, view: ViewState, compute: Compute, index: str) -> Chang
         f"Change of {vocabulary.index_label(chosen)} split after Mookherjee & Shorrocks "
         "(1982); the residual is the part the approximation leaves."
     )
-    return ChangeFigures(chosen, terms, charts.change_bars(folded), notice, note)
+    term_words = {
+        key: vocabulary.part_label(key, inner[0] if len(inner) == 1 else "")
+        for key in dict.fromkeys(terms["component"])
+    }
+    term_words["total"] = "Total change"
+    bars = charts.change_bars(folded)
+    shown = charts.relabel_chart(bars, "component", term_words)
+    try:
+        shown.encoding.y.axis = alt.Axis(labelLimit=320)
+    except AttributeError:
+        pass
+    return ChangeFigures(chosen, terms, bars, notice, note, term_words, shown)

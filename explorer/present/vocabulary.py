@@ -20,16 +20,21 @@ __all__ = [
     "AXIS_LABELS",
     "BREAKDOWN_FIELD",
     "CAPTION_CHARS",
+    "CHANGE_COLUMNS",
     "CHANGE_TERM_HELP",
     "CLASS_LABELS",
     "COLUMN_LABELS",
     "DECOMPOSABLE",
     "DEMO_DATASETS",
+    "FIT_COLUMNS",
+    "INDEX_COLUMNS",
     "INDEX_LABELS",
     "INTERVAL_FIELD",
     "LORENZ_METHODS",
     "METHOD_LABELS",
     "PAGES",
+    "PART_COLUMNS",
+    "PART_TEXT",
     "PART_WORDS",
     "WIDE_SHARE",
     "Page",
@@ -196,6 +201,27 @@ COLUMN_LABELS = {
 }
 
 
+#: Column titles of the Lorenz fit diagnostics on the District sheet.
+FIT_COLUMNS = {
+    "method": "Curve asked for",
+    "used": "Curve used",
+    "valid": "Usable",
+    "max_error": "Largest gap to a published point",
+    "sse": "Sum of squared gaps",
+    "reason": "Why not usable",
+}
+
+#: Column titles of the index table on the District sheet (after ``COLUMN_LABELS``).
+INDEX_COLUMNS = {
+    "Index": "Index",
+    "Value": "Value",
+    "Lower bound": "Lower bound",
+    "Upper bound": "Upper bound",
+    "Method": "Curve or data",
+    "Note": "Note",
+}
+
+
 def ranking_title(kind: str) -> str:
     """The heading of a district ranking: what rank 1 means for this kind of data."""
     if kind == "means":
@@ -223,6 +249,29 @@ PART_WORDS = {
     "within": "Within groups",
     "between": "Between groups",
     "overlap": "Overlap of groups (Gini)",
+}
+
+#: Column titles of a decomposition table (the change table renames three of them).
+PART_COLUMNS = {
+    "year": "Year",
+    "level": "Groups",
+    "group": "Group",
+    "component": "Part",
+    "value": "Value",
+    "share": "Share of the total",
+}
+CHANGE_COLUMNS = {
+    **PART_COLUMNS,
+    "year": "Years",
+    "component": "Term",
+    "share": "Share of the change",
+}
+
+#: Column -> the words a decomposition table shows for a row (its data keep the keys).
+PART_TEXT = {
+    "level": lambda row: groups_word(row["level"]).capitalize(),
+    "group": lambda row: "All" if row["group"] == "(all)" else row["group"],
+    "component": lambda row: part_label(row["component"], row["level"]),
 }
 
 CHANGE_TERM_HELP = {
