@@ -69,6 +69,12 @@ def cluster_layer(
 ) -> ClusterLayer:
     """Local Moran clusters of ``values`` (indexed by region), gaps drawn as no value."""
     values = values.set_axis(values.index.astype(str)).astype(float)
+    if panel.boundaries is not None:
+        # Every mapped district of the panel gets a cluster, those without a row as well
+        # (a district-year set aside has no row in the index table).
+        known = set(map(str, panel.regions))
+        mapped = [r for r in panel.boundaries["region"].astype(str) if r in known]
+        values = values.reindex(list(dict.fromkeys([*values.index, *mapped])))
     finite = values[np.isfinite(values.to_numpy())]
     if panel.boundaries is not None:
         finite = finite[finite.index.isin(panel.boundaries["region"].astype(str))]
