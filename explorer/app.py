@@ -14,6 +14,8 @@ from explorer.data.model import DataError
 from explorer.present.vocabulary import PAGES
 from explorer.ui import show, state
 
+__all__ = ["main"]
+
 
 def main() -> None:
     """Draw the sidebar and run the chosen page, never showing a traceback."""

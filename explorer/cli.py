@@ -18,6 +18,9 @@ from pathlib import Path
 import pandas as pd
 
 from explorer.data.model import DataError, Problem
+from explorer.present import vocabulary
+
+__all__ = ["COMMANDS", "EXIT_BAD_INPUT", "EXIT_FAILED", "EXIT_OK", "build_parser", "main"]
 
 EXIT_OK = 0
 EXIT_FAILED = 1
@@ -105,8 +108,8 @@ def build_parser() -> argparse.ArgumentParser:
     compute.add_argument(
         "--method",
         default="auto",
-        help="Lorenz method(s) for grouped data, comma-separated: linear, upper, pchip, gq, "
-        "beta, quadratic, lognormal, auto (default auto)",
+        help="Lorenz method(s) for grouped data, comma-separated: "
+        f"{', '.join(vocabulary.LORENZ_METHODS)} (default auto)",
     )
     compute.add_argument(
         "--indices", help="comma-separated index keys, e.g. gini,theil_t,atkinson_1,palma"

@@ -16,6 +16,18 @@ from explorer.data.model import DataError
 from explorer.present import vocabulary
 from explorer.ui import data, show, state
 
+__all__ = [
+    "apply_view_file",
+    "read_upload",
+    "reading_options",
+    "report_html",
+    "results_out",
+    "stored_datasets",
+    "summary",
+    "summary_text",
+    "view_json",
+]
+
 KINDS = {
     "": "Detect from the columns",
     "brackets": "Income shares by population group",

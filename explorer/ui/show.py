@@ -31,22 +31,10 @@ __all__ = [
 
 LOG = logging.getLogger("rift")
 
-_FALLBACK_CAUTIONS = (
-    "Indices from grouped shares are approximations: read them with their bounds.",
-    "Compare districts only when they use the same income concept and the same unit "
-    "(person or household).",
-    "Small samples make district figures noisy: look at the intervals.",
-    "An index alone should not decide an allocation of funds: follow the office's own "
-    "rules and the statistics law.",
-)
-
-
 def caution_texts(panel: Any, *, ranking: bool = False, wide_intervals: int = 0) -> list[str]:
     """The cautions that apply to what is shown (from explorer.present.cautions)."""
-    try:
-        from explorer.present import cautions as caution_rules
-    except ImportError:
-        return list(_FALLBACK_CAUTIONS)
+    from explorer.present import cautions as caution_rules
+
     return list(
         caution_rules.for_view(
             panel.kind,
