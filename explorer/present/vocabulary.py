@@ -92,26 +92,25 @@ AXIS_LABELS: dict[str, str] = {
 DECOMPOSABLE: tuple[str, ...] = tuple(decompose.DECOMPOSABLE)
 
 
+def _family_label(key: str, named: dict[str, str], ge_unit: str = "", atk_unit: str = "") -> str:
+    """A named key's label, or one built for any member of the GE or Atkinson family."""
+    if key in named:
+        return named[key]
+    if key.startswith("ge_"):
+        return f"Generalised entropy GE({key[3:]}){ge_unit}"
+    if key.startswith("atkinson_"):
+        return f"Atkinson (ε = {key[9:]}){atk_unit}"
+    return key
+
+
 def index_label(key: str) -> str:
     """A planner's name for an index key."""
-    if key in INDEX_LABELS:
-        return INDEX_LABELS[key]
-    if key.startswith("ge_"):
-        return f"Generalised entropy GE({key[3:]})"
-    if key.startswith("atkinson_"):
-        return f"Atkinson (ε = {key[9:]})"
-    return key
+    return _family_label(key, INDEX_LABELS)
 
 
 def axis_label(key: str) -> str:
     """Plain-language axis title, with units, for an index key (``gini``, ``ge_2``, ...)."""
-    if key in AXIS_LABELS:
-        return AXIS_LABELS[key]
-    if key.startswith("ge_"):
-        return f"Generalised entropy GE({key[3:]}) (0 = equal)"
-    if key.startswith("atkinson_"):
-        return f"Atkinson (ε = {key[9:]}) (0–1)"
-    return key
+    return _family_label(key, AXIS_LABELS, " (0 = equal)", " (0–1)")
 
 
 # --- Lorenz methods --------------------------------------------------------------------------

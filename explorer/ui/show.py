@@ -31,6 +31,7 @@ __all__ = [
 
 LOG = logging.getLogger("rift")
 
+
 def caution_texts(panel: Any, *, ranking: bool = False, wide_intervals: int = 0) -> list[str]:
     """The cautions that apply to what is shown (from explorer.present.cautions)."""
     from explorer.present import cautions as caution_rules
