@@ -11,20 +11,21 @@ import streamlit as st
 
 from explorer import ui
 from explorer.data.model import DataError
-from explorer.ui import layout, show, state
+from explorer.present.vocabulary import PAGES
+from explorer.ui import show, state
+
+__all__ = ["main"]
 
 
 def main() -> None:
     """Draw the sidebar and run the chosen page, never showing a traceback."""
     st.set_page_config(page_title="Rift", page_icon=":material/landscape:", layout="wide")
     pages = {
-        name: st.Page(layout.page_path(name), title=title, icon=icon, url_path=name)
-        for name, (_, title, icon) in layout.PAGE_FILES.items()
+        name: st.Page(state.page_path(name), title=page.title, icon=page.icon, url_path=name)
+        for name, page in PAGES.items()
     }
     current = st.navigation(list(pages.values()))
-    page_name = next(
-        name for name, (_, title, _) in layout.PAGE_FILES.items() if title == current.title
-    )
+    page_name = next(name for name, page in PAGES.items() if page.title == current.title)
     try:
         catalog = ui.catalog()
         state.start(catalog)
@@ -44,7 +45,7 @@ def main() -> None:
     # Callbacks have already updated the view before this run: publish it now, so a page
     # that stops early still leaves the address bar pointing at what is on screen.
     ui.publish()
-    with ui.guard(layout.PAGE_FILES[page_name][1]):
+    with ui.guard(PAGES[page_name].title):
         current.run()
 
 

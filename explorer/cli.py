@@ -18,6 +18,9 @@ from pathlib import Path
 import pandas as pd
 
 from explorer.data.model import DataError, Problem
+from explorer.present import vocabulary
+
+__all__ = ["COMMANDS", "EXIT_BAD_INPUT", "EXIT_FAILED", "EXIT_OK", "build_parser", "main"]
 
 EXIT_OK = 0
 EXIT_FAILED = 1
@@ -105,8 +108,8 @@ def build_parser() -> argparse.ArgumentParser:
     compute.add_argument(
         "--method",
         default="auto",
-        help="Lorenz method(s) for grouped data, comma-separated: linear, upper, pchip, gq, "
-        "beta, quadratic, lognormal, auto (default auto)",
+        help="Lorenz method(s) for grouped data, comma-separated: "
+        f"{', '.join(vocabulary.LORENZ_METHODS)} (default auto)",
     )
     compute.add_argument(
         "--indices", help="comma-separated index keys, e.g. gini,theil_t,atkinson_1,palma"
@@ -347,25 +350,26 @@ def run_compute(args: argparse.Namespace) -> int:
 
 
 def run_decompose(args: argparse.Namespace) -> int:
-    from explorer.stats import decompose
+    from explorer.figures import PlainCompute
 
     panel = _load(args)
+    compute = PlainCompute(panel)
     by = tuple(_split(args.by)) or tuple(panel.levels)
     if (args.year_from is None) != (args.year_to is None):
         raise DataError([Problem("--from and --to go together", fix="give both years, or neither")])
     if args.year_from is not None:
-        table = decompose.change(panel, by, args.index, args.year_from, args.year_to)
+        table = compute.change(by, args.index, args.year_from, args.year_to)
     else:
-        table = decompose.table(panel, by=by, index=args.index, method=args.method)
+        table = compute.breakdown(by, args.index, args.method)
     _write(table, args.out, args)
     return EXIT_OK
 
 
 def run_spatial(args: argparse.Namespace) -> int:
-    from explorer import spatial_view
+    from explorer import figures
 
     panel = _load(args)
-    result = spatial_view.for_panel(
+    result = figures.for_panel(
         panel,
         index=args.index,
         year=args.year,
@@ -382,7 +386,7 @@ def run_spatial(args: argparse.Namespace) -> int:
 
 
 def run_report(args: argparse.Namespace) -> int:
-    from explorer import briefing, views
+    from explorer import figures, views
 
     view_path = Path(args.view)
     try:
@@ -411,7 +415,7 @@ def run_report(args: argparse.Namespace) -> int:
                 )
             ]
         )
-    html = briefing.report_for_view(view, data_dir=args.data)
+    html = figures.report_for_view(view, data_dir=args.data)
     out.parent.mkdir(parents=True, exist_ok=True)
     temporary = out.with_name(f".{out.name}.part")
     temporary.write_text(html, encoding="utf-8")

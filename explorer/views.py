@@ -40,6 +40,8 @@ from dataclasses import asdict, dataclass, field, fields, replace
 from typing import Any
 from urllib.parse import quote, unquote, urlencode
 
+from explorer.present import vocabulary
+
 __all__ = [
     "CLASS_SCHEMES",
     "DECOMPOSABLE",
@@ -55,14 +57,8 @@ __all__ = [
 ]
 
 #: Page keys and the names the app shows.
-PAGES = {
-    "atlas": "Atlas",
-    "timelines": "Timelines",
-    "breakdown": "Breakdown",
-    "district": "District sheet",
-    "intake": "Intake",
-}
-LORENZ_METHODS = ("linear", "upper", "pchip", "gq", "beta", "quadratic", "lognormal", "auto")
+PAGES = {key: page.title for key, page in vocabulary.PAGES.items()}
+LORENZ_METHODS = vocabulary.LORENZ_METHODS
 CLASS_SCHEMES = ("quantiles", "equal", "breaks")
 VIEW_FILE_VERSION = 1
 MAX_VIEW_FILE_BYTES = 1_000_000
@@ -86,7 +82,7 @@ _INDEX_RE = re.compile(
 )
 #: Indices the Breakdown page can split exactly (GE family; the Gini with its overlap).
 _DECOMPOSABLE_RE = re.compile(r"(?:gini|theil_t|mld|ge_-?\d{1,2}(?:\.\d{1,3})?)")
-DECOMPOSABLE = ("theil_t", "mld", "gini")
+DECOMPOSABLE = vocabulary.DECOMPOSABLE
 _DATASET_RE = re.compile(r"[A-Za-z0-9][A-Za-z0-9_.-]{0,63}")
 _YEAR_RE = re.compile(r"\d{4}")
 

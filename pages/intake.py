@@ -6,8 +6,8 @@ from explorer import ui
 from explorer.data.model import DataError
 from explorer.ui import intake
 
-here = ui.here()
-view, panel = here.view, here.panel
+opened = ui.open_view()
+view, panel = opened.view, opened.panel
 st.title("Intake")
 
 upload_tab, stored_tab, out_tab = st.tabs(
@@ -49,4 +49,4 @@ with stored_tab:
     intake.stored_datasets()
 
 with out_tab:
-    intake.results_out(here)
+    intake.results_out(opened)

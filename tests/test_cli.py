@@ -165,9 +165,9 @@ def test_report_of_a_saved_view_is_one_offline_file_with_the_views_figures(tmp_p
     view = views.ViewState(
         year=2020, method="linear", districts=("CAL01",), year_from=2010, year_to=2024
     )
-    view_file = tmp_path / "briefing-view.json"
+    view_file = tmp_path / "report-view.json"
     view_file.write_text(view.to_json(), encoding="utf-8")
-    out = tmp_path / "briefing.html"
+    out = tmp_path / "report.html"
     code, _, err = run(capsys, "report", str(view_file), "--out", str(out))
     assert code == 0, err
     html = out.read_text(encoding="utf-8")

@@ -27,6 +27,8 @@ import pandas as pd
 import shapely
 import vl_convert as vlc
 
+from explorer.present.vocabulary import axis_label as index_label
+
 __all__ = [
     "CLUSTER_COLOURS",
     "DIVERGING",
@@ -44,7 +46,10 @@ __all__ = [
     "interval_strip",
     "lorenz_profile",
     "payload_kb",
+    "fit_facets",
+    "mean_income_over_time",
     "rank_over_time",
+    "relabel_chart",
     "to_png",
     "to_svg",
     "trajectories",
@@ -72,43 +77,13 @@ CLUSTER_COLOURS = {
     "high-low": "#E69F00",
     "low-high": "#56B4E9",
     "not significant": "#DDDDDD",
+    # Districts without a finite value this year: left out of the neighbour graph.
+    "no value": "#FFFFFF",
 }
 NO_DATA_COLOUR = "#D9D9D9"
 _VL_VERSION = "6.4"
 _COMPONENT_ORDER = ("within", "between", "overlap")
 _YEAR_X = alt.X("year:O", title="Year", axis=alt.Axis(labelAngle=0))
-
-_INDEX_LABELS = {
-    "gini": "Gini coefficient (0 = equal, 1 = one holds all)",
-    "theil_t": "Theil T (0 = equal)",
-    "mld": "Mean log deviation, Theil L (0 = equal)",
-    "cv": "Coefficient of variation (ratio)",
-    "palma": "Palma ratio (top 10 % ÷ bottom 40 %)",
-    "s80_s20": "S80/S20 ratio (top 20 % ÷ bottom 20 %)",
-    "top10_share": "Income share of the top 10 % (0–1)",
-    "bottom40_share": "Income share of the bottom 40 % (0–1)",
-}
-
-
-def index_label(index: str) -> str:
-    """Plain-language axis title, with units, for an index key.
-
-    Parameters
-    ----------
-    index : str
-        An index key of the index table (``gini``, ``ge_2``, ``atkinson_0.5``, ...).
-
-    Returns
-    -------
-    str
-    """
-    if index in _INDEX_LABELS:
-        return _INDEX_LABELS[index]
-    if index.startswith("ge_"):
-        return f"Generalised entropy GE({index[3:]}) (0 = equal)"
-    if index.startswith("atkinson_"):
-        return f"Atkinson (ε = {index[9:]}) (0–1)"
-    return index
 
 
 def _title(title: str, caption: str) -> alt.TitleParams:
@@ -494,7 +469,7 @@ def clusters_map(
     return (
         _geo_base(features, selected, ("region", "name", "picked"))
         .transform_calculate(
-            cluster="isValid(datum.properties.cluster) ? lower(datum.properties.cluster) : 'not significant'"
+            cluster="isValid(datum.properties.cluster) ? lower(datum.properties.cluster) : 'no value'"
         )
         .encode(
             color=alt.Color(
@@ -502,7 +477,8 @@ def clusters_map(
                 title="Local cluster",
                 scale=alt.Scale(domain=domain, range=[CLUSTER_COLOURS[d] for d in domain]),
             ),
-            stroke=alt.condition("datum.picked", alt.value("#000000"), alt.value("#ffffff")),
+            # A grey outline keeps the white "no value" districts visible.
+            stroke=alt.condition("datum.picked", alt.value("#000000"), alt.value("#999999")),
             strokeWidth=alt.condition("datum.picked", alt.value(2.5), alt.value(0.6)),
             opacity=alt.condition(pick, alt.value(1.0), alt.value(0.45)),
             tooltip=[
@@ -842,6 +818,34 @@ def change_bars(
 # --------------------------------------------------------------------------- district
 
 
+def mean_income_over_time(
+    table: pd.DataFrame, *, title: str, caption: Sequence[str] | str = ""
+) -> alt.Chart:
+    """One district's mean income by year, in whole currency units.
+
+    Parameters
+    ----------
+    table : DataFrame
+        ``year, mean_income`` rows of one district.
+    title, caption : str
+    """
+    return (
+        alt.Chart(table.assign(year=table["year"].astype(int)))
+        .mark_line(point=True)
+        .encode(
+            x=alt.X("year:O", title="Year"),
+            y=alt.Y(
+                "mean_income:Q", title="Mean income (currency units)", axis=alt.Axis(format=",.0f")
+            ),
+            tooltip=[
+                alt.Tooltip("year:O", title="Year"),
+                alt.Tooltip("mean_income:Q", title="Mean income", format=",.0f"),
+            ],
+        )
+        .properties(title=alt.TitleParams(title, subtitle=caption), height=320)
+    )
+
+
 def lorenz_profile(
     points: pd.DataFrame,
     curves: pd.DataFrame,
@@ -1099,6 +1103,68 @@ def convergence(
 
 
 # --------------------------------------------------------------------------- export
+
+
+# --------------------------------------------------------------------------- display fitting
+
+
+def fit_facets(chart: Any, *, panels: int, room: int = 820) -> Any:
+    """Narrow a faceted chart's panels so the whole chart fits the page's width.
+
+    Works on a copy; the builder's chart is left as it is.
+    """
+    inner = getattr(chart, "spec", None)
+    width = getattr(inner, "width", None)
+    if inner is None or not isinstance(width, int | float):
+        return chart
+    fitted = chart.copy(deep=True)
+    fitted.spec.width = int(min(width, max(160, room / max(panels, 1) - 70)))
+    return fitted
+
+
+def relabel_chart(chart: Any, column: str, labels: dict[str, str]) -> Any:
+    """A copy of an Altair chart whose inline data show ``labels`` instead of keys.
+
+    Sort lists and colour domains that name the keys are renamed too, so the chart's
+    colours and order stay the builder's. Returns the chart unchanged if its shape is not
+    the expected one (the chart is still right, only in the builder's words).
+    """
+    try:
+        fitted = chart.copy(deep=True)
+        data = getattr(fitted, "data", None)
+        if not isinstance(data, pd.DataFrame) or column not in data.columns:
+            return chart
+        fitted.data = data.assign(
+            **{column: data[column].map(lambda key: labels.get(str(key), key))}
+        )
+        spec = fitted.spec if hasattr(fitted, "spec") and fitted.spec is not None else fitted
+        encoding = getattr(spec, "encoding", None)
+        for channel in ("x", "y", "color", "row", "column"):
+            encoded = getattr(encoding, channel, None) if encoding is not None else None
+            _rename_lists(encoded, column, labels)
+        facet = getattr(fitted, "facet", None)
+        for channel in ("row", "column"):
+            _rename_lists(getattr(facet, channel, None), column, labels)
+        return fitted
+    except Exception:  # a display nicety: never a reason to lose the chart
+        return chart
+
+
+def _rename_lists(encoded: Any, column: str, labels: dict[str, str]) -> None:
+    settings = getattr(encoded, "_kwds", None)
+    if not isinstance(settings, dict):
+        return
+    field = settings.get("field")
+    field = field if isinstance(field, str) else settings.get("shorthand")
+    if not isinstance(field, str) or field.split(":")[0] != column:
+        return
+    sort = settings.get("sort")
+    if isinstance(sort, list):
+        encoded.sort = [labels.get(str(key), key) for key in sort]
+    scale = settings.get("scale")
+    domain = getattr(scale, "_kwds", {}).get("domain") if scale is not None else None
+    if isinstance(domain, list):
+        scale.domain = [labels.get(str(key), key) for key in domain]
 
 
 def to_svg(chart: alt.TopLevelMixin) -> str:

@@ -25,6 +25,7 @@ from explorer.stats.decomposition.pseudo_units import DEFAULT_GRID, PseudoUnits,
 
 __all__ = [
     "ALL",
+    "DECOMPOSABLE",
     "DEFAULT_GRID",
     "DagumSplit",
     "GESplit",
@@ -37,3 +38,7 @@ __all__ = [
     "pseudo_units",
     "table",
 ]
+
+#: Index keys whose within/between split is exact: the GE family (Shorrocks 1980) and the
+#: Gini with its overlap term (Dagum 1997).
+DECOMPOSABLE = ("theil_t", "mld", "ge_2", "gini")

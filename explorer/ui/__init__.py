@@ -1,36 +1,28 @@
-"""Streamlit glue shared by the pages: view binding, caching by content, cautions.
+"""Streamlit glue shared by the pages: view binding, caching by content, display helpers.
 
-Pages import this package as ``ui`` and use only what is re-exported here.
+Pages import this package as ``ui`` and use only what is re-exported here; the figures they
+draw come from :mod:`explorer.figures`, their words from :mod:`explorer.present.vocabulary`.
 """
 
-from explorer.ui.data import (
-    DEMO_DATASETS,
-    add_upload,
-    breakdown,
-    catalog,
-    change,
-    clusters,
-    district_means,
-    fits,
-    indices,
-    lorenz_curves,
-    map_features,
-    open_dataset,
-    scope_of,
-    uploads,
-    workspace,
+from explorer.ui.data import add_upload, catalog, open_dataset, scope_of, uploads, workspace
+from explorer.ui.show import (
+    cautions,
+    downloads,
+    guard,
+    moran_summary,
+    picked_region,
+    planner_table,
+    problems,
+    table,
+    table_bytes,
 )
-from explorer.ui.show import cautions, downloads, guard, problems, table, table_bytes
 from explorer.ui.state import (
-    INDEX_LABELS,
-    METHOD_LABELS,
-    Here,
+    OpenView,
     control,
     current_view,
-    here,
-    index_label,
     known,
-    method_label,
+    open_view,
+    page_path,
     panel,
     publish,
     show_notices,
@@ -38,31 +30,22 @@ from explorer.ui.state import (
 )
 
 __all__ = [
-    "Here",
-    "INDEX_LABELS",
-    "METHOD_LABELS",
-    "here",
-    "known",
-    "panel",
-    "DEMO_DATASETS",
+    "OpenView",
     "add_upload",
-    "breakdown",
     "catalog",
     "cautions",
-    "change",
-    "clusters",
     "control",
     "current_view",
-    "district_means",
     "downloads",
-    "fits",
     "guard",
-    "index_label",
-    "indices",
-    "lorenz_curves",
-    "map_features",
-    "method_label",
+    "known",
+    "moran_summary",
     "open_dataset",
+    "open_view",
+    "page_path",
+    "panel",
+    "picked_region",
+    "planner_table",
     "problems",
     "publish",
     "scope_of",

@@ -13,7 +13,20 @@ import pandas as pd
 import streamlit as st
 
 from explorer.data.model import DataError
-from explorer.ui import data, layout, show, state
+from explorer.present import vocabulary
+from explorer.ui import data, show, state
+
+__all__ = [
+    "apply_view_file",
+    "read_upload",
+    "reading_options",
+    "report_html",
+    "results_out",
+    "stored_datasets",
+    "summary",
+    "summary_text",
+    "view_json",
+]
 
 KINDS = {
     "": "Detect from the columns",
@@ -235,7 +248,7 @@ def summary_text(item: str, value: Any) -> str:
         low, high = value.get("min"), value.get("max")
         return f"{low}" if low == high else f"{low} to {high}"
     if item == "levels" and isinstance(value, dict):
-        return "; ".join(f"{n} {layout.groups_word(lv)}" for lv, n in value.items()) or "none"
+        return "; ".join(f"{n} {vocabulary.groups_word(lv)}" for lv, n in value.items()) or "none"
     if item == "boundaries" and isinstance(value, dict):
         text = f"{value.get('matched', 0)} districts matched"
         if value.get("panel_only"):
@@ -272,20 +285,20 @@ def stored_datasets() -> None:
         st.rerun()
 
 
-def results_out(here: state.Here) -> None:
+def results_out(opened: state.OpenView) -> None:
     """Downloads of the computed tables, the view file and the one-file report."""
-    view, panel = here.view, here.panel
+    view, panel, compute = opened.view, opened.panel, opened.compute
     st.markdown(
-        f"**Dataset:** {layout.dataset_name(view, panel)} "
+        f"**Dataset:** {vocabulary.dataset_name(view, panel)} "
         f"(content fingerprint `{panel.fingerprint}`, the same for the same data)"
     )
     if panel.kind != "means":
-        table = here.indices()
+        table = compute.indices(view.method)
         st.markdown("**Every index, district and year**")
         show.table_downloads(table, f"indices-{view.dataset}-{view.method}", key="out_indices")
     if panel.kind == "brackets":
         st.markdown("**Lorenz fit diagnostics**")
-        fits = here.fits((view.method,))
+        fits = compute.fits((view.method,))
         show.table_downloads(fits, f"fits-{view.dataset}-{view.method}", key="out_fits")
 
     st.markdown("**This view**")
@@ -300,7 +313,7 @@ def results_out(here: state.Here) -> None:
     )
     right.download_button(
         "Report (one HTML file)",
-        lambda: report_html(here),
+        lambda: report_html(opened),
         file_name=f"rift-report-{show.slug(view.dataset)}-{view.year}.html",
         mime="text/html",
         key="out_report",
@@ -328,14 +341,14 @@ def apply_view_file(content: bytes) -> None:
     new_view, notices = views.from_json(text, known=choices)
     st.session_state[state.VIEW] = new_view
     st.session_state[state.NOTICES] = list(notices)
-    st.switch_page(layout.page_path(getattr(new_view, "page", "atlas") or "atlas"))
+    st.switch_page(state.page_path(getattr(new_view, "page", "atlas") or "atlas"))
 
 
-def report_html(here: state.Here) -> bytes:
+def report_html(opened: state.OpenView) -> bytes:
     """The one-file HTML report of the current view (the same one ``rift report`` writes)."""
-    from explorer import briefing
+    from explorer import figures
 
-    return briefing.report_html(here.view, here.panel).encode("utf-8")
+    return figures.report_html(opened.view, opened.panel, opened.compute).encode("utf-8")
 
 
 def view_json(view: Any) -> str:

@@ -15,24 +15,27 @@ import streamlit as st
 
 from explorer.data.model import DataError
 
-LOG = logging.getLogger("rift")
+__all__ = [
+    "caution_texts",
+    "cautions",
+    "downloads",
+    "guard",
+    "moran_summary",
+    "picked_region",
+    "planner_table",
+    "problem_table",
+    "problems",
+    "table",
+    "table_bytes",
+]
 
-_FALLBACK_CAUTIONS = (
-    "Indices from grouped shares are approximations: read them with their bounds.",
-    "Compare districts only when they use the same income concept and the same unit "
-    "(person or household).",
-    "Small samples make district figures noisy: look at the intervals.",
-    "An index alone should not decide an allocation of funds: follow the office's own "
-    "rules and the statistics law.",
-)
+LOG = logging.getLogger("rift")
 
 
 def caution_texts(panel: Any, *, ranking: bool = False, wide_intervals: int = 0) -> list[str]:
     """The cautions that apply to what is shown (from explorer.present.cautions)."""
-    try:
-        from explorer.present import cautions as caution_rules
-    except ImportError:
-        return list(_FALLBACK_CAUTIONS)
+    from explorer.present import cautions as caution_rules
+
     return list(
         caution_rules.for_view(
             panel.kind,
@@ -206,3 +209,67 @@ def downloads(
             chart_downloads(chart, name, key=key)
         if features is not None:
             geojson_download(features, name, key=key)
+
+
+def picked_region(event: Any) -> str | None:
+    """The district id clicked on a map, from the chart's selection event."""
+    try:
+        chosen = event.selection.get("pick") or []
+    except AttributeError:
+        return None
+    for item in chosen:
+        for key in ("region", "properties\\.region", "properties.region"):
+            if isinstance(item, dict) and item.get(key):
+                return str(item[key])
+    return None
+
+
+def moran_summary(overall: Any) -> None:
+    """The global Moran's I with its permutation p-value, as metrics."""
+    from explorer.figures.spatial import moran_metrics
+
+    for column, (label, value, help_text) in zip(
+        st.columns(3), moran_metrics(overall), strict=True
+    ):
+        column.metric(label, value, help=help_text)
+    islands = getattr(overall, "islands", ())
+    if islands is not None and len(islands):
+        st.caption(
+            f"{len(islands)} district(s) touch no other and were linked to their nearest neighbour."
+        )
+
+
+def planner_table(
+    frame: pd.DataFrame,
+    titles: dict[str, str],
+    *,
+    words: dict[str, Any] | None = None,
+    formats: dict[str, str] | None = None,
+) -> tuple[pd.DataFrame, dict[str, Any]]:
+    """A table shown with planner words while its data keep their keys.
+
+    ``titles`` names the columns to show (in order) and their headings; a column in
+    ``words`` is shown through a text column made by that function (row -> text), so the
+    data (and every test or download built on them) keep the short keys. Returns the frame
+    and the keyword arguments for ``ui.table``.
+    """
+    words = words or {}
+    formats = formats or {}
+    out = frame.reset_index(drop=True).copy()
+    config: dict[str, Any] = {}
+    order: list[str] = []
+    for column, title in titles.items():
+        if column in words:
+            shown = f"{column} (shown)"
+            out[shown] = [str(words[column](row)) for row in out.to_dict("records")]
+            config[shown] = st.column_config.TextColumn(title)
+            order.append(shown)
+        elif column in out.columns:
+            if pd.api.types.is_float_dtype(out[column]):
+                config[column] = st.column_config.NumberColumn(
+                    title, format=formats.get(column, "%.4f")
+                )
+            else:
+                config[column] = st.column_config.Column(title)
+            order.append(column)
+    return out, {"column_config": config, "column_order": order}

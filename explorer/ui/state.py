@@ -16,15 +16,33 @@ from typing import Any
 
 import streamlit as st
 
-from explorer import views
-from explorer.present.frames import (  # noqa: F401 — re-exported for the pages
+from explorer import resources, views
+from explorer.figures import settle
+from explorer.present.vocabulary import (
     DECOMPOSABLE,
     INDEX_LABELS,
     METHOD_LABELS,
+    PAGES,
     index_label,
     method_label,
 )
 from explorer.ui import data
+from explorer.ui.cache import BOOTSTRAP_KEY, CachedCompute
+
+__all__ = [
+    "OpenView",
+    "control",
+    "current_view",
+    "known",
+    "open_view",
+    "page_path",
+    "panel",
+    "publish",
+    "show_notices",
+    "sidebar",
+    "start",
+    "update",
+]
 
 VIEW = "rift_view"
 NOTICES = "rift_notices"
@@ -76,10 +94,10 @@ def start(catalog: Sequence[data.Dataset]):
         panel, opened = _open_or_demo(view.dataset, notices)
         view, more = _parse(params, known(panel, catalog))
         st.session_state[NOTICES] = list(dict.fromkeys([*notices, *more]))
-        st.session_state[VIEW] = _settle(dataclasses.replace(view, dataset=opened), panel)
+        st.session_state[VIEW] = settle(dataclasses.replace(view, dataset=opened), panel)
     view = st.session_state[VIEW]
     panel, opened = _open_or_demo(view.dataset, st.session_state.setdefault(NOTICES, []))
-    view = _settle(dataclasses.replace(view, dataset=opened), panel)
+    view = settle(dataclasses.replace(view, dataset=opened), panel)
     st.session_state[VIEW] = view
     st.session_state[PANEL] = panel
     return view, panel
@@ -107,27 +125,6 @@ def _open_or_demo(dataset_id: str, notices: list[str]) -> tuple[Any, str]:
 def _short(error: Exception) -> str:
     text = str(error).strip().splitlines()
     return text[0][:160] if text else type(error).__name__
-
-
-def _settle(view: Any, panel: Any):
-    """Make the view consistent with the panel: a year it has, districts it knows."""
-    years = [int(y) for y in panel.years]
-    changes: dict[str, Any] = {}
-    if view.year not in years:
-        changes["year"] = years[-1]
-    if view.year_from not in years:
-        changes["year_from"] = years[0]
-    if view.year_to not in years:
-        changes["year_to"] = years[-1]
-    regions = set(map(str, panel.regions))
-    kept = tuple(d for d in view.districts if d in regions)
-    if kept != tuple(view.districts):
-        changes["districts"] = kept
-    if panel.kind != "brackets" and view.method != "auto":
-        changes["method"] = "auto"
-    if view.level is not None and view.level not in panel.levels:
-        changes["level"] = None
-    return dataclasses.replace(view, **changes) if changes else view
 
 
 def current_view():
@@ -242,7 +239,7 @@ def sidebar(catalog: Sequence[data.Dataset], panel: Any) -> None:
         elif panel.kind == "units":
             st.toggle(
                 "Sampling intervals (bootstrap)",
-                key="ctl_bootstrap",
+                key=BOOTSTRAP_KEY,
                 help="Resamples the households 199 times to show how much each district's "
                 "figure could move with another sample. Takes a little while the first time.",
             )
@@ -257,68 +254,21 @@ def sidebar(catalog: Sequence[data.Dataset], panel: Any) -> None:
 
 
 @dataclasses.dataclass(frozen=True)
-class Here:
-    """What a page works on: the view, its panel and the panel's cache scope.
-
-    The methods call the cached computations with the panel's fingerprint and scope, so a
-    page never builds a cache key itself.
-    """
+class OpenView:
+    """What a page works on: the session's view, its panel, and the cached computations."""
 
     view: Any
     panel: Any
-    scope: str
-
-    @property
-    def fingerprint(self) -> str:
-        return self.panel.fingerprint
-
-    def indices(self, *, method: str | None = None, ci: str | None = None):
-        if ci is None and self.panel.kind == "units" and st.session_state.get("ctl_bootstrap"):
-            ci = "bootstrap"
-        return data.indices(
-            self.panel, self.fingerprint, self.scope, method or self.view.method, ci
-        )
-
-    def fits(self, methods: Sequence[str]):
-        return data.fits(self.panel, self.fingerprint, self.scope, tuple(methods))
-
-    def breakdown(self, by: Sequence[str], index: str):
-        return data.breakdown(
-            self.panel, self.fingerprint, self.scope, tuple(by), index, self.view.method
-        )
-
-    def change(self, by: Sequence[str], index: str, year_from: int, year_to: int):
-        return data.change(
-            self.panel, self.fingerprint, self.scope, tuple(by), index, year_from, year_to
-        )
-
-    def lorenz_curves(self, region: str, year: int, methods: Sequence[str]):
-        return data.lorenz_curves(
-            self.panel, self.fingerprint, self.scope, region, int(year), tuple(methods)
-        )
-
-    def clusters(self, values, *, permutations: int = 499):
-        return data.clusters(self.panel, self.fingerprint, self.scope, values, permutations)
-
-    def choropleth(self, values, *, value_label, classes, title, caption, selected):
-        spec = data.choropleth_spec(
-            self.panel,
-            self.fingerprint,
-            self.scope,
-            values,
-            value_label,
-            tuple(classes),
-            title,
-            caption,
-            tuple(selected),
-        )
-        return data.ChartSpec(spec)
-
-    def map_features(self, values):
-        return data.map_features(self.panel, self.fingerprint, self.scope, values)
+    compute: CachedCompute
 
 
-def here() -> Here:
-    """The view, panel and cache scope of this run."""
+def open_view() -> OpenView:
+    """The view, its panel and the cached computations on that panel, for this run."""
     view = current_view()
-    return Here(view=view, panel=panel(), scope=data.scope_of(view.dataset))
+    shown = panel()
+    return OpenView(view, shown, CachedCompute(shown, data.scope_of(view.dataset)))
+
+
+def page_path(page: str):
+    """Absolute path of a page script by its page key."""
+    return resources.pages_dir() / PAGES[page].script

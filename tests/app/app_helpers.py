@@ -52,3 +52,25 @@ def _walk(node):
     for child in getattr(node, "children", {}).values():
         yield child
         yield from _walk(child)
+
+
+def save_demo_with_a_gap(folder: Path, region: str, year: int) -> str:
+    """Save the demo deciles with one district-year broken (its shares sum to about 1.35)
+    into the workspace at ``folder``; the app sets it aside. Returns the dataset id."""
+    import pandas as pd
+
+    from explorer.data import io
+    from explorer.data.workspace import Workspace
+
+    panel_path, boundary_path = io.demo_paths("brackets")
+    frame = pd.read_csv(panel_path)
+    hit = (frame["region"] == region) & (frame["year"] == year)
+    assert hit.sum() == 1
+    frame.loc[hit, "share_3"] = 0.4
+    folder.mkdir(parents=True, exist_ok=True)
+    path = folder.parent / "deciles-with-a-gap.csv"
+    frame.to_csv(path, index=False)
+    panel = io.load_panel(path, boundary_path)
+    assert len(panel.excluded) == 1
+    options = {"kind": None, "column_map": None, "boundary_id": None, "crs": None}
+    return Workspace(folder).add(panel, [path, boundary_path], options)

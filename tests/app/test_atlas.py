@@ -2,9 +2,11 @@
 
 from __future__ import annotations
 
+import json
+
 import numpy as np
 import pandas as pd
-from app_helpers import ROOT, dataframe, run, view
+from app_helpers import ROOT, charts, dataframe, run, save_demo_with_a_gap, view
 
 DECILES = ROOT / "demo_data" / "deciles.csv"
 
@@ -140,3 +142,24 @@ def test_cluster_layer_shows_global_moran_within_its_range(app):
     n = len(ranking(app))
     assert metrics["Value without clustering"] == round(-1 / (n - 1), 3)
     assert 0 <= metrics["p-value (permutations)"] <= 1
+
+
+def test_cluster_layer_draws_a_set_aside_district_as_no_value_and_names_it(app, tmp_path):
+    # One district-year is set aside: the cluster layer must still draw, with that district
+    # left out of the neighbour graph. Moran's I expected without autocorrelation is
+    # -1/(n-1) over the graph's n districts (Cliff, A. D. and Ord, J. K., 1981, Spatial
+    # Processes: Models and Applications, Pion).
+    dataset = save_demo_with_a_gap(tmp_path / "workspace", "CAL03", 2015)
+    app.query_params.update({"d": dataset, "y": "2015"})
+    run(app)
+    n = len(ranking(app))
+    app.button_group(key="atlas_layer").set_value("Local clusters")
+    run(app)
+    warnings = " ".join(w.value for w in app.warning)
+    assert "CAL03" in warnings and "no value" in warnings
+    metrics = {m.label: float(m.value) for m in app.metric if m.label.startswith("Value without")}
+    assert metrics["Value without clustering"] == round(-1 / (n - 1), 3)
+    features = json.loads(charts(app)[0].spec)["data"]["values"]
+    cluster = {f["properties"]["region"]: f["properties"]["cluster"] for f in features}
+    assert cluster["CAL03"] == "no value"
+    assert sum(c == "no value" for c in cluster.values()) == 1

@@ -9,7 +9,7 @@ from app_helpers import ROOT, dataframe, page, run, view
 from hypothesis import given
 from hypothesis import strategies as st
 
-from explorer.ui import layout
+from explorer.present import vocabulary
 
 RAW_KEYS = {
     "population_within",
@@ -114,7 +114,7 @@ def test_every_problem_of_a_bad_file_is_written_out_in_full(app):
 @given(st.text(alphabet=st.sampled_from("abc de,;.()"), max_size=400))
 def test_wrapped_caption_lines_fit_and_keep_every_word(text):
     # textwrap's contract (Python documentation): no line longer than the width, words kept.
-    lines = layout.wrap(text, width=40)
+    lines = vocabulary.wrap(text, width=40)
     assert all(len(line) <= 40 for line in lines)
     assert " ".join(lines).split() == text.split()
 
@@ -124,7 +124,7 @@ def test_wrapped_caption_lines_fit_and_keep_every_word(text):
     [("county", "counties"), ("region", "districts"), ("valley", "valleys"), ("zones", "zones")],
 )
 def test_group_names_take_the_english_plural(level, expected):
-    assert layout.groups_word(level) == expected  # common practice (English plurals)
+    assert vocabulary.groups_word(level) == expected  # common practice (English plurals)
 
 
 def test_the_upload_summary_reads_in_words_not_python_values(app):

@@ -10,8 +10,8 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from explorer import spatial_view
 from explorer.data import io
+from explorer.figures import spatial as spatial_view
 from explorer.stats import decompose, indices
 
 BAD_REGION, BAD_YEAR = "CAL03", 2015

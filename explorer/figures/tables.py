@@ -1,7 +1,7 @@
-"""The tidy tables behind every page and the report, and the words that label them.
+"""The tidy tables behind every page and the report: names, map values, rankings, splits.
 
-Streamlit-free, so the app, the command line and the one-file report draw the same numbers
-under the same labels.
+Streamlit-free; pandas in, pandas out. The words that label these tables live in
+:mod:`explorer.present.vocabulary`.
 """
 
 from __future__ import annotations
@@ -11,76 +11,22 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-DEMO_DATASETS: dict[str, tuple[str, str]] = {
-    "demo": ("Demo: decile shares", "brackets"),
-    "demo-households": ("Demo: household sample", "units"),
-    "demo-means": ("Demo: district means", "means"),
-}
+from explorer.present.vocabulary import WIDE_SHARE
 
-INDEX_LABELS: dict[str, str] = {
-    "gini": "Gini coefficient",
-    "theil_t": "Theil T",
-    "mld": "Mean log deviation (Theil L)",
-    "ge_2": "Generalised entropy GE(2)",
-    "atkinson_0.5": "Atkinson (ε = 0.5)",
-    "atkinson_1": "Atkinson (ε = 1)",
-    "atkinson_2": "Atkinson (ε = 2)",
-    "cv": "Coefficient of variation",
-    "palma": "Palma ratio (top 10 % / bottom 40 %)",
-    "s80_s20": "S80/S20 quintile share ratio",
-    "top10_share": "Income share of the top 10 %",
-    "bottom40_share": "Income share of the bottom 40 %",
-}
-
-METHOD_LABELS: dict[str, str] = {
-    "auto": "Best fitting curve (automatic)",
-    "linear": "Straight lines between points (lower bound)",
-    "upper": "Steepest convex curve (upper bound)",
-    "pchip": "Smooth monotone interpolation",
-    "gq": "General quadratic curve",
-    "beta": "Beta curve",
-    "quadratic": "Simple quadratic curve",
-    "lognormal": "Lognormal curve",
-}
-
-DECOMPOSABLE = ("theil_t", "mld", "ge_2", "gini")
-
-CLASS_LABELS = {
-    "quantiles": "Equal counts (quantiles)",
-    "equal": "Equal widths",
-    "breaks": "Natural breaks",
-}
-
-# An interval wider than this share of its value is called wide (a display choice).
-WIDE_SHARE = 0.15
-
-COLUMN_LABELS = {
-    "rank": "Rank",
-    "name": "District",
-    "region": "Id",
-    "county": "County",
-    "value": "Value",
-    "lower": "Lower bound",
-    "upper": "Upper bound",
-    "klass": "Class",
-    "note": "Note",
-    "year": "Year",
-    "index": "Index",
-    "method": "Method",
-}
-
-# The view's field for the index the Breakdown page splits.
-BREAKDOWN_FIELD = "decomposition_index"
-
-
-def index_label(key: str) -> str:
-    """A planner's name for an index key."""
-    return INDEX_LABELS.get(key, key)
-
-
-def method_label(key: str) -> str:
-    """A planner's name for a Lorenz method key."""
-    return METHOD_LABELS.get(key, key)
+__all__ = [
+    "county_level",
+    "district_means",
+    "lorenz_band",
+    "lorenz_points",
+    "map_values",
+    "names",
+    "per_level",
+    "ranking",
+    "ranks",
+    "share_table",
+    "why_missing",
+    "wide",
+]
 
 
 def county_level(panel: Any) -> str | None:
@@ -111,38 +57,6 @@ def names(panel: Any) -> pd.DataFrame:
     out["name"] = out["name"].fillna(out["region"])
     out["county"] = out["county"].fillna("").astype(str)
     return out
-
-
-def value_label(view: Any, panel: Any) -> str:
-    """What the map's colour means, with its units."""
-    if panel.kind == "means":
-        return "Mean income (currency units)"
-    label = index_label(view.index).split(" (")[0]
-    if view.index.endswith("_share"):
-        return f"{label} (share)"
-    if view.index in ("palma", "s80_s20"):
-        return f"{label} (ratio)"
-    return f"{label} (0 = equal)"
-
-
-def dataset_name(view: Any, panel: Any) -> str:
-    """The dataset's name as the sidebar lists it."""
-    if view.dataset in DEMO_DATASETS:
-        return DEMO_DATASETS[view.dataset][0]
-    return panel.name or view.dataset
-
-
-def caption(view: Any, panel: Any) -> str:
-    """A caption naming the data and the method."""
-    name = dataset_name(view, panel)
-    if panel.kind == "brackets":
-        how = f"Lorenz curves rebuilt from income shares: {method_label(view.method).lower()}"
-    elif panel.kind == "units":
-        how = "computed from weighted unit records"
-    else:
-        how = "district mean incomes"
-    concept = f" Income: {panel.income_concept}." if getattr(panel, "income_concept", "") else ""
-    return f"Data: {name}, {view.year}; {how}.{concept}"
 
 
 def wide(table: pd.DataFrame) -> pd.Series:
@@ -250,12 +164,12 @@ def per_level(parts: pd.DataFrame) -> pd.DataFrame:
         .fillna(0.0)
         .cumsum(axis=1)
     )
-    frames = []
+    pieces = []
     for level in levels:
         b = between[level]
         total = totals.reindex(b.index)
         for component, value in (("between", b), ("within", total - b)):
-            frames.append(
+            pieces.append(
                 pd.DataFrame(
                     {
                         "year": b.index,
@@ -267,7 +181,7 @@ def per_level(parts: pd.DataFrame) -> pd.DataFrame:
                     }
                 )
             )
-    return pd.concat(frames, ignore_index=True)
+    return pd.concat(pieces, ignore_index=True)
 
 
 def district_means(panel) -> pd.DataFrame:

@@ -1,0 +1,42 @@
+"""From a view to its figures: every table, chart, caption and notice a page shows.
+
+Streamlit-free. Each page has one function taking the panel, the view and a
+:class:`~explorer.figures.compute.Compute` (the computations it draws on) and returning a
+small frozen dataclass. The report and the command line use :class:`PlainCompute`; the app
+passes a cached implementation (``explorer.ui.cache``), so both draw the same figures.
+"""
+
+from explorer.figures.atlas import AtlasFigures, atlas
+from explorer.figures.breakdown import BreakdownFigures, ChangeFigures, breakdown, change
+from explorer.figures.compute import Compute, PlainCompute
+from explorer.figures.district import DistrictFigures, district
+from explorer.figures.report import ReportSections, report_for_view, report_html, sections
+from explorer.figures.settle import settle
+from explorer.figures.spatial import ClusterLayer, SpatialResult, cluster_layer, for_panel
+from explorer.figures.timelines import Convergence, TimelineFigures, convergence, timelines
+
+__all__ = [
+    "AtlasFigures",
+    "BreakdownFigures",
+    "ChangeFigures",
+    "ClusterLayer",
+    "Compute",
+    "Convergence",
+    "DistrictFigures",
+    "PlainCompute",
+    "ReportSections",
+    "SpatialResult",
+    "TimelineFigures",
+    "atlas",
+    "breakdown",
+    "change",
+    "cluster_layer",
+    "convergence",
+    "district",
+    "for_panel",
+    "report_for_view",
+    "report_html",
+    "sections",
+    "settle",
+    "timelines",
+]

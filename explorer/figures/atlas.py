@@ -1,0 +1,195 @@
+"""The Atlas page's figures: the map layer, its classes, the ranking and the headline."""
+
+from __future__ import annotations
+
+import dataclasses
+from dataclasses import dataclass
+from typing import Any
+
+import pandas as pd
+
+from explorer.data.model import Panel
+from explorer.figures.compute import Compute
+from explorer.figures.spatial import ClusterLayer, cluster_layer
+from explorer.figures.tables import map_values, ranking, why_missing, wide
+from explorer.present import charts, vocabulary
+from explorer.views import ViewState
+
+__all__ = ["LAYERS", "RANK_COLUMNS", "AtlasFigures", "atlas"]
+
+#: Map layers: the index itself, or its local clusters.
+LAYERS = ("index", "clusters")
+_MAP_COLUMNS = ["region", "value", "lower", "upper", "klass", "wide"]
+#: The ranking table as the page shows it (the download keeps every column).
+RANK_COLUMNS = ["rank", "name", "region", "county", "value", "lower", "upper", "klass"]
+
+
+@dataclass(frozen=True)
+class AtlasFigures:
+    """Everything the Atlas page shows for one view (``layer`` empty: nothing to show).
+
+    ``notices`` are warnings the page shows above the map (districts without a figure, or
+    without a value for the cluster layer, by name).
+    """
+
+    layer: pd.DataFrame
+    classification: charts.Classification | None
+    value_label: str
+    money: bool
+    notices: tuple[str, ...]
+    chart: Any
+    features: list[dict[str, Any]] | None
+    clusters: ClusterLayer | None
+    ranking: pd.DataFrame
+    ranking_title: str
+    ranking_caution: str
+    headline: tuple[tuple[str, str], ...]
+    wide_count: int
+    #: Said in passing (not a warning): e.g. districts listed because there is no map.
+    remark: str = ""
+
+    @property
+    def empty(self) -> bool:
+        return self.layer.empty
+
+
+def _classes(values: pd.Series, view: ViewState, money: bool) -> charts.Classification:
+    classification = charts.classify(values, view.classes, view.k)
+    if money:
+        # Incomes read best in whole currency units with thousands separators.
+        edges = classification.edges
+        labels = tuple(
+            vocabulary.money(lo, hi) for lo, hi in zip(edges[:-1], edges[1:], strict=True)
+        )
+        if len(set(labels)) == len(labels) == classification.k:
+            classification = dataclasses.replace(classification, labels=labels)
+    return classification
+
+
+def _headline(ranked: pd.DataFrame, money: bool) -> tuple[tuple[str, str], ...]:
+    if ranked.empty:
+        return ()
+    return (
+        (
+            f"Highest: {ranked['name'].iloc[0]}",
+            vocabulary.figure(ranked["value"].iloc[0], money=money),
+        ),
+        (
+            f"Lowest: {ranked['name'].iloc[-1]}",
+            vocabulary.figure(ranked["value"].iloc[-1], money=money),
+        ),
+        ("Median of districts", vocabulary.figure(ranked["value"].median(), money=money)),
+    )
+
+
+def _cluster_chart(panel, view, layer, features, compute):
+    found = cluster_layer(panel, layer.set_index("region")["value"], compute)
+    lookup = dict(zip(found.districts["region"], found.districts["cluster"], strict=True))
+    shown = [
+        {
+            **f,
+            "properties": {
+                **f["properties"],
+                "cluster": lookup.get(str(f["properties"]["region"])),
+            },
+        }
+        for f in features
+    ]
+    chart = charts.clusters_map(
+        shown,
+        title=f"Local clusters of {vocabulary.value_label(view, panel)}, {view.year}",
+        caption=vocabulary.wrap(
+            vocabulary.caption(view, panel)
+            + " Local Moran (Anselin 1995), queen contiguity, 499 permutations, 5 % level."
+            " High-high: a high value among high neighbours; low-low: low among low; "
+            "high-low and low-high: a district unlike its neighbours."
+            + (f" White: no value ({len(found.left_out)})." if found.left_out else "")
+        ),
+        selected=view.districts,
+    )
+    return chart, found
+
+
+def _index_chart(panel, view, layer, classification, mark_wide, compute):
+    means_only = panel.kind == "means"
+    note = (
+        " Dashed outline: bounds wider than "
+        f"{vocabulary.WIDE_SHARE:.0%} of the value (the figure is uncertain there)."
+        if mark_wide and not means_only
+        else ""
+    )
+    label = vocabulary.value_label(view, panel)
+    return compute.choropleth(
+        layer[_MAP_COLUMNS],
+        value_label=label,
+        classes=list(classification.labels),
+        title=f"{label}, {view.year}",
+        caption=vocabulary.wrap(vocabulary.caption(view, panel) + note),
+        selected=tuple(view.districts),
+    )
+
+
+def atlas(
+    panel: Panel,
+    view: ViewState,
+    compute: Compute,
+    *,
+    layer: str = "index",
+    mark_wide: bool | None = None,
+) -> AtlasFigures:
+    """The Atlas figures of ``view``: the ``index`` layer or its local ``clusters``."""
+    money = panel.kind == "means"
+    mark_wide = bool(view.show_intervals if mark_wide is None else mark_wide) and not money
+    table = None if money else compute.indices(view.method)
+    values = map_values(panel, table, view.year, view.index)
+    label = vocabulary.value_label(view, panel)
+    ranked = ranking(values)
+    common = dict(
+        value_label=label,
+        money=money,
+        ranking_title=vocabulary.ranking_title(panel.kind),
+        ranking_caution=vocabulary.ranking_caution(panel.kind),
+        wide_count=int(wide(values).sum()) if len(values) else 0,
+    )
+    if values.empty:
+        notice = "No figures for this year and index. Choose another year or index."
+        return AtlasFigures(
+            values,
+            None,
+            notices=(notice,),
+            chart=None,
+            features=None,
+            clusters=None,
+            ranking=ranked,
+            headline=(),
+            **common,
+        )
+    notices = [n for n in (why_missing(values),) if n]
+    classification = _classes(values["value"], view, money)
+    values = values.assign(klass=classification.assign(values["value"]))
+    if not mark_wide:
+        values = values.assign(wide=False)
+    chart = features = found = None
+    remark = ""
+    if panel.boundaries is None:
+        remark = "This dataset has no boundary file, so the districts are listed instead of mapped."
+    else:
+        features = compute.map_features(values[_MAP_COLUMNS])
+        if layer == "clusters":
+            chart, found = _cluster_chart(panel, view, values, features, compute)
+            notices.extend(n for n in (found.notice,) if n)
+        else:
+            chart = _index_chart(panel, view, values, classification, mark_wide, compute)
+    ranked = ranking(values)
+    return AtlasFigures(
+        values,
+        classification,
+        notices=tuple(notices),
+        chart=chart,
+        features=features,
+        clusters=found,
+        ranking=ranked,
+        headline=_headline(ranked, money),
+        remark=remark,
+        **common,
+    )

@@ -1,0 +1,159 @@
+"""What the figures layer asks of a panel, and the plain (uncached) way to answer it.
+
+A page's figures are built from a handful of expensive computations (the index table, the
+Lorenz fits, the within/between split, the change split, Lorenz curves on a grid, local
+clusters). :class:`Compute` names them; :class:`PlainCompute` computes them directly and is
+what the report and the command line use; the app passes an implementation with the same
+methods that caches each result by the panel's fingerprint (``explorer.ui.cache``).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass
+from typing import Any, Protocol
+
+import numpy as np
+import pandas as pd
+
+from explorer.data.model import Panel
+
+__all__ = ["Compute", "PlainCompute", "lorenz_curves", "tidy"]
+
+#: Permutations of the local-cluster layer on the map (the CLI's default is larger).
+MAP_PERMUTATIONS = 499
+
+
+class Compute(Protocol):
+    """The computations a page's figures are built from, bound to one panel."""
+
+    panel: Panel
+
+    def indices(self, method: str, ci: str | None = None) -> pd.DataFrame: ...
+
+    def fits(self, methods: Sequence[str]) -> pd.DataFrame: ...
+
+    def breakdown(self, by: Sequence[str], index: str, method: str) -> pd.DataFrame: ...
+
+    def change(
+        self, by: Sequence[str], index: str, year_from: int, year_to: int
+    ) -> pd.DataFrame: ...
+
+    def lorenz_curves(self, region: str, year: int, methods: Sequence[str]) -> pd.DataFrame: ...
+
+    def clusters(
+        self, values: pd.Series, permutations: int = MAP_PERMUTATIONS
+    ) -> tuple[pd.DataFrame, Any]: ...
+
+    def map_features(self, values: pd.DataFrame) -> list[dict[str, Any]]: ...
+
+    def choropleth(self, values: pd.DataFrame, **labels: Any) -> Any: ...
+
+
+def tidy(table: pd.DataFrame) -> pd.DataFrame:
+    """A plain table: fresh index, no attached metadata (keeps cached copies small)."""
+    out = table.reset_index(drop=True)
+    out.attrs = {}
+    return out
+
+
+def lorenz_curves(panel: Panel, region: str, year: int, methods: Sequence[str]) -> pd.DataFrame:
+    """Every method's Lorenz curve for one district-year on a shared grid of 101 points."""
+    from explorer.stats import lorenz
+
+    grid = np.linspace(0.0, 1.0, 101)
+    rows = []
+    for method in methods:
+        fitted = lorenz.fit_panel(panel, method)
+        keys = tidy(fitted.keys)
+        hit = np.flatnonzero((keys["region"] == region).to_numpy() & (keys["year"] == year))
+        if hit.size == 0:
+            continue
+        values = fitted.evaluate(grid)[hit[0]]
+        ok = bool(np.asarray(fitted.valid)[hit[0]])
+        rows.append(pd.DataFrame({"p": grid, "L": values, "method": method, "valid": ok}))
+    return pd.concat(rows, ignore_index=True) if rows else pd.DataFrame(columns=["p", "L"])
+
+
+def clusters(
+    panel: Panel,
+    values: pd.Series,
+    permutations: int,
+    *,
+    seed: int = 0,
+    graph: str = "queen",
+    k: int = 4,
+    alpha: float = 0.05,
+) -> tuple[pd.DataFrame, Any]:
+    """Local Moran clusters and global statistics of finite ``values`` (indexed by region).
+
+    The neighbour graph is built on the boundaries of exactly these districts, so a district
+    without a value is never a neighbour of anyone.
+
+    References
+    ----------
+    Anselin, L. (1995). Local indicators of spatial association — LISA. *Geographical
+    Analysis* 27: 93–115.
+    """
+    from explorer.stats import spatial
+
+    values = values.set_axis(values.index.astype(str))
+    shapes = panel.boundaries[panel.boundaries["region"].astype(str).isin(values.index)]
+    neighbours = spatial.neighbours(shapes, kind=graph, k=k)
+    ordered = values.reindex(neighbours.ids.astype(str))
+    local = spatial.district_table(
+        ordered, neighbours, permutations=permutations, seed=seed, alpha=alpha
+    )
+    overall = spatial.global_stats(ordered, neighbours, permutations=permutations, seed=seed)
+    return tidy(local), overall
+
+
+@dataclass(frozen=True)
+class PlainCompute:
+    """Every computation done directly on the panel, without a cache."""
+
+    panel: Panel
+
+    def indices(self, method: str, ci: str | None = None) -> pd.DataFrame:
+        from explorer.stats import indices
+
+        if ci == "bootstrap":
+            return indices.compute(self.panel, methods=("auto",), ci=ci, reps=199, seed=0)
+        method = method if self.panel.kind == "brackets" else "auto"
+        return indices.compute(self.panel, methods=(method,))
+
+    def fits(self, methods: Sequence[str]) -> pd.DataFrame:
+        from explorer.stats import indices
+
+        return indices.fits(self.panel, tuple(methods))
+
+    def breakdown(self, by: Sequence[str], index: str, method: str) -> pd.DataFrame:
+        from explorer.stats import decompose
+
+        return decompose.table(self.panel, by=tuple(by), index=index, method=method)
+
+    def change(self, by: Sequence[str], index: str, year_from: int, year_to: int) -> pd.DataFrame:
+        from explorer.stats import decompose
+
+        return decompose.change(
+            self.panel, by=tuple(by), index=index, year_from=year_from, year_to=year_to
+        )
+
+    def lorenz_curves(self, region: str, year: int, methods: Sequence[str]) -> pd.DataFrame:
+        return lorenz_curves(self.panel, region, int(year), tuple(methods))
+
+    def clusters(
+        self, values: pd.Series, permutations: int = MAP_PERMUTATIONS
+    ) -> tuple[pd.DataFrame, Any]:
+        return clusters(self.panel, values, permutations)
+
+    def map_features(self, values: pd.DataFrame) -> list[dict[str, Any]]:
+        from explorer.present import charts
+
+        return charts.features_for_display(self.panel.boundaries, values)
+
+    def choropleth(self, values: pd.DataFrame, **labels: Any) -> Any:
+        """The map of ``values``; ``labels`` are :func:`charts.choropleth`'s keywords."""
+        from explorer.present import charts
+
+        return charts.choropleth(self.map_features(values), **labels)

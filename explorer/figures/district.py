@@ -1,0 +1,130 @@
+"""The District sheet's figures: one district's Lorenz curve, indices, fits and ranks."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from explorer.data.model import Panel
+from explorer.figures.compute import Compute
+from explorer.figures.tables import (
+    county_level,
+    district_means,
+    lorenz_band,
+    lorenz_points,
+    names,
+    ranks,
+)
+from explorer.present import charts, vocabulary
+from explorer.views import ViewState
+
+__all__ = ["DistrictFigures", "district", "district_heading", "method_word"]
+
+_LORENZ_HOW = {
+    "brackets": "Dots: the published shares; lines: each curve rebuilt from them; grey band: "
+    "every curve consistent with the shares lies inside it.",
+    "units": "Every household, poorest first; dashed: complete equality.",
+}
+
+
+def method_word(key: str) -> str:
+    """How a figure was made, in words (a Lorenz curve, or the records themselves)."""
+    return {"units": "From the household records", "means": "From district means"}.get(
+        key, vocabulary.method_label(key)
+    )
+
+
+@dataclass(frozen=True)
+class DistrictFigures:
+    """Everything the District sheet shows for one district in the view's year.
+
+    For means-only data ``means`` and ``means_chart`` are set and the index parts are None.
+    """
+
+    region: str
+    name: str
+    heading: str
+    means: pd.DataFrame | None = None
+    means_chart: Any = None
+    indices: pd.DataFrame | None = None
+    headline: pd.Series | None = None
+    profile: Any = None
+    strip: Any = None
+    has_bounds: bool = False
+    fits: pd.DataFrame | None = None
+    rank_chart: Any = None
+
+
+def district_heading(panel: Panel, region: str, year: int) -> tuple[str, str]:
+    """The district's name and the line under the page title (name, id, county, year)."""
+    info = names(panel).set_index("region").loc[region]
+    level = county_level(panel)
+    county = f" · {level.title()}: {info['county']}" if level and info["county"] else ""
+    return str(info["name"]), f"**{info['name']}** ({region}){county} · {year}"
+
+
+def _lorenz(panel, view, compute, region, name):
+    points = lorenz_points(panel, region, view.year)
+    curves = band = shown = None
+    if panel.kind == "brackets":
+        methods = [m for m in vocabulary.METHOD_LABELS if m != "auto"]
+        curves = compute.lorenz_curves(region, view.year, methods)
+        band = lorenz_band(curves)
+        shown = curves[~curves["method"].isin(("linear", "upper"))]
+        shown = shown.assign(method=shown["method"].map(vocabulary.method_label))
+    how = _LORENZ_HOW.get(panel.kind, "")
+    profile = charts.lorenz_profile(
+        points,
+        shown,
+        band,
+        title=f"Lorenz curve, {name}, {view.year}",
+        caption=vocabulary.wrap(f"{how} {vocabulary.caption(view, panel)}", width=70),
+    )
+    # Below the curve the method names have room; beside it they squeeze the curve.
+    return profile.configure_legend(orient="bottom", columns=2, labelLimit=260)
+
+
+def district(panel: Panel, view: ViewState, compute: Compute) -> DistrictFigures:
+    """The sheet of the view's first district (the panel's first if none is chosen)."""
+    region = view.districts[0] if view.districts else str(panel.regions[0])
+    name, heading = district_heading(panel, region, view.year)
+    if panel.kind == "means":
+        means = district_means(panel)
+        own = means[means["region"].astype(str) == region]
+        chart = charts.mean_income_over_time(
+            own,
+            title=f"Mean income, {name}",
+            caption=vocabulary.wrap(vocabulary.caption(view, panel)),
+        )
+        return DistrictFigures(region, name, heading, means=own, means_chart=chart)
+    table = compute.indices(view.method)
+    own = table[(table["region"].astype(str) == region) & (table["year"] == view.year)]
+    headline = own[own["index"] == view.index]
+    # One short word per row: the full method is named in the caption and the table.
+    strip_rows = own.assign(
+        method=own["method"].map(lambda key: {"units": "records"}.get(key, "curve"))
+    )
+    strip = charts.interval_strip(
+        strip_rows, title=f"Every index of {name}, {view.year}, with its bounds"
+    )
+    fits = None
+    if panel.kind == "brackets":
+        diagnostics = compute.fits(tuple(vocabulary.METHOD_LABELS))
+        fits = diagnostics[
+            (diagnostics["region"].astype(str) == region) & (diagnostics["year"] == view.year)
+        ]
+    return DistrictFigures(
+        region,
+        name,
+        heading,
+        indices=own,
+        headline=headline.iloc[0] if len(headline) else None,
+        profile=_lorenz(panel, view, compute, region, name),
+        strip=strip,
+        has_bounds=bool(np.isfinite(own[["lower", "upper"]].to_numpy(dtype=float)).any()),
+        fits=fits,
+        rank_chart=charts.rank_over_time(ranks(table, view.index, panel), highlight=(region,)),
+    )

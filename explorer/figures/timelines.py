@@ -1,0 +1,168 @@
+"""The Timelines page's figures: district series, the province line, convergence."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from explorer.data.model import Panel
+from explorer.figures.compute import Compute
+from explorer.figures.tables import district_means, names
+from explorer.present import charts, vocabulary
+from explorer.views import ViewState
+
+__all__ = [
+    "Beta",
+    "Convergence",
+    "TimelineFigures",
+    "convergence",
+    "district_series",
+    "province_series",
+    "timelines",
+]
+
+
+def district_series(panel: Panel, view: ViewState, compute: Compute) -> pd.DataFrame:
+    """The view's index for every district and year, with names and counties."""
+    table = compute.indices(view.method)
+    rows = table[table["index"] == view.index]
+    rows = rows.assign(region=rows["region"].astype(str))
+    return rows.merge(names(panel), on="region", how="left").reset_index(drop=True)
+
+
+def province_series(
+    panel: Panel, view: ViewState, compute: Compute, index: str | None = None
+) -> pd.DataFrame | None:
+    """year, value of the whole province (pooled), where the index decomposes."""
+    index = index or view.index
+    if index not in vocabulary.DECOMPOSABLE:
+        return None
+    parts = compute.breakdown(tuple(panel.levels), index, view.method)
+    total = parts[(parts["component"] == "total") & (parts["group"] == "(all)")]
+    if "level" in total.columns and (total["level"] == "total").any():
+        total = total[total["level"] == "total"]
+    total = total.drop_duplicates("year")
+    return total[["year", "value"]].reset_index(drop=True)
+
+
+@dataclass(frozen=True)
+class Beta:
+    """β-convergence of district means, ready for the chart and a sentence."""
+
+    result: Any
+    points: pd.DataFrame
+    intercept: float
+
+    def as_chart(self) -> dict[str, Any] | None:
+        slope = float(getattr(self.result, "beta", np.nan))
+        if not np.isfinite(slope) or self.points.empty:
+            return None
+        return {"points": self.points, "slope": slope, "intercept": self.intercept}
+
+    def sentence(self) -> str:
+        beta = float(getattr(self.result, "beta", np.nan))
+        if not np.isfinite(beta):
+            return "β-convergence could not be estimated (too few districts or years)."
+        half_life = float(getattr(self.result, "half_life", np.nan))
+        se = float(getattr(self.result, "se", np.nan))
+        text = f"β = {beta:.4f} (standard error {se:.4f}) over {len(self.points)} districts. "
+        if beta < 0 and np.isfinite(half_life):
+            return text + (
+                f"Poorer districts grew faster: at this pace half of the gap closes in "
+                f"about {half_life:.0f} years."
+            )
+        return text + "No catching up: richer districts grew as fast or faster (divergence)."
+
+
+@dataclass(frozen=True)
+class Convergence:
+    """σ-convergence by year, β-convergence, their chart and the sentence under it."""
+
+    sigma: pd.DataFrame
+    beta: Beta
+    chart: Any
+    sentence: str
+
+
+def convergence(panel: Panel) -> Convergence:
+    """σ-convergence by year and β-convergence between the first and last year.
+
+    References
+    ----------
+    Barro, R. J. and Sala-i-Martin, X. (1992). Convergence. *Journal of Political
+    Economy* 100: 223–251.
+    """
+    from explorer.stats import convergence as conv
+
+    means = district_means(panel)
+    means = means[np.isfinite(means["mean_income"]) & (means["mean_income"] > 0)]
+    sigma = conv.sigma(means)
+    sd = sigma[sigma["measure"] == "sd_log"]
+    sd = sd.drop_duplicates("year")[["year", "value"]].rename(columns={"value": "sigma"})
+    first, last = int(means["year"].min()), int(means["year"].max())
+    start = means[means["year"] == first].set_index("region")["mean_income"]
+    end = means[means["year"] == last].set_index("region")["mean_income"]
+    both = start.index.intersection(end.index)
+    log_start = np.log(start[both].to_numpy(dtype=float))
+    log_end = np.log(end[both].to_numpy(dtype=float))
+    points = pd.DataFrame(
+        {
+            "region": both.astype(str),
+            "log_initial": log_start,
+            "growth": (log_end - log_start) / max(last - first, 1),
+        }
+    )
+    result = conv.beta(means)
+    beta = Beta(result=result, points=points, intercept=float(result.intercept))
+    sd = sd.reset_index(drop=True)
+    return Convergence(sd, beta, charts.convergence(sd, beta.as_chart()), beta.sentence())
+
+
+@dataclass(frozen=True)
+class TimelineFigures:
+    """The Timelines page: district series (None for means-only data) and convergence."""
+
+    series: pd.DataFrame | None
+    province: pd.DataFrame | None
+    chart: Any
+    highlighted: pd.DataFrame | None
+    convergence: Convergence
+    notices: tuple[str, ...]
+
+
+def timelines(
+    panel: Panel, view: ViewState, compute: Compute, *, by_county: bool = False
+) -> TimelineFigures:
+    """The Timelines figures of ``view`` (one panel per county if ``by_county``)."""
+    trend = convergence(panel)
+    if panel.kind == "means":
+        notice = (
+            "District means only: there is no inequality inside districts to follow. Below: "
+            "whether the district means draw together over time."
+        )
+        return TimelineFigures(None, None, None, None, trend, (notice,))
+    series = district_series(panel, view, compute)
+    province = province_series(panel, view, compute)
+    chart = charts.trajectories(
+        series,
+        index=view.index,
+        highlight=view.districts,
+        province=province,
+        by_county=by_county,
+        title=f"{vocabulary.value_label(view, panel)} by district over time",
+        caption=vocabulary.wrap(
+            vocabulary.caption(view, panel, every_year=True)
+            + (" Dashed black: the whole province." if province is not None else "")
+        ),
+    )
+    highlighted = None
+    if view.districts:
+        shown = series[series["region"].isin(view.districts)]
+        highlighted = shown.pivot_table(index="year", columns="name", values="value").round(4)
+    notices = ()
+    if province is None:
+        notices = ("No province line for this index: it is not computed for the pooled province.",)
+    return TimelineFigures(series, province, chart, highlighted, trend, notices)

@@ -1,0 +1,404 @@
+"""The planner's words: every label, name and number format the app, report and CLI show.
+
+Keys (index keys, Lorenz method keys, decomposition components, page keys) come from the
+modules that compute with them; this module only says what each key is called on screen.
+Every other module imports its words from here, so a label is defined once.
+"""
+
+from __future__ import annotations
+
+import textwrap
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from explorer.stats import decompose, indices, lorenz
+
+__all__ = [
+    "AXIS_LABELS",
+    "BREAKDOWN_FIELD",
+    "CAPTION_CHARS",
+    "CHANGE_COLUMNS",
+    "CHANGE_TERM_HELP",
+    "CLASS_LABELS",
+    "COLUMN_LABELS",
+    "DECOMPOSABLE",
+    "DEMO_DATASETS",
+    "FIT_COLUMNS",
+    "INDEX_COLUMNS",
+    "INDEX_LABELS",
+    "INTERVAL_FIELD",
+    "LORENZ_METHODS",
+    "METHOD_LABELS",
+    "PAGES",
+    "PART_COLUMNS",
+    "PART_TEXT",
+    "PART_WORDS",
+    "WIDE_SHARE",
+    "Page",
+    "axis_label",
+    "bound_text",
+    "caption",
+    "dataset_name",
+    "describe_view",
+    "figure",
+    "groups_word",
+    "index_label",
+    "method_label",
+    "money",
+    "part_label",
+    "ranking_caution",
+    "ranking_title",
+    "tidy_zero",
+    "value_label",
+    "wrap",
+]
+
+# --- indices ---------------------------------------------------------------------------------
+
+_INDEX_WORDS = {
+    "gini": "Gini coefficient",
+    "theil_t": "Theil T",
+    "mld": "Mean log deviation (Theil L)",
+    "ge_2": "Generalised entropy GE(2)",
+    "atkinson_0.5": "Atkinson (ε = 0.5)",
+    "atkinson_1": "Atkinson (ε = 1)",
+    "atkinson_2": "Atkinson (ε = 2)",
+    "cv": "Coefficient of variation",
+    "palma": "Palma ratio (top 10 % / bottom 40 %)",
+    "s80_s20": "S80/S20 quintile share ratio",
+    "top10_share": "Income share of the top 10 %",
+    "bottom40_share": "Income share of the bottom 40 %",
+}
+#: Index key -> planner's name, in the order the index table computes them. A new index in
+#: ``explorer.stats.indices.DEFAULT_INDICES`` without a name here fails at import.
+INDEX_LABELS: dict[str, str] = {key: _INDEX_WORDS[key] for key in indices.DEFAULT_INDICES}
+
+#: Axis titles with the units a chart's reader needs.
+AXIS_LABELS: dict[str, str] = {
+    "gini": "Gini coefficient (0 = equal, 1 = one holds all)",
+    "theil_t": "Theil T (0 = equal)",
+    "mld": "Mean log deviation, Theil L (0 = equal)",
+    "cv": "Coefficient of variation (ratio)",
+    "palma": "Palma ratio (top 10 % ÷ bottom 40 %)",
+    "s80_s20": "S80/S20 ratio (top 20 % ÷ bottom 20 %)",
+    "top10_share": "Income share of the top 10 % (0–1)",
+    "bottom40_share": "Income share of the bottom 40 % (0–1)",
+}
+
+#: Indices that split exactly into within and between parts (the Gini with its overlap).
+DECOMPOSABLE: tuple[str, ...] = tuple(decompose.DECOMPOSABLE)
+
+
+def _family_label(key: str, named: dict[str, str], ge_unit: str = "", atk_unit: str = "") -> str:
+    """A named key's label, or one built for any member of the GE or Atkinson family."""
+    if key in named:
+        return named[key]
+    if key.startswith("ge_"):
+        return f"Generalised entropy GE({key[3:]}){ge_unit}"
+    if key.startswith("atkinson_"):
+        return f"Atkinson (ε = {key[9:]}){atk_unit}"
+    return key
+
+
+def index_label(key: str) -> str:
+    """A planner's name for an index key."""
+    return _family_label(key, INDEX_LABELS)
+
+
+def axis_label(key: str) -> str:
+    """Plain-language axis title, with units, for an index key (``gini``, ``ge_2``, ...)."""
+    return _family_label(key, AXIS_LABELS, " (0 = equal)", " (0–1)")
+
+
+# --- Lorenz methods --------------------------------------------------------------------------
+
+#: The Lorenz methods, as ``explorer.stats.lorenz`` knows them (the one list).
+LORENZ_METHODS: tuple[str, ...] = tuple(lorenz.METHODS)
+_METHOD_WORDS = {
+    "auto": "Best fitting curve (automatic)",
+    "linear": "Straight lines between points (lower bound)",
+    "upper": "Steepest convex curve (upper bound)",
+    "pchip": "Smooth monotone interpolation",
+    "gq": "General quadratic curve",
+    "beta": "Beta curve",
+    "quadratic": "Simple quadratic curve",
+    "lognormal": "Lognormal curve",
+}
+#: Method key -> planner's name; the automatic choice first, as the sidebar offers it.
+METHOD_LABELS: dict[str, str] = {
+    key: _METHOD_WORDS[key]
+    for key in ("auto", *(m for m in LORENZ_METHODS if m != "auto"))
+    if key in LORENZ_METHODS
+}
+
+
+def method_label(key: str) -> str:
+    """A planner's name for a Lorenz method key."""
+    return METHOD_LABELS.get(key, key)
+
+
+# --- pages, datasets, view fields ------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class Page:
+    """One page of the app: its title, its icon and its script in ``pages/``."""
+
+    title: str
+    icon: str
+    script: str
+
+
+#: Page key -> page; the first one is served at "/".
+PAGES: dict[str, Page] = {
+    "atlas": Page("Atlas", ":material/map:", "atlas.py"),
+    "timelines": Page("Timelines", ":material/timeline:", "timelines.py"),
+    "breakdown": Page("Breakdown", ":material/stacked_bar_chart:", "breakdown.py"),
+    "district": Page("District sheet", ":material/description:", "district.py"),
+    "intake": Page("Intake", ":material/upload_file:", "intake.py"),
+}
+
+#: Built-in dataset id -> (name in the dataset list, kind of demo data).
+DEMO_DATASETS: dict[str, tuple[str, str]] = {
+    "demo": ("Demo: decile shares", "brackets"),
+    "demo-households": ("Demo: household sample", "units"),
+    "demo-means": ("Demo: district means", "means"),
+}
+
+#: The view's field for the index the Breakdown page splits.
+BREAKDOWN_FIELD = "decomposition_index"
+#: The view's field for "mark wide intervals".
+INTERVAL_FIELD = "show_intervals"
+
+# --- maps and tables -------------------------------------------------------------------------
+
+CLASS_LABELS = {
+    "quantiles": "Equal counts (quantiles)",
+    "equal": "Equal widths",
+    "breaks": "Natural breaks",
+}
+
+#: An interval wider than this share of its value is called wide (a display choice).
+WIDE_SHARE = 0.15
+
+COLUMN_LABELS = {
+    "rank": "Rank",
+    "name": "District",
+    "region": "Id",
+    "county": "County",
+    "value": "Value",
+    "lower": "Lower bound",
+    "upper": "Upper bound",
+    "klass": "Class",
+    "note": "Note",
+    "year": "Year",
+    "index": "Index",
+    "method": "Method",
+}
+
+
+#: Column titles of the Lorenz fit diagnostics on the District sheet.
+FIT_COLUMNS = {
+    "method": "Curve asked for",
+    "used": "Curve used",
+    "valid": "Usable",
+    "max_error": "Largest gap to a published point",
+    "sse": "Sum of squared gaps",
+    "reason": "Why not usable",
+}
+
+#: Column titles of the index table on the District sheet (after ``COLUMN_LABELS``).
+INDEX_COLUMNS = {
+    "Index": "Index",
+    "Value": "Value",
+    "Lower bound": "Lower bound",
+    "Upper bound": "Upper bound",
+    "Method": "Curve or data",
+    "Note": "Note",
+}
+
+
+def ranking_title(kind: str) -> str:
+    """The heading of a district ranking: what rank 1 means for this kind of data."""
+    if kind == "means":
+        return "Districts ranked (1 = highest mean income)"
+    return "Districts ranked (1 = most unequal)"
+
+
+def ranking_caution(kind: str) -> str:
+    """The sentence under a ranking: read a rank with its figures, not as a verdict."""
+    if kind == "means":
+        return (
+            "Neighbouring ranks often differ by little: read a rank with the figures beside "
+            "it, not as a verdict."
+        )
+    return (
+        "Neighbouring ranks often differ by less than the bounds: read a rank with its "
+        "bounds, not as a verdict."
+    )
+
+
+# --- decomposition parts ---------------------------------------------------------------------
+
+#: The parts of a within/between split, for a chart whose groups are named elsewhere.
+PART_WORDS = {
+    "within": "Within groups",
+    "between": "Between groups",
+    "overlap": "Overlap of groups (Gini)",
+}
+
+#: Column titles of a decomposition table (the change table renames three of them).
+PART_COLUMNS = {
+    "year": "Year",
+    "level": "Groups",
+    "group": "Group",
+    "component": "Part",
+    "value": "Value",
+    "share": "Share of the total",
+}
+CHANGE_COLUMNS = {
+    **PART_COLUMNS,
+    "year": "Years",
+    "component": "Term",
+    "share": "Share of the change",
+}
+
+#: Column -> the words a decomposition table shows for a row (its data keep the keys).
+PART_TEXT = {
+    "level": lambda row: groups_word(row["level"]).capitalize(),
+    "group": lambda row: "All" if row["group"] == "(all)" else row["group"],
+    "component": lambda row: part_label(row["component"], row["level"]),
+}
+
+CHANGE_TERM_HELP = {
+    "within": "inequality inside the groups changed",
+    "population_within": "people moved between groups with different inside inequality",
+    "population_between": "people moved between richer and poorer groups",
+    "relative_income": "groups' mean incomes moved apart or together",
+    "residual": "what the approximation of the change leaves over",
+    "total": "the change of the index between the two years",
+}
+
+
+def groups_word(level: str, *, plural: bool = True) -> str:
+    """A level key in planner words: ``region`` is a district, ``total`` the province."""
+    if level in ("region", "district", "districts"):
+        return "districts" if plural else "district"
+    if level == "total":
+        return "whole province"
+    level = str(level)
+    if not plural or level.endswith("s"):
+        return level
+    if level.endswith("y") and level[-2:-1] not in tuple("aeiou"):
+        return f"{level[:-1]}ies"
+    return f"{level}s"
+
+
+def part_label(component: str, level: str = "") -> str:
+    """A decomposition part (or change term) in planner words, naming its groups."""
+    groups = groups_word(level) if level and level != "total" else "groups"
+    words = {
+        "total": "Total",
+        "between": f"Between {groups}",
+        "within": f"Within {groups}",
+        "overlap": f"Overlap of {groups} (Gini)",
+        "population_within": f"Population shifts within {groups}",
+        "population_between": f"Population shifts between {groups}",
+        "relative_income": f"Changes in {groups}' relative incomes",
+        "residual": "Approximation residual",
+    }
+    return words.get(str(component), str(component).replace("_", " "))
+
+
+# --- captions --------------------------------------------------------------------------------
+
+# Chart captions longer than a chart is wide are cut off by Vega; wrapped lines are not.
+CAPTION_CHARS = 115
+
+
+def wrap(text: str, width: int = CAPTION_CHARS) -> list[str]:
+    """A caption as lines short enough for the chart (Vega draws each as a subtitle line)."""
+    return textwrap.wrap(str(text), width=width) or [""]
+
+
+def value_label(view: Any, panel: Any) -> str:
+    """What the map's colour means, with its units."""
+    if panel.kind == "means":
+        return "Mean income (currency units)"
+    label = index_label(view.index).split(" (")[0]
+    if view.index.endswith("_share"):
+        return f"{label} (share)"
+    if view.index in ("palma", "s80_s20"):
+        return f"{label} (ratio)"
+    return f"{label} (0 = equal)"
+
+
+def dataset_name(view: Any, panel: Any) -> str:
+    """The dataset's name as the sidebar lists it."""
+    if view.dataset in DEMO_DATASETS:
+        return DEMO_DATASETS[view.dataset][0]
+    return panel.name or view.dataset
+
+
+def caption(view: Any, panel: Any, *, every_year: bool = False) -> str:
+    """A caption naming the data, the year (unless ``every_year``) and the method."""
+    name = dataset_name(view, panel)
+    if panel.kind == "brackets":
+        how = f"Lorenz curves rebuilt from income shares: {method_label(view.method).lower()}"
+    elif panel.kind == "units":
+        how = "computed from weighted unit records"
+    else:
+        how = "district mean incomes"
+    concept = f" Income: {panel.income_concept}." if getattr(panel, "income_concept", "") else ""
+    when = "" if every_year else f", {view.year}"
+    return f"Data: {name}{when}; {how}.{concept}"
+
+
+def describe_view(view: Any, panel: Any) -> str:
+    """One line: dataset, index, year."""
+    return f"{dataset_name(view, panel)} · {value_label(view, panel)} · {view.year}"
+
+
+# --- numbers ---------------------------------------------------------------------------------
+
+
+def tidy_zero(values: pd.Series, tolerance: float = 1e-12) -> pd.Series:
+    """Rounding noise shown as 0, so a table never reads -0.0000 or 5e-16."""
+    numbers = pd.to_numeric(values, errors="coerce")
+    return numbers.where(~(numbers.abs() < tolerance), 0.0)
+
+
+def bound_text(value: Any, digits: int = 4) -> str:
+    """A bound for display: blank when there is none, words when it is infinite."""
+    try:
+        number = float(value)
+    except (TypeError, ValueError):
+        return ""
+    if np.isnan(number):
+        return ""
+    if np.isinf(number):
+        return "no finite bound"
+    return f"{number:.{digits}f}"
+
+
+def figure(value: Any, *, money: bool = False, digits: int = 3) -> str:
+    """One number for a metric: a dash when missing, whole currency units for incomes."""
+    try:
+        number = float(value)
+    except (TypeError, ValueError):
+        return "—"
+    if not np.isfinite(number):
+        return "—" if np.isnan(number) else ("∞" if number > 0 else "−∞")
+    if money:
+        return f"{number:,.0f}"
+    if abs(number) < 0.5 * 10.0**-digits:
+        number = 0.0
+    return f"{number:.{digits}f}"
+
+
+def money(low: float, high: float) -> str:
+    """A class of incomes in whole currency units with thousands separators."""
+    return f"{low:,.0f} – {high:,.0f}"

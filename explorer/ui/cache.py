@@ -1,0 +1,142 @@
+"""The figures layer's computations, cached by content for the app.
+
+Every computation is keyed by the panel's fingerprint (hashed) plus a scope (the session's own
+id for uploads, so even identical uploads in two sessions never share an entry) and its
+arguments; the panel itself travels as ``_panel`` and is not hashed. :class:`CachedCompute`
+offers these under the names of :class:`explorer.figures.Compute`, so a page hands it to the
+same figure functions the report and the command line call with a plain implementation.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass
+from typing import Any
+
+import pandas as pd
+import streamlit as st
+
+from explorer.figures import compute as plain
+from explorer.figures.compute import MAP_PERMUTATIONS, tidy
+
+__all__ = ["BOOTSTRAP_KEY", "CachedCompute", "ChartSpec"]
+
+#: Session key of the sidebar's "Sampling intervals (bootstrap)" toggle.
+BOOTSTRAP_KEY = "ctl_bootstrap"
+
+
+@st.cache_data(show_spinner="Computing the indices for every district and year…", max_entries=64)
+def _indices(_panel, fingerprint: str, scope: str, method: str):
+    return tidy(plain.PlainCompute(_panel).indices(method))
+
+
+@st.cache_data(
+    show_spinner="Resampling the households 199 times for every district and year…",
+    max_entries=16,
+)
+def _bootstrapped(_panel, fingerprint: str, scope: str):
+    return tidy(plain.PlainCompute(_panel).indices("auto", ci="bootstrap"))
+
+
+@st.cache_data(show_spinner="Checking the Lorenz fits…", max_entries=32)
+def _fits(_panel, fingerprint: str, scope: str, methods: tuple[str, ...]):
+    return tidy(plain.PlainCompute(_panel).fits(methods))
+
+
+@st.cache_data(show_spinner="Splitting inequality within and between groups…", max_entries=64)
+def _breakdown(_panel, fingerprint: str, scope: str, by: tuple[str, ...], index: str, method: str):
+    return tidy(plain.PlainCompute(_panel).breakdown(by, index, method))
+
+
+@st.cache_data(show_spinner="Decomposing the change…", max_entries=64)
+def _change(_panel, fingerprint: str, scope: str, by: tuple[str, ...], index: str, start, end):
+    return tidy(plain.PlainCompute(_panel).change(by, index, start, end))
+
+
+@st.cache_data(show_spinner=False, max_entries=128)
+def _lorenz_curves(_panel, fingerprint: str, scope: str, region: str, year: int, methods):
+    return plain.lorenz_curves(_panel, region, year, methods)
+
+
+# cache_data, not cache_resource: an upload's clusters are user data, and cache_resource would
+# hand one shared object to every session.
+@st.cache_data(show_spinner="Testing for spatial clustering (permutations)…", max_entries=32)
+def _clusters(_panel, fingerprint: str, scope: str, values: pd.Series, permutations: int):
+    return plain.clusters(_panel, values, permutations)
+
+
+@st.cache_data(show_spinner=False, max_entries=64)
+def _map_features(_panel, fingerprint: str, scope: str, values: pd.DataFrame):
+    return plain.PlainCompute(_panel).map_features(values)
+
+
+class ChartSpec:
+    """A chart kept as its Vega-Lite spec: what is drawn, cached and exported.
+
+    Building an Altair chart and validating it costs more than drawing it; a spec built
+    once per view is reused on every redraw. ``to_dict`` makes it usable wherever a chart
+    is expected (PNG and SVG export, the report).
+    """
+
+    def __init__(self, spec: dict[str, Any]) -> None:
+        self.spec = spec
+
+    def to_dict(self, **_: Any) -> dict[str, Any]:
+        return self.spec
+
+
+@st.cache_data(show_spinner=False, max_entries=256)
+def _choropleth(_panel, fingerprint: str, scope: str, values: pd.DataFrame, labels: str):
+    import json
+
+    from explorer.present import charts
+
+    features = _map_features(_panel, fingerprint, scope, values)
+    return charts.choropleth(features, **json.loads(labels)).to_dict()
+
+
+@dataclass(frozen=True)
+class CachedCompute:
+    """The figures layer's :class:`~explorer.figures.Compute`, cached by content."""
+
+    panel: Any
+    scope: str
+
+    @property
+    def fingerprint(self) -> str:
+        return self.panel.fingerprint
+
+    def _key(self) -> tuple[Any, str, str]:
+        return self.panel, self.fingerprint, self.scope
+
+    def indices(self, method: str, ci: str | None = None) -> pd.DataFrame:
+        if ci is None and self.panel.kind == "units" and st.session_state.get(BOOTSTRAP_KEY):
+            ci = "bootstrap"
+        if ci == "bootstrap":
+            return _bootstrapped(*self._key())
+        method = method if self.panel.kind == "brackets" else "auto"
+        return _indices(*self._key(), method)
+
+    def fits(self, methods: Sequence[str]) -> pd.DataFrame:
+        return _fits(*self._key(), tuple(methods))
+
+    def breakdown(self, by: Sequence[str], index: str, method: str) -> pd.DataFrame:
+        return _breakdown(*self._key(), tuple(by), index, method)
+
+    def change(self, by: Sequence[str], index: str, year_from: int, year_to: int) -> pd.DataFrame:
+        return _change(*self._key(), tuple(by), index, year_from, year_to)
+
+    def lorenz_curves(self, region: str, year: int, methods: Sequence[str]) -> pd.DataFrame:
+        return _lorenz_curves(*self._key(), region, int(year), tuple(methods))
+
+    def clusters(self, values: pd.Series, permutations: int = MAP_PERMUTATIONS):
+        return _clusters(*self._key(), values, permutations)
+
+    def map_features(self, values: pd.DataFrame) -> list[dict[str, Any]]:
+        return _map_features(*self._key(), values)
+
+    def choropleth(self, values: pd.DataFrame, **labels: Any) -> ChartSpec:
+        import json
+
+        shown = {k: list(v) if isinstance(v, tuple) else v for k, v in labels.items()}
+        return ChartSpec(_choropleth(*self._key(), values, json.dumps(shown, sort_keys=True)))
