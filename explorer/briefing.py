@@ -12,7 +12,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from explorer.data import io
+from explorer import data as io
 from explorer.data.model import DataError, Panel, Problem
 from explorer.present import cautions, charts, frames, report
 from explorer.stats import decompose, indices

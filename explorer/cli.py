@@ -160,7 +160,7 @@ def _split(text: str | None) -> list[str]:
 
 def _load(args: argparse.Namespace):
     """The panel named on the command line, validated."""
-    from explorer.data import io
+    from explorer import data as io
 
     if args.panel == DEMO:
         return io.demo_panel(args.kind or "brackets")

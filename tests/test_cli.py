@@ -10,7 +10,7 @@ import pandas as pd
 import pytest
 
 from explorer import cli
-from explorer.data import io
+from explorer import data as io
 
 BAD = Path(__file__).parent / "fixtures" / "bad"
 

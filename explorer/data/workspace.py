@@ -358,7 +358,7 @@ class Workspace:
         Parameters
         ----------
         panel : Panel
-            The panel read from ``sources`` (from ``explorer.data.io.load_panel``).
+            The panel read from ``sources`` (from ``explorer.data.load.load_panel``).
         sources : sequence of path or (name, bytes)
             The input files exactly as read: paths on disk or uploads as (name, bytes).
             Only read, never changed.

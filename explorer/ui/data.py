@@ -90,7 +90,7 @@ def catalog() -> list[Dataset]:
 
 @st.cache_resource(show_spinner="Reading the demo province…")
 def _demo(kind: str):
-    from explorer.data.io import demo_panel
+    from explorer.data.demo import demo_panel
 
     return demo_panel(kind)
 
