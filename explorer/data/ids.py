@@ -64,7 +64,7 @@ def leading_zero_clashes(ids: Iterable[str]) -> list[list[str]]:
     by_value: dict[int, list[str]] = {}
     for code in digits:
         by_value.setdefault(int(code), []).append(code)
-    return [sorted(group, key=len) for group in by_value.values() if len(group) > 1]
+    return [sorted(by_value[v], key=len) for v in sorted(by_value) if len(by_value[v]) > 1]
 
 
 @dataclass(frozen=True)

@@ -125,8 +125,8 @@ def attach_boundaries(boundaries: Any, regions, found: IdMatch, boundary_file: s
     )
     if name_col is not None:
         out["name"] = id_strings(boundaries[name_col])
-    for c in others:
-        if c != name_col and str(c) not in out.columns:
+    for c in others:  # the name attribute too, under its own name, for level checks
+        if str(c) not in out.columns:
             out[str(c)] = boundaries[c].to_numpy()
     if out.crs is not None and not out.crs.equals("EPSG:4326"):
         out = out.to_crs("EPSG:4326")

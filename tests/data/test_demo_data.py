@@ -122,7 +122,7 @@ def test_trapezoid_gini_matches_the_lognormal_closed_form_at_deciles():
 
     Lognormal Lorenz curve L(p) = Phi(Phi^-1(p) - sigma) (Aitchison & Brown 1957); its
     Gini 2 Phi(sigma / sqrt 2) - 1 bounds the trapezoid value from above, and for
-    sigma = 0.7 at quintile points the trapezoid value is 0.3537347204 (REFERENCES.md,
+    sigma = 0.7 at quintile points the trapezoid value is 0.3537347204 (computed here by the trapezoid rule;
     Gastwirth 1972 bounds).
     """
     from scipy.stats import norm

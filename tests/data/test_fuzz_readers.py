@@ -490,7 +490,9 @@ def test_files_above_the_size_limit_are_refused_before_reading(tmp_path, suffix)
     big = tmp_path / f"big{suffix}"
     with open(big, "wb") as handle:
         handle.truncate(files.MAX_FILE_BYTES + 1)  # sparse: costs no disk space
-    reader = tables.read_table if suffix in (".csv", ".parquet", ".xlsx") else boundaries.read_boundaries
+    reader = (
+        tables.read_table if suffix in (".csv", ".parquet", ".xlsx") else boundaries.read_boundaries
+    )
     _data_error(lambda: reader(big), "larger than the limit")
     assert big.stat().st_size == files.MAX_FILE_BYTES + 1
 

@@ -30,7 +30,9 @@ NATURAL_EARTH = (
     / "naturalearth_lowres"
     / "naturalearth_lowres.shp"
 )
-QUINTILES = np.diff(np.linspace(0, 1, 6) ** 2)  # uniform incomes, L(p) = p^2 (REFERENCES.md)
+QUINTILES = np.diff(
+    np.linspace(0, 1, 6) ** 2
+)  # uniform incomes: L(p) = p^2, a closed form (common practice)
 
 
 def means_csv(delimiter=",", decimal="."):
@@ -70,7 +72,9 @@ def test_latin1_file_is_read_with_its_accented_names(write_text):
 
 
 def test_codes_with_leading_zeros_stay_text(write_text):
-    frame = tables.read_table(write_text("m.csv", "region,year,mean_income\n007,2020,1\n012,2020,2\n"))
+    frame = tables.read_table(
+        write_text("m.csv", "region,year,mean_income\n007,2020,1\n012,2020,2\n")
+    )
     assert frame.region.tolist() == ["007", "012"]
 
 

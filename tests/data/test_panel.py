@@ -1,6 +1,6 @@
-"""Tests of explorer.data.panel: the Panel model, Problem/DataError and every validation rule.
+"""Tests of explorer.data.validate (and explorer.data.model): the Panel model, Problem/DataError and every validation rule.
 
-Bracket shares come from closed-form Lorenz curves (REFERENCES.md): the uniform
+Bracket shares come from closed-form Lorenz curves (common practice): the uniform
 distribution on (0, b) has L(p) = p^2 and Pareto I with alpha has
 L(p) = 1 - (1 - p)^(1 - 1/alpha) (Kleiber & Kotz 2003, from memory; cross-checked below
 by integrating the quantile function with scipy). Bracket k of K equal groups holds
@@ -23,7 +23,7 @@ K = 5
 
 
 def uniform_shares(k: int = K) -> np.ndarray:
-    """Shares of k equal groups under L(p) = p^2 (uniform incomes; REFERENCES.md)."""
+    """Shares of k equal groups under L(p) = p^2 (uniform incomes; a closed form of common practice)."""
     p = np.linspace(0, 1, k + 1)
     return np.diff(p**2)
 
@@ -132,7 +132,7 @@ def test_wide_shares_become_long_equal_population_groups_with_the_same_fingerpri
     ],
 )
 def test_kind_is_detected_from_the_columns(columns, kind):
-    """Column sets of the data model (DESIGN.md) decide the kind."""
+    """Column sets of the data model (DEVELOPERS.md, this project's own) decide the kind."""
     assert detect_kind(columns) == kind
 
 
