@@ -47,11 +47,13 @@ def fsync_dir(path: Path) -> None:
 
 
 def fsync_file(path: Path) -> None:
+    """Persist a written file's content before it is renamed into place."""
     with open(path, "rb+") as handle:
         os.fsync(handle.fileno())
 
 
 def sha256_file(path: Path) -> str:
+    """SHA-256 of a file, read in chunks so memory stays bounded."""
     digest = hashlib.sha256()
     with open(path, "rb") as handle:
         while chunk := handle.read(CHUNK):
@@ -60,6 +62,7 @@ def sha256_file(path: Path) -> str:
 
 
 def temp_name(prefix: str = PARTIAL) -> str:
+    """A hidden temporary name carrying this process's id (see :func:`is_leftover`)."""
     return f"{prefix}{os.getpid()}-{secrets.token_hex(6)}"
 
 

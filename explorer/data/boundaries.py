@@ -13,12 +13,16 @@ import warnings
 import zipfile
 from collections.abc import Sequence
 from pathlib import Path, PurePosixPath
+from typing import TYPE_CHECKING
 
 import numpy as np
 
 from explorer.data.crs import settle_crs
 from explorer.data.files import at_the_edge, check_file, check_size, check_zip, label
 from explorer.data.model import DataError, Problem, fail
+
+if TYPE_CHECKING:
+    import geopandas as gpd
 
 __all__ = ["SHAPEFILE_PARTS", "BoundarySource", "read_boundaries"]
 
@@ -44,7 +48,7 @@ def read_boundaries(
     layer: str | None = None,
     crs: str | None = None,
     file_label: str | None = None,
-):
+) -> gpd.GeoDataFrame:
     """Read district boundaries as a GeoDataFrame in EPSG:4326.
 
     Parameters

@@ -9,8 +9,12 @@ proposed with a warning, and a file in metres is never taken as longitude/latitu
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 from explorer.data.model import Problem, fail
+
+if TYPE_CHECKING:
+    import geopandas as gpd
 
 __all__ = ["CrsCandidate", "propose_crs", "settle_crs"]
 
@@ -111,7 +115,9 @@ def propose_crs(bounds: tuple[float, float, float, float]) -> list[CrsCandidate]
     return out
 
 
-def settle_crs(gdf, file: str, crs: str | None, problems: list[Problem]):
+def settle_crs(
+    gdf: gpd.GeoDataFrame, file: str, crs: str | None, problems: list[Problem]
+) -> gpd.GeoDataFrame:
     """``gdf`` with its coordinate system set: the one given, else declared, else lon/lat.
 
     A file with no CRS whose coordinates lie in longitude/latitude range is taken as

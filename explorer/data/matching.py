@@ -4,11 +4,14 @@ lost their zeros are matched, which districts are in one file and not the other.
 
 from __future__ import annotations
 
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from explorer.data.checks import Log
 from explorer.data.ids import IdMatch, id_strings, leading_zero_clashes, match_ids
 from explorer.data.model import _listing
+
+if TYPE_CHECKING:
+    import geopandas as gpd
 
 __all__ = ["NAME_ATTRIBUTES", "attach_boundaries", "boundary_ids", "report_clashes"]
 
@@ -103,7 +106,9 @@ def _report_coverage(ours: set, theirs: set, boundary_file: str, column: str, lo
     return True
 
 
-def attach_boundaries(boundaries: Any, regions, found: IdMatch, boundary_file: str, log: Log):
+def attach_boundaries(
+    boundaries: Any, regions, found: IdMatch, boundary_file: str, log: Log
+) -> gpd.GeoDataFrame | None:
     """``region`` (the panel's ids), ``geometry`` in EPSG:4326, ``name`` when the file has
     one, and the other attributes; None (logged) when no district matches."""
     import geopandas as gpd

@@ -395,6 +395,19 @@ def _hierarchy(rows: Rows, good_rows, regions, bounds, choice, boundary_file: st
     return hierarchy, tuple(levels), bounds
 
 
+def _start(frame: Any, file: str, boundaries: Any, kind: str | None) -> Log:
+    """The problem log, holding the readers' own warnings; a non-table is refused."""
+    if not isinstance(frame, pd.DataFrame):
+        raise DataError(Problem("expected a table of rows and columns", file=file))
+    inherited = list(frame.attrs.get("problems", ()))
+    if boundaries is not None:
+        inherited += list(getattr(boundaries, "attrs", {}).get("problems", ()))
+    log = Log(file, inherited)
+    if kind is not None and kind not in KINDS:
+        log.add(f"unknown kind {kind!r}", f"use one of {', '.join(KINDS)}")
+    return log
+
+
 def _attach_ids(region: np.ndarray, boundaries: Any, boundary_file: str, log: Log):
     """Match the boundary ids to the panel's (padding numeric ids where that makes every id
     match); returns the panel ids to use and the match, or None without boundaries."""
@@ -460,14 +473,7 @@ def validate(
     of Economics and Statistics* 54: 306-316 (a Lorenz curve from bracket shares must be
     convex: bracket mean incomes non-decreasing from bottom to top).
     """
-    if not isinstance(frame, pd.DataFrame):
-        raise DataError(Problem("expected a table of rows and columns", file=file))
-    inherited = list(frame.attrs.get("problems", ()))
-    if boundaries is not None:
-        inherited += list(getattr(boundaries, "attrs", {}).get("problems", ()))
-    log = Log(file, inherited)
-    if kind is not None and kind not in KINDS:
-        log.add(f"unknown kind {kind!r}", f"use one of {', '.join(KINDS)}")
+    log = _start(frame, file, boundaries, kind)
     choice = read_choice(levels)
     columns = _shape(frame, log)
     layout = detect_layout(columns, kind, log)
@@ -480,12 +486,7 @@ def validate(
     rows = _district_years(table, region, year, line)
 
     found = Findings(log)
-    if layout.kind == "brackets":
-        values = bracket_values(rows, layout, found)
-    elif layout.kind == "units":
-        values = unit_values(rows, found, allow_negative)
-    else:
-        values = mean_values(rows, found)
+    values = _values(rows, layout, found, allow_negative)
     excluded = _set_aside(rows, layout, found)
     good = np.ones(rows.n_groups, dtype=bool)
     good[found.fails.first()["gid"].to_numpy(dtype=np.int64)] = False
@@ -511,6 +512,14 @@ def validate(
         income_concept=income_concept,
         excluded=excluded,
     )
+
+
+def _values(rows: Rows, layout: Layout, found: Findings, allow_negative: bool) -> pd.DataFrame:
+    if layout.kind == "brackets":
+        return bracket_values(rows, layout, found)
+    if layout.kind == "units":
+        return unit_values(rows, found, allow_negative)
+    return mean_values(rows, found)
 
 
 def _matched(boundaries: Any, regions, id_match: IdMatch | None, boundary_file: str, log: Log):

@@ -1,4 +1,5 @@
-"""Fuzzing of every reader in explorer.data.io: hostile bytes may only ever raise DataError.
+"""Fuzzing of every reader in explorer.data (tables, boundaries, load): hostile bytes may
+only ever raise DataError.
 
 Inputs are random bytes, mutated copies of valid files (CSV, Parquet, Excel, GeoJSON,
 GeoPackage, GeoParquet, zipped Shapefile), random CSV text with odd delimiters, quotes,

@@ -1,5 +1,6 @@
-"""Tests of explorer.data.io: table and boundary readers, column maps, load_panel, demo panels,
-safety limits. Every file is written for real into tmp_path.
+"""Tests of the readers: explorer.data.tables, .columns, .boundaries, .load and .demo
+(table and boundary readers, column maps, load_panel, demo panels, safety limits). Every
+file is written for real into tmp_path.
 
 Outside references: pyogrio's shipped Natural Earth 1:110m countries
 (naturalearth_lowres, Natural Earth, public domain), pyproj's Transformer for
