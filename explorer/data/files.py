@@ -18,6 +18,7 @@ __all__ = [
     "MAX_ZIP_UNCOMPRESSED",
     "at_the_edge",
     "check_file",
+    "check_size",
     "check_zip",
     "label",
 ]

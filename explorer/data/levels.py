@@ -19,7 +19,14 @@ import pandas as pd
 
 from explorer.data.ids import id_strings
 
-__all__ = ["LevelCandidate", "LevelChoice", "district_values", "propose_levels", "read_choice"]
+__all__ = [
+    "LevelCandidate",
+    "LevelChoice",
+    "district_values",
+    "propose",
+    "propose_levels",
+    "read_choice",
+]
 
 _NUMBER = re.compile(r"^[+-]?(\d+([.,]\d*)?|[.,]\d+)([eE][+-]?\d+)?%?$")
 _NOT_LEVELS = {
