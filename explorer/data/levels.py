@@ -15,9 +15,10 @@ import re
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 
+import numpy as np
 import pandas as pd
 
-from explorer.data.ids import id_strings
+from explorer.data.ids import id_strings, match_ids
 
 __all__ = [
     "LevelCandidate",
@@ -148,8 +149,9 @@ def propose_levels(
     table : DataFrame
         The panel as read, with a ``region`` column (after any column map).
     boundaries : DataFrame, optional
-        Attributes of the boundary file, with a ``region`` column holding the panel's ids
-        (for example ``Panel.boundaries`` or a boundary file with its id renamed).
+        Attributes of the boundary file as read; its ``region`` column, else the
+        attribute that best matches the panel's ids (:func:`explorer.data.ids.match_ids`),
+        holds the district ids.
 
     Returns
     -------
@@ -161,10 +163,23 @@ def propose_levels(
     keep = pd.notna(regions)
     n = len(set(regions[keep]))
     found = propose(table[keep], regions[keep], n, "panel")
-    if boundaries is not None and "region" in boundaries.columns:
-        ids = id_strings(boundaries["region"])
+    ids = None if boundaries is None else _boundary_ids(boundaries, regions[keep])
+    if ids is not None:
         inside = pd.Series(ids).isin(set(regions[keep])).to_numpy()
         attrs = boundaries[inside].drop(columns=["geometry"], errors="ignore")
         for column, item in propose(attrs, ids[inside], n, "boundaries").items():
             found.setdefault(column, item)
     return sorted((c for c, _ in found.values()), key=lambda c: (c.groups, c.column))
+
+
+def _boundary_ids(boundaries: pd.DataFrame, panel_ids) -> np.ndarray | None:
+    """The panel's id of each boundary feature, through the attribute that matches best."""
+    attrs = {str(c): id_strings(boundaries[c]) for c in boundaries.columns if c != "geometry"}
+    found = match_ids(set(panel_ids), attrs)
+    if found.column is None or found.matched == 0:
+        return None
+    back = {code: number for number, code in found.panel_ids.items()}
+    ids = attrs[found.column]
+    if found.boundary_ids:
+        ids = [found.boundary_ids.get(i, i) for i in ids]
+    return np.array([back.get(i, i) for i in ids], dtype=object)

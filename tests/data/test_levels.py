@@ -71,6 +71,11 @@ def test_only_the_sensible_text_schemes_are_proposed_from_an_office_boundary_fil
     ]
 
 
+def test_the_boundary_id_attribute_is_found_without_being_named():
+    proposals = propose_levels(means_table(), office_boundaries())
+    assert [c.column for c in proposals] == ["REGION_A", "SUB_REGION"]
+
+
 def test_validate_takes_only_those_levels_by_default_outermost_first():
     panel = validate(means_table(), boundaries=office_boundaries(), boundary_file="b.gpkg")
     assert panel.levels == ("REGION_A", "SUB_REGION")
