@@ -1,6 +1,6 @@
 """The ``rift`` command line: app, check, compute, decompose, spatial, report.
 
-Every command reads its panel through :func:`explorer.data.io.load_panel`, so the command line
+Every command reads its panel through :func:`explorer.data.load.load_panel`, so the command line
 and the app accept exactly the same files. Problems with the input are printed one per
 line and exit with status 2; the command never shows a traceback.
 """
@@ -163,12 +163,12 @@ def _split(text: str | None) -> list[str]:
 
 def _load(args: argparse.Namespace):
     """The panel named on the command line, validated."""
-    from explorer.data import io
+    from explorer import data as readers
 
     if args.panel == DEMO:
-        return io.demo_panel(args.kind or "brackets")
-    column_map = io.parse_column_map(args.map) if args.map else None
-    return io.load_panel(
+        return readers.demo_panel(args.kind or "brackets")
+    column_map = readers.parse_column_map(args.map) if args.map else None
+    return readers.load_panel(
         args.panel,
         getattr(args, "boundaries", None),
         kind=args.kind,

@@ -10,7 +10,7 @@ import pandas as pd
 import pytest
 
 from explorer import cli
-from explorer.data import io
+from explorer import data as readers
 
 BAD = Path(__file__).parent / "fixtures" / "bad"
 
@@ -24,7 +24,7 @@ def run(capsys, *argv: str) -> tuple[int, str, str]:
 def test_check_demo_reports_the_province_and_exits_zero(capsys):
     code, out, _ = run(capsys, "check", "demo")
     assert code == 0
-    panel = io.demo_panel()
+    panel = readers.demo_panel()
     assert f"districts: {len(panel.regions)}" in out
     assert "higher levels: county" in out
     assert f"boundaries: {len(panel.regions)} districts matched" in out
@@ -39,7 +39,7 @@ def test_check_bad_file_exits_two_and_names_the_problem(capsys):
 
 
 def test_check_reads_a_column_map(tmp_path, capsys):
-    demo = pd.read_csv(io.demo_paths("means")[0])
+    demo = pd.read_csv(readers.demo_paths("means")[0])
     renamed = demo.rename(columns={"region": "DistrictCode", "year": "Yr"})
     path = tmp_path / "renamed.csv"
     renamed.to_csv(path, index=False)
@@ -93,7 +93,7 @@ def test_compute_to_stdout_parses_as_csv(capsys):
 
 
 def test_compute_refuses_to_overwrite_its_input(tmp_path, capsys):
-    source = io.demo_paths("means")[0]
+    source = readers.demo_paths("means")[0]
     copy = tmp_path / "means.csv"
     copy.write_bytes(source.read_bytes())
     before = hashlib.sha256(copy.read_bytes()).hexdigest()
@@ -148,7 +148,7 @@ def test_spatial_writes_one_row_per_district(tmp_path, capsys):
     )
     assert code == 0
     table = pd.read_csv(out)
-    assert len(table) == len(io.demo_panel().regions)
+    assert len(table) == len(readers.demo_panel().regions)
     assert set(table["cluster"]) <= {
         "high-high",
         "low-low",
@@ -171,11 +171,11 @@ def test_report_of_a_saved_view_is_one_offline_file_with_the_views_figures(tmp_p
     code, _, err = run(capsys, "report", str(view_file), "--out", str(out))
     assert code == 0, err
     html = out.read_text(encoding="utf-8")
-    assert io.demo_panel().fingerprint in html
+    assert readers.demo_panel().fingerprint in html
     assert "<script src=" not in html and "https://cdn" not in html
     # The straight-line Gini of CAL01 in 2020 by the trapezoid rule on the shipped shares
     # (common practice: G = 1 - sum (p_i - p_{i-1}) (L_i + L_{i-1})) appears in the ranking.
-    deciles = pd.read_csv(io.demo_paths("brackets")[0])
+    deciles = pd.read_csv(readers.demo_paths("brackets")[0])
     row = deciles[(deciles["region"] == "CAL01") & (deciles["year"] == 2020)]
     shares = row[[f"share_{i}" for i in range(1, 11)]].to_numpy(dtype=float)[0]
     lorenz = np.concatenate([[0.0], np.cumsum(shares)])
@@ -232,7 +232,7 @@ def test_app_serves_this_machine_only_by_default_and_passes_the_data_folder(
 def test_check_save_stores_the_dataset_once_and_leaves_the_inputs_alone(tmp_path, capsys):
     from explorer.data.workspace import Workspace
 
-    panel_path, boundary_path = io.demo_paths("means")
+    panel_path, boundary_path = readers.demo_paths("means")
     before = hashlib.sha256(panel_path.read_bytes()).hexdigest()
     folder = tmp_path / "workspace"
     argv = (
@@ -252,7 +252,7 @@ def test_check_save_stores_the_dataset_once_and_leaves_the_inputs_alone(tmp_path
     stored = Workspace(folder).list()
     assert len(stored) == 1
     reopened = Workspace(folder).open(stored["id"].iloc[0])
-    assert reopened.fingerprint == io.load_panel(panel_path, boundary_path).fingerprint
+    assert reopened.fingerprint == readers.load_panel(panel_path, boundary_path).fingerprint
     assert hashlib.sha256(panel_path.read_bytes()).hexdigest() == before
 
 

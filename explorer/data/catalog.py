@@ -8,7 +8,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from explorer.data import io
+from explorer import data as readers
 from explorer.data.model import DataError, Panel, Problem
 from explorer.present.vocabulary import DEMO_DATASETS
 
@@ -23,7 +23,7 @@ def demo_kind(dataset_id: str) -> str | None:
 
 def open_demo(kind: str) -> Panel:
     """The built-in demo province of one kind (``brackets``, ``units`` or ``means``)."""
-    return io.demo_panel(kind)
+    return readers.demo_panel(kind)
 
 
 def open_stored(dataset_id: str, data_dir: str | Path | None = None) -> Panel:

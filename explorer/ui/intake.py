@@ -73,13 +73,13 @@ def _on_disk(*files: Any) -> Iterator[list[Path | None]]:
 @st.cache_data(show_spinner=False, max_entries=16)
 def _columns(name: str, file_id: str, scope: str, _content: bytes) -> list[str]:
     # Keyed by the upload's id, so a large file is not hashed again on every rerun.
-    from explorer.data import io
+    from explorer import data as readers
 
     with tempfile.TemporaryDirectory(prefix="rift-peek-") as folder:
         path = Path(folder) / _safe_name(name)
         path.write_bytes(_content)
         try:
-            return [str(c) for c in io.read_table(path).columns]
+            return [str(c) for c in readers.read_table(path).columns]
         except DataError:
             return []
 
@@ -128,13 +128,13 @@ def reading_options(panel_file: Any, boundary_file: Any) -> dict[str, Any]:
 
 def read_upload(panel_file: Any, boundary_file: Any, options: dict[str, Any]):
     """Read and validate the uploaded files; raises DataError with every problem."""
-    from explorer.data import io
+    from explorer import data as readers
 
     with st.status("Reading and checking the files…", expanded=True) as status:
         with _on_disk(panel_file, boundary_file) as (panel_path, boundary_path):
             st.write(f"Reading {panel_file.name}…")
             try:
-                loaded = io.load_panel(panel_path, boundary_path, **options)
+                loaded = readers.load_panel(panel_path, boundary_path, **options)
             except DataError:
                 status.update(label="The files have problems", state="error")
                 raise

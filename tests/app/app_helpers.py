@@ -59,10 +59,10 @@ def save_demo_with_a_gap(folder: Path, region: str, year: int) -> str:
     into the workspace at ``folder``; the app sets it aside. Returns the dataset id."""
     import pandas as pd
 
-    from explorer.data import io
+    from explorer import data as readers
     from explorer.data.workspace import Workspace
 
-    panel_path, boundary_path = io.demo_paths("brackets")
+    panel_path, boundary_path = readers.demo_paths("brackets")
     frame = pd.read_csv(panel_path)
     hit = (frame["region"] == region) & (frame["year"] == year)
     assert hit.sum() == 1
@@ -70,7 +70,7 @@ def save_demo_with_a_gap(folder: Path, region: str, year: int) -> str:
     folder.mkdir(parents=True, exist_ok=True)
     path = folder.parent / "deciles-with-a-gap.csv"
     frame.to_csv(path, index=False)
-    panel = io.load_panel(path, boundary_path)
+    panel = readers.load_panel(path, boundary_path)
     assert len(panel.excluded) == 1
     options = {"kind": None, "column_map": None, "boundary_id": None, "crs": None}
     return Workspace(folder).add(panel, [path, boundary_path], options)

@@ -12,7 +12,8 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from explorer.data import io
+from explorer.data import boundaries, tables
+from explorer.data.load import load_panel
 from explorer.data.model import DataError
 
 BAD = Path(__file__).resolve().parents[1] / "fixtures" / "bad"
@@ -65,8 +66,8 @@ def load(path: Path, tmp: Path):
     if path.suffix in (".geojson", ".zip"):
         panel = tmp / "panel.csv"
         panel.write_text("region,year,mean_income\nK01,2020,300\nK02,2020,280\n")
-        return io.load_panel(panel, path)
-    return io.load_panel(path)
+        return load_panel(panel, path)
+    return load_panel(path)
 
 
 def digest(folder: Path) -> dict[str, str]:
@@ -130,9 +131,9 @@ def test_arbitrary_bytes_under_any_name_give_a_frame_or_a_data_error(tmp_path, b
     path.write_bytes(blob)
     try:
         if suffix in (".geojson", ".zip", ".gpkg"):
-            io.read_boundaries(path)
+            boundaries.read_boundaries(path)
         else:
-            io.read_table(path)
+            tables.read_table(path)
     except DataError:
         pass
 
@@ -175,7 +176,7 @@ def test_arbitrary_csv_text_gives_a_panel_or_a_data_error(tmp_path, lines, heade
     path = tmp_path / "fuzz.csv"
     path.write_text("\n".join([sep.join(header)] + [sep.join(r) for r in lines]) + "\n")
     try:
-        panel = io.load_panel(path)
+        panel = load_panel(path)
     except DataError:
         return
     assert len(panel.data) > 0

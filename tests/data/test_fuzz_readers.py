@@ -1,4 +1,5 @@
-"""Fuzzing of every reader in explorer.data.io: hostile bytes may only ever raise DataError.
+"""Fuzzing of every reader in explorer.data (tables, boundaries, load): hostile bytes may
+only ever raise DataError.
 
 Inputs are random bytes, mutated copies of valid files (CSV, Parquet, Excel, GeoJSON,
 GeoPackage, GeoParquet, zipped Shapefile), random CSV text with odd delimiters, quotes,
@@ -37,7 +38,7 @@ import pytest
 from hypothesis import HealthCheck, Phase, given, settings
 from hypothesis import strategies as st
 
-from explorer.data import io as rio
+from explorer.data import boundaries, files, load, tables
 from explorer.data.model import DataError
 
 FIXTURE = Path(pyogrio.__file__).parent / "tests" / "fixtures" / "naturalearth_lowres"
@@ -174,11 +175,11 @@ def test_seed_files_are_read_without_error():
         for name, content in SEEDS.items():
             (Path(tmp) / name).write_bytes(content)
         for name in TABLE_SEEDS:
-            assert len(rio.read_table(Path(tmp) / name)) == 24
+            assert len(tables.read_table(Path(tmp) / name)) == 24
         for name in BOUNDARY_SEEDS:
-            gdf = rio.read_boundaries(Path(tmp) / name)
+            gdf = boundaries.read_boundaries(Path(tmp) / name)
             assert len(gdf) == 12 and gdf.crs.to_epsg() == 4326
-        panel = rio.load_panel(Path(tmp) / "means.csv", Path(tmp) / "districts.geojson")
+        panel = load.load_panel(Path(tmp) / "means.csv", Path(tmp) / "districts.geojson")
         assert panel.kind == "means" and len(panel.regions) == 12
 
 
@@ -316,7 +317,7 @@ def geojson_document(draw) -> bytes:
 # the property, for every reader
 
 
-READERS = {"table": rio.read_table, "boundaries": rio.read_boundaries}
+READERS = {"table": tables.read_table, "boundaries": boundaries.read_boundaries}
 
 
 def _check_file(case):
@@ -378,7 +379,7 @@ def _check_panel(case):
         files[bounds[0]] = bounds[1]
 
     def call(folder: Path) -> None:
-        rio.load_panel(
+        load.load_panel(
             folder / table_name, None if bounds is None else folder / bounds[0], **options
         )
 
@@ -489,20 +490,22 @@ def _data_error(call: Callable[[], object], *fragments: str) -> DataError:
 def test_files_above_the_size_limit_are_refused_before_reading(tmp_path, suffix):
     big = tmp_path / f"big{suffix}"
     with open(big, "wb") as handle:
-        handle.truncate(rio.MAX_FILE_BYTES + 1)  # sparse: costs no disk space
-    reader = rio.read_table if suffix in (".csv", ".parquet", ".xlsx") else rio.read_boundaries
+        handle.truncate(files.MAX_FILE_BYTES + 1)  # sparse: costs no disk space
+    reader = (
+        tables.read_table if suffix in (".csv", ".parquet", ".xlsx") else boundaries.read_boundaries
+    )
     _data_error(lambda: reader(big), "larger than the limit")
-    assert big.stat().st_size == rio.MAX_FILE_BYTES + 1
+    assert big.stat().st_size == files.MAX_FILE_BYTES + 1
 
 
 def test_the_size_limit_admits_a_file_of_exactly_the_limit(tmp_path, monkeypatch):
     """The limit is inclusive; checked with the limit lowered to a seed's size."""
     edge = tmp_path / "edge.csv"
     edge.write_bytes(SEEDS["means.csv"])
-    monkeypatch.setattr(rio, "MAX_FILE_BYTES", edge.stat().st_size)
-    assert len(rio.read_table(edge)) == 24
-    monkeypatch.setattr(rio, "MAX_FILE_BYTES", edge.stat().st_size - 1)
-    _data_error(lambda: rio.read_table(edge), "larger than the limit")
+    monkeypatch.setattr(files, "MAX_FILE_BYTES", edge.stat().st_size)
+    assert len(tables.read_table(edge)) == 24
+    monkeypatch.setattr(files, "MAX_FILE_BYTES", edge.stat().st_size - 1)
+    _data_error(lambda: tables.read_table(edge), "larger than the limit")
 
 
 def test_a_one_line_table_of_thousands_of_fields_is_read_or_refused_without_hanging():
@@ -512,7 +515,7 @@ def test_a_one_line_table_of_thousands_of_fields_is_read_or_refused_without_hang
     header = ",".join(f"c{i}" for i in range(5_000))
     row = ",".join("1" for _ in range(5_000))
     only_data_error(
-        lambda folder: rio.read_table(folder / "wide.csv"),
+        lambda folder: tables.read_table(folder / "wide.csv"),
         {"wide.csv": f"{header}\n{row}\n".encode()},
     )
 
@@ -522,10 +525,10 @@ def test_zip_with_too_many_entries_is_refused(tmp_path, reader):
     name = "many.xlsx" if reader == "table" else "many.zip"
     path = tmp_path / name
     with zipfile.ZipFile(path, "w") as archive:
-        for i in range(rio.MAX_ZIP_ENTRIES + 1):
+        for i in range(files.MAX_ZIP_ENTRIES + 1):
             archive.writestr(f"part_{i}.txt", b"")
-    assert len(zipfile.ZipFile(path).infolist()) == rio.MAX_ZIP_ENTRIES + 1  # zipfile agrees
-    call = rio.read_table if reader == "table" else rio.read_boundaries
+    assert len(zipfile.ZipFile(path).infolist()) == files.MAX_ZIP_ENTRIES + 1  # zipfile agrees
+    call = tables.read_table if reader == "table" else boundaries.read_boundaries
     _data_error(lambda: call(path), "too many entries")
 
 
@@ -546,11 +549,11 @@ def _declare_size(path: Path, declared: int) -> None:
 def test_zip_declaring_more_than_the_uncompressed_limit_is_refused(tmp_path, reader):
     path = tmp_path / ("bomb.xlsx" if reader == "table" else "bomb.zip")
     path.write_bytes(SEEDS["means.xlsx" if reader == "table" else "districts.zip"])
-    declared = rio.MAX_ZIP_UNCOMPRESSED + 1
+    declared = files.MAX_ZIP_UNCOMPRESSED + 1
     _declare_size(path, declared)
     infos = zipfile.ZipFile(path).infolist()
-    assert sum(i.file_size for i in infos) > rio.MAX_ZIP_UNCOMPRESSED  # zipfile reads it so
-    call = rio.read_table if reader == "table" else rio.read_boundaries
+    assert sum(i.file_size for i in infos) > files.MAX_ZIP_UNCOMPRESSED  # zipfile reads it so
+    call = tables.read_table if reader == "table" else boundaries.read_boundaries
     _data_error(lambda: call(path), "uncompressed")
 
 
@@ -561,7 +564,7 @@ def test_zip_entries_that_escape_the_archive_are_refused_and_nothing_is_extracte
         archive.writestr(entry, b"")
         archive.writestr("districts.dbf", b"")
     before = sorted(p.name for p in tmp_path.parent.rglob("*"))
-    _data_error(lambda: rio.read_boundaries(path), "escapes the archive")
+    _data_error(lambda: boundaries.read_boundaries(path), "escapes the archive")
     assert sorted(p.name for p in tmp_path.parent.rglob("*")) == before
 
 
@@ -574,5 +577,5 @@ def test_a_zip_bomb_shaped_entry_is_not_inflated(tmp_path):
         archive.writestr("districts.geojson", b" " * (200 * 1024 * 1024))
     assert path.stat().st_size < 1024 * 1024
     only_data_error(
-        lambda f: rio.read_boundaries(f / "deflate.zip"), {"deflate.zip": path.read_bytes()}
+        lambda f: boundaries.read_boundaries(f / "deflate.zip"), {"deflate.zip": path.read_bytes()}
     )

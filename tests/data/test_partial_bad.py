@@ -10,7 +10,7 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from explorer.data import io
+from explorer.data import demo, load
 from explorer.figures import spatial as spatial_view
 from explorer.stats import decompose, indices
 
@@ -20,7 +20,7 @@ BAD_REGION, BAD_YEAR = "CAL03", 2015
 @pytest.fixture(scope="module")
 def damaged(tmp_path_factory):
     """The demo deciles with one district-year's shares broken (they sum to about 1.35)."""
-    panel_path, boundary_path = io.demo_paths("brackets")
+    panel_path, boundary_path = demo.demo_paths("brackets")
     frame = pd.read_csv(panel_path)
     hit = (frame["region"] == BAD_REGION) & (frame["year"] == BAD_YEAR)
     assert hit.sum() == 1
@@ -28,7 +28,7 @@ def damaged(tmp_path_factory):
     folder = tmp_path_factory.mktemp("damaged")
     path = folder / "deciles.csv"
     frame.to_csv(path, index=False)
-    return io.load_panel(path, boundary_path), frame
+    return load.load_panel(path, boundary_path), frame
 
 
 def test_only_the_bad_district_year_is_set_aside_with_its_reason(damaged):
@@ -51,7 +51,7 @@ def test_every_other_district_year_still_has_its_indices(damaged):
     assert np.isfinite(table.loc[table["index"] == "gini", "value"]).all()
     # The same district's other years are untouched by the bad row: compare with the
     # undamaged demo (the panel is otherwise identical).
-    clean = indices.compute(io.demo_panel(), methods=("auto",), indices=("gini",))
+    clean = indices.compute(demo.demo_panel(), methods=("auto",), indices=("gini",))
     mine = table[(table["region"] == BAD_REGION) & (table["index"] == "gini")]
     theirs = clean[(clean["region"] == BAD_REGION) & (clean["year"] != BAD_YEAR)]
     assert np.allclose(mine.sort_values("year")["value"], theirs.sort_values("year")["value"])

@@ -82,7 +82,9 @@ def _panel_units(panel: Any, method: str) -> _Units:
             True,
             units.dropped,
         )
-    raise fail(f"unknown panel kind '{panel.kind}'.", "Load the panel through explorer.data.io.")
+    raise fail(
+        f"unknown panel kind '{panel.kind}'.", "Load the panel with explorer.data.load_panel."
+    )
 
 
 def _level_labels(panel: Any, by: Sequence[str], regions: np.ndarray) -> list[np.ndarray]:

@@ -1,4 +1,4 @@
-"""Tests of explorer.data.panel: the Panel model, Problem/DataError and every validation rule.
+"""Tests of explorer.data.validate (and explorer.data.model): the Panel model, Problem/DataError and every validation rule.
 
 Bracket shares come from closed-form Lorenz curves: the uniform distribution on (0, b)
 has L(p) = p^2 (derived: the integral of its quantile function b u from 0 to p over the
@@ -175,7 +175,7 @@ def test_describe_summarises_sizes_coverage_levels_and_boundary_matches():
         geometry=[box(0, 0, 1, 1), box(1, 0, 2, 1), box(2, 0, 3, 1)],
         crs=4326,
     )
-    d = validate(frame, boundaries=bounds).describe()
+    d = validate(frame, boundaries=bounds, levels=["county"]).describe()
     assert d["kind"] == "brackets" and d["districts"] == 3
     assert d["years"] == {"first": 2020, "last": 2021, "count": 2}
     assert d["brackets"] == {"min": K, "max": K}
@@ -414,7 +414,7 @@ def province(n_per_county=(2, 3, 1)) -> pd.DataFrame:
     return frame
 
 
-def test_levels_are_columns_constant_within_districts_with_2_to_n_minus_1_groups_outermost_first():
+def test_levels_are_text_columns_constant_within_districts_with_2_to_half_n_groups_outermost_first():
     panel = validate(province())
     assert panel.levels == ("zone", "county")  # 2 groups before 3
     h = panel.hierarchy.set_index("region")

@@ -1,0 +1,552 @@
+"""The dataset store of a workspace: validated panels on disk under content-hashed ids.
+
+Each dataset lives in ``datasets/<id>/`` as Parquet tables plus a JSON manifest; its id
+is a content hash of the input files' bytes and the read options, so adding the same
+files twice is a no-op. A dataset is built complete in a hidden temporary folder and
+renamed into place (:mod:`explorer.data.atomic`); ``index.json`` is only a cache of the
+manifests, rebuilt whenever it disagrees with them.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import datetime as _dt
+import hashlib
+import json
+import os
+import re
+import shutil
+from collections.abc import Sequence
+from pathlib import Path
+from typing import Any
+
+import pandas as pd
+from pyarrow import ArrowException
+
+from explorer.data.atomic import (
+    CHUNK,
+    REMOVING,
+    clean_leftovers,
+    fsync_dir,
+    fsync_file,
+    sha256_file,
+    temp_name,
+    write_text_atomic,
+)
+from explorer.data.model import KIND_COLUMNS, DataError, Panel, Problem, fail
+from explorer.data.naming import as_text, display_name
+
+__all__ = ["ENV_VAR", "SCHEMA_VERSION", "DatasetStore", "Source", "dataset_id"]
+
+SCHEMA_VERSION = 1
+ENV_VAR = "RIFT_DATA"
+_ID_RE = re.compile(r"^[0-9a-f]{16}$")
+_MANIFEST = "manifest.json"
+_TABLES = ("data", "hierarchy", "excluded")
+_LIST_COLUMNS = ("id", "name", "kind", "districts", "years", "created")
+
+Source = Path | str | tuple[str, bytes]
+
+
+def _canonical_options(options: dict[str, Any] | None) -> dict[str, Any]:
+    """Read options as plain JSON values, ``None`` entries dropped, keys sorted."""
+    options = {} if options is None else options
+    if not isinstance(options, dict):
+        raise fail(
+            f"Read options must be a mapping, not {type(options).__name__}.",
+            "Pass the options as a dict such as {'kind': 'brackets'}.",
+        )
+    clean = {str(k): v for k, v in options.items() if v is not None}
+    return json.loads(json.dumps(clean, sort_keys=True, default=str))
+
+
+def _source_bytes_hash(source: Source) -> tuple[str, str, int]:
+    """(display name, sha256, size) of one input, reading a path in chunks, read-only."""
+    if isinstance(source, tuple):
+        if len(source) != 2 or not isinstance(source[1], bytes | bytearray | memoryview):
+            raise fail(
+                "An uploaded source must be a (file name, bytes) pair.",
+                "Pass uploads as (name, content_bytes).",
+            )
+        name, content = source
+        return display_name(str(name)), hashlib.sha256(content).hexdigest(), len(content)
+    path = Path(source)
+    digest = hashlib.sha256()
+    size = 0
+    try:
+        with open(path, "rb") as handle:
+            while chunk := handle.read(CHUNK):
+                digest.update(chunk)
+                size += len(chunk)
+    except OSError as exc:
+        raise fail(
+            f"Cannot read the input file: {exc.strerror or exc}.",
+            "Check that the file exists and is readable.",
+            file=path.name,
+        ) from None
+    return display_name(path.name), digest.hexdigest(), size
+
+
+def dataset_id(
+    sources: Sequence[Source],
+    options: dict[str, Any] | None = None,
+    fingerprint: str = "",
+) -> str:
+    """The id a dataset built from ``sources`` with ``options`` gets in any workspace.
+
+    The id is the first 16 hex digits of SHA-256 over each input's SHA-256 (in the order
+    given) and the canonical JSON of the read options. File names do not count, so the
+    same bytes read the same way always give the same id. With no sources (a panel built
+    in memory) the panel's ``fingerprint`` stands in for the files, so that two different
+    panels never share an id.
+
+    Parameters
+    ----------
+    sources : sequence of path or (name, bytes)
+        The input files as read (data first, then boundaries, as the reader took them).
+    options : dict, optional
+        The read options: kind, column map, boundary id, crs, sheet, layer, ...
+    fingerprint : str, optional
+        The panel's fingerprint; used only when ``sources`` is empty.
+
+    Returns
+    -------
+    str
+        16 lowercase hex characters.
+    """
+    hashed = [_source_bytes_hash(s) for s in sources]
+    return _dataset_id(hashed, _canonical_options(options), fingerprint)
+
+
+def _dataset_id(
+    hashed: Sequence[tuple[str, str, int]], options: dict[str, Any], fingerprint: str
+) -> str:
+    digest = hashlib.sha256(b"rift-dataset-v1\0")
+    for _, sha, _ in hashed:
+        digest.update(sha.encode() + b"\0")
+    if not hashed:
+        digest.update(b"panel\0" + str(fingerprint).encode() + b"\0")
+    digest.update(json.dumps(options, sort_keys=True).encode())
+    return digest.hexdigest()[:16]
+
+
+class DatasetStore:
+    """Datasets in ``root/datasets``, listed through the cache ``root/index.json``.
+
+    Parameters
+    ----------
+    root : Path
+        The workspace's data directory (already created).
+    """
+
+    def __init__(self, root: Path) -> None:
+        self.root = root
+        self.datasets_dir = root / "datasets"
+        self.index_path = root / "index.json"
+
+    def _dataset_dirs(self) -> list[Path]:
+        try:
+            names = os.listdir(self.datasets_dir)
+        except OSError:
+            return []
+        return sorted(self.datasets_dir / n for n in names if _ID_RE.match(n))
+
+    def add(self, panel: Panel, sources: Sequence[Source], options: dict[str, Any]) -> str:
+        """Store a validated panel and return its dataset id.
+
+        Parameters
+        ----------
+        panel : Panel
+            The panel read from ``sources`` (from ``explorer.data.load.load_panel``).
+        sources : sequence of path or (name, bytes)
+            The input files exactly as read: paths on disk or uploads as (name, bytes).
+            Only read, never changed.
+        options : dict
+            The read options used (kind, column map, boundary id, crs, sheet, layer).
+
+        Returns
+        -------
+        str
+            The dataset id. Adding the same sources with the same options again returns
+            the same id and writes nothing.
+
+        Raises
+        ------
+        DataError
+            If a source cannot be read or the data directory cannot be written.
+        """
+        hashed = [_source_bytes_hash(s) for s in sources]
+        canonical = _canonical_options(options)
+        ident = _dataset_id(hashed, canonical, str(panel.fingerprint))
+        final = self.datasets_dir / ident
+        if final.is_dir() and self._complete(final):
+            return ident
+
+        tmp = self.datasets_dir / temp_name()
+        try:
+            tmp.mkdir()
+            manifest = self._write_tables(tmp, panel)
+            manifest.update(
+                schema_version=SCHEMA_VERSION,
+                id=ident,
+                created=_dt.datetime.now(_dt.UTC).isoformat(timespec="seconds"),
+                sources=[{"name": n, "sha256": h, "bytes": b} for n, h, b in hashed],
+                options=canonical,
+            )
+            (tmp / _MANIFEST).write_text(json.dumps(manifest, indent=2), encoding="utf-8")
+            fsync_file(tmp / _MANIFEST)
+            fsync_dir(tmp)
+            self._move_into_place(tmp, final)
+        except OSError as exc:
+            raise fail(
+                f"Cannot save the dataset in {self.root}: {exc.strerror or exc}.",
+                f"Free some disk space or point {ENV_VAR} at a writable directory.",
+            ) from None
+        finally:
+            if tmp.exists():
+                shutil.rmtree(tmp, ignore_errors=True)
+        self._index_entries()
+        return ident
+
+    def _move_into_place(self, tmp: Path, final: Path) -> None:
+        try:
+            os.rename(tmp, final)
+        except OSError:
+            if not final.exists():
+                raise
+            if self._complete(final):
+                return  # another writer stored the same content first
+            # A damaged copy under this id: set it aside whole, then put ours in.
+            os.rename(final, self.datasets_dir / temp_name(REMOVING))
+            os.rename(tmp, final)
+            clean_leftovers([self.datasets_dir])
+        fsync_dir(self.datasets_dir)
+
+    def _write_tables(self, folder: Path, panel: Panel) -> dict[str, Any]:
+        """Write the panel's tables into ``folder``; return the manifest's panel part."""
+        files: dict[str, str] = {}
+        excluded = getattr(panel, "excluded", None)
+        if excluded is None:
+            excluded = pd.DataFrame(
+                {
+                    "region": pd.Series([], dtype="str"),
+                    "year": pd.Series([], dtype="int64"),
+                    "reason": pd.Series([], dtype="str"),
+                }
+            )
+        tables = {"data": panel.data, "hierarchy": panel.hierarchy, "excluded": excluded}
+        if panel.boundaries is not None:
+            tables["boundaries"] = panel.boundaries
+        for name, frame in tables.items():
+            path = folder / f"{name}.parquet"
+            # A shallow copy without attrs: pandas stores attrs as JSON, and readers'
+            # attrs hold Problem objects. The panel itself is left as it is.
+            frame = frame.copy(deep=False)
+            frame.attrs = {}
+            try:
+                frame.to_parquet(path, index=False)
+            except (ValueError, TypeError, ImportError, ArrowException) as exc:
+                raise fail(
+                    f"The {name} table cannot be stored as Parquet: {exc}.",
+                    "Report this with the input files; the dataset was not saved.",
+                ) from None
+            fsync_file(path)
+            files[path.name] = sha256_file(path)
+
+        years = sorted({int(y) for y in panel.data["year"].unique()})
+        regions = panel.data["region"].nunique()
+        return {
+            "name": as_text(panel.name),
+            "kind": str(panel.kind),
+            "levels": [str(level) for level in panel.levels],
+            "fingerprint": str(panel.fingerprint),
+            "income_concept": as_text(getattr(panel, "income_concept", "") or ""),
+            "districts": int(regions),
+            "years": years,
+            "warnings": [_problem_record(w) for w in panel.warnings],
+            "files": files,
+        }
+
+    def _complete(self, folder: Path) -> bool:
+        """Cheap check that a stored dataset has its manifest and every listed file."""
+        try:
+            manifest = json.loads((folder / _MANIFEST).read_text(encoding="utf-8"))
+            return all((folder / f).is_file() for f in manifest["files"])
+        except (OSError, ValueError, KeyError, TypeError):
+            return False
+
+    def _manifest(self, ident: str) -> dict[str, Any]:
+        if not isinstance(ident, str) or not _ID_RE.match(ident):
+            raise fail(
+                f"{ident!r} is not a dataset id (16 hex digits).",
+                "Pick a dataset from the list of stored datasets.",
+            )
+        folder = self.datasets_dir / ident
+        if not folder.is_dir():
+            raise fail(
+                f"There is no dataset {ident} in {self.root}.",
+                "Pick a dataset from the list, or add the files again.",
+            )
+        where = f"{ident}/{_MANIFEST}"
+        try:
+            manifest = json.loads((folder / _MANIFEST).read_text(encoding="utf-8"))
+        except FileNotFoundError:
+            raise _damaged(ident, "its manifest is missing", where) from None
+        except (OSError, UnicodeDecodeError, ValueError) as exc:
+            raise _damaged(ident, f"its manifest cannot be read ({exc})", where) from None
+        if not isinstance(manifest, dict):
+            raise _damaged(ident, "its manifest is not a JSON object", where)
+        version = manifest.get("schema_version")
+        if version != SCHEMA_VERSION:
+            raise fail(
+                f"Dataset {ident} was stored in format version {version!r}; this version "
+                f"of Rift reads version {SCHEMA_VERSION}.",
+                "Add the original files again.",
+                file=where,
+            )
+        required = {
+            "id": str,
+            "name": str,
+            "kind": str,
+            "levels": list,
+            "fingerprint": str,
+            "files": dict,
+            "warnings": list,
+            "years": list,
+            "districts": int,
+            "created": str,
+        }
+        for key, kind in required.items():
+            if not isinstance(manifest.get(key), kind):
+                raise _damaged(ident, f"its manifest lacks a valid {key!r}", where)
+        if manifest["id"] != ident or manifest["kind"] not in KIND_COLUMNS:
+            raise _damaged(ident, "its manifest does not match its folder", where)
+        return manifest
+
+    def open(self, ident: str) -> Panel:
+        """Read a stored dataset back as a :class:`~explorer.data.model.Panel`.
+
+        Every stored file is checked against the SHA-256 in the manifest and the tables
+        against the columns their kind needs, so a damaged dataset is reported rather
+        than half-read.
+
+        Parameters
+        ----------
+        ident : str
+            A dataset id from :meth:`add` or :meth:`list`.
+
+        Returns
+        -------
+        Panel
+
+        Raises
+        ------
+        DataError
+            If there is no such dataset or it is damaged.
+        """
+        manifest = self._manifest(ident)
+        folder = self.datasets_dir / ident
+        for file, expected in manifest["files"].items():
+            where = f"{ident}/{file}"
+            if not isinstance(file, str) or "/" in file or "\\" in file or file.startswith("."):
+                raise _damaged(ident, f"its manifest names an odd file {file!r}", where)
+            try:
+                actual = sha256_file(folder / file)
+            except FileNotFoundError:
+                raise _damaged(ident, f"{file} is missing", where) from None
+            except OSError as exc:
+                raise _damaged(ident, f"{file} cannot be read ({exc})", where) from None
+            if actual != expected:
+                raise _damaged(ident, f"{file} has changed since it was stored", where)
+        for table in (*_TABLES,):
+            if f"{table}.parquet" not in manifest["files"]:
+                raise _damaged(ident, f"{table}.parquet is missing", f"{ident}/{table}.parquet")
+
+        frames = {t: self._read_table(ident, t) for t in _TABLES}
+        boundaries = None
+        if "boundaries.parquet" in manifest["files"]:
+            boundaries = self._read_boundaries(ident)
+        self._check_tables(ident, manifest, frames, boundaries)
+
+        try:
+            warnings = tuple(Problem(**w) for w in manifest["warnings"])
+        except TypeError:
+            raise _damaged(ident, "its warnings are malformed", f"{ident}/{_MANIFEST}") from None
+        values = {
+            "kind": manifest["kind"],
+            "data": frames["data"],
+            "levels": tuple(manifest["levels"]),
+            "hierarchy": frames["hierarchy"],
+            "boundaries": boundaries,
+            "warnings": warnings,
+            "fingerprint": manifest["fingerprint"],
+            "name": manifest["name"],
+            "income_concept": manifest.get("income_concept", ""),
+            "excluded": frames["excluded"],
+        }
+        names = {f.name for f in dataclasses.fields(Panel)}
+        try:
+            return Panel(**{k: v for k, v in values.items() if k in names})
+        except DataError:
+            raise
+        except (TypeError, ValueError) as exc:
+            raise _damaged(ident, f"its tables do not form a panel ({exc})", ident) from None
+
+    def _read_table(self, ident: str, table: str) -> pd.DataFrame:
+        path = self.datasets_dir / ident / f"{table}.parquet"
+        try:
+            return pd.read_parquet(path)
+        except Exception as exc:  # pyarrow raises many types for a broken file
+            raise _damaged(
+                ident, f"{path.name} cannot be read ({exc})", f"{ident}/{path.name}"
+            ) from None
+
+    def _read_boundaries(self, ident: str):
+        import geopandas  # only datasets with boundaries pay for the import
+
+        path = self.datasets_dir / ident / "boundaries.parquet"
+        try:
+            return geopandas.read_parquet(path)
+        except Exception as exc:  # pyarrow and shapely raise many types
+            raise _damaged(
+                ident, f"{path.name} cannot be read ({exc})", f"{ident}/{path.name}"
+            ) from None
+
+    def _check_tables(
+        self,
+        ident: str,
+        manifest: dict[str, Any],
+        frames: dict[str, pd.DataFrame],
+        boundaries: Any,
+    ) -> None:
+        """Cheap structural checks: the columns each table must have."""
+        expected = {
+            "data": KIND_COLUMNS[manifest["kind"]],
+            "hierarchy": ("region", *manifest["levels"]),
+            "excluded": ("region", "year", "reason"),
+        }
+        if boundaries is not None:
+            frames = {**frames, "boundaries": boundaries}
+            expected["boundaries"] = ("region", "geometry")
+        for table, columns in expected.items():
+            missing = [c for c in columns if c not in frames[table].columns]
+            if missing:
+                raise _damaged(
+                    ident,
+                    f"{table}.parquet lacks the columns {', '.join(map(str, missing))}",
+                    f"{ident}/{table}.parquet",
+                )
+        data = frames["data"]
+        if not pd.api.types.is_integer_dtype(data["year"]):
+            raise _damaged(ident, "its years are not whole numbers", f"{ident}/data.parquet")
+
+    def list(self) -> pd.DataFrame:
+        """The stored datasets, newest first.
+
+        Returns
+        -------
+        DataFrame
+            Columns ``id, name, kind, districts, years, created``; ``districts`` is the
+            number of districts and ``years`` the span as text (``"2015–2022"``).
+            Datasets still being written, and those whose manifest is damaged, are not
+            listed.
+        """
+        entries = self._index_entries()
+        rows = [{c: entries[i][c] for c in _LIST_COLUMNS} for i in sorted(entries)]
+        frame = pd.DataFrame(rows, columns=list(_LIST_COLUMNS))
+        frame["districts"] = frame["districts"].astype("int64")
+        return frame.sort_values(["created", "id"], ascending=[False, True], ignore_index=True)
+
+    def _read_index(self) -> dict[str, Any]:
+        try:
+            index = json.loads(self.index_path.read_text(encoding="utf-8"))
+        except (OSError, ValueError):
+            return {}
+        if not isinstance(index, dict) or index.get("schema_version") != SCHEMA_VERSION:
+            return {}
+        entries = index.get("datasets")
+        return entries if isinstance(entries, dict) else {}
+
+    def _index_entries(self) -> dict[str, dict[str, Any]]:
+        """The summary of every readable dataset, from the index where it is current.
+
+        An entry is current when its manifest's (mtime, size, inode) stamp is unchanged;
+        other manifests are read again and the index rewritten atomically. Directories
+        stay the truth: the index is a cache any process may rebuild.
+        """
+        cached = self._read_index()
+        entries: dict[str, dict[str, Any]] = {}
+        for folder in self._dataset_dirs():
+            ident = folder.name
+            try:
+                stat = os.stat(folder / _MANIFEST)
+            except OSError:
+                continue
+            stamp = [stat.st_mtime_ns, stat.st_size, stat.st_ino]
+            entry = cached.get(ident)
+            if (
+                isinstance(entry, dict)
+                and entry.get("stamp") == stamp
+                and all(c in entry for c in _LIST_COLUMNS)
+            ):
+                entries[ident] = entry
+                continue
+            try:
+                manifest = self._manifest(ident)
+            except DataError:
+                continue  # damaged: not listed; open() says what is wrong
+            years = manifest["years"]
+            entries[ident] = {
+                "id": ident,
+                "name": manifest["name"],
+                "kind": manifest["kind"],
+                "districts": manifest["districts"],
+                "years": f"{min(years)}–{max(years)}" if years else "",
+                "created": manifest["created"],
+                "stamp": stamp,
+            }
+        if entries != cached:
+            payload = {"schema_version": SCHEMA_VERSION, "datasets": entries}
+            try:
+                write_text_atomic(self.index_path, json.dumps(payload))
+            except OSError:
+                pass  # a read-only workspace still lists from the manifests
+        return entries
+
+    def remove(self, ident: str) -> None:
+        """Delete a stored dataset (all of it, or nothing if interrupted).
+
+        Raises
+        ------
+        DataError
+            If there is no such dataset.
+        """
+        if not isinstance(ident, str) or not _ID_RE.match(ident):
+            raise fail(f"{ident!r} is not a dataset id (16 hex digits).")
+        folder = self.datasets_dir / ident
+        trash = self.datasets_dir / temp_name(REMOVING)
+        try:
+            os.rename(folder, trash)
+        except FileNotFoundError:
+            raise fail(
+                f"There is no dataset {ident} in {self.root}.", "Pick one from the list."
+            ) from None
+        except OSError as exc:
+            raise fail(f"Cannot remove dataset {ident}: {exc.strerror or exc}.") from None
+        fsync_dir(self.datasets_dir)
+        shutil.rmtree(trash, ignore_errors=True)
+        self._index_entries()
+
+
+def _problem_record(problem: Any) -> dict[str, Any]:
+    if dataclasses.is_dataclass(problem):
+        return dataclasses.asdict(problem)
+    return {"message": str(problem)}
+
+
+def _damaged(ident: str, what: str, file: str) -> DataError:
+    return fail(
+        f"Dataset {ident} is damaged: {what}.",
+        "Remove it and add the original files again.",
+        file=file,
+    )
