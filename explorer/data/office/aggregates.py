@@ -71,12 +71,12 @@ def _by_values(table: pd.DataFrame, candidates: list[int], pool: list[int]) -> d
     matrices = {c: _matrix(table, c).reindex(lines).to_numpy(float) for c in columns}
     names = table.drop_duplicates("line").set_index("line")["region"]
     weights = matrices.get("population")
-    changed = True
-    while changed:  # innermost groups first; a found total leaves the pool for the next pass
-        changed = False
-        for i in [c for c in candidates if c in pool and c not in reasons]:
-            for column in columns:
-                kind = "sum" if column == "population" else "mean"
+    for column in columns:  # sums first: a count pins a group down, an average less so
+        kind = "sum" if column == "population" else "mean"
+        changed = True
+        while changed:  # innermost groups first; a found total leaves the pool for the next
+            changed = False
+            for i in [c for c in candidates if c in pool]:
                 run = _run_match(
                     matrices[column], weights if kind == "mean" else None, i, pool, kind
                 )
@@ -89,7 +89,6 @@ def _by_values(table: pd.DataFrame, candidates: list[int], pool: list[int]) -> d
                     )
                     pool.remove(i)
                     changed = True
-                    break
     return reasons
 
 

@@ -118,7 +118,12 @@ def find_frame(grid: Grid, decimal: str, header_row: int | None, file: str) -> F
         h = where[header_row]
         start = next((i for i in range(h + 1, len(lines)) if _is_data(lines[i][1], decimal)), None)
     else:
-        start = next((i for i, (_, c) in enumerate(lines) if _is_data(c, decimal)), None)
+        data = [_is_data(c, decimal) for _, c in lines]
+        # a title such as "Income by district, 2003" splits into a name and a number: data
+        # starts where two data lines follow each other (or at the only one there is)
+        start = next((i for i in range(len(lines) - 1) if data[i] and data[i + 1]), None)
+        if start is None:
+            start = next((i for i in range(len(lines)) if data[i]), None)
         h = None
         if start is not None:
             h = next((i for i in range(start - 1, -1, -1) if len(_filled(lines[i][1])) >= 2), None)

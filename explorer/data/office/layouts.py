@@ -114,7 +114,8 @@ def _clean_header(cells: tuple[str, ...], width: int, notes: _Notes) -> list[str
     out = []
     for cell in list(cells) + [""] * (width - len(cells)):
         clean, marker = strip_marker(cell)
-        if marker and header_year(cell) is None:
+        year = header_year(cell)
+        if (marker and year is None) or (year and not year[0] and cell.strip() != str(year[1])):
             notes.markers["headers"].append(cell)
         out.append(clean)
     return out
