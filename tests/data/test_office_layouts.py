@@ -139,8 +139,12 @@ def test_workbook_with_a_sheet_per_measure() -> None:
     data = _workbook(
         {
             "Notes": [["Valdoria Board of Statistics"], ["All figures provisional."]],
-            "Mean income": [["Income per person"], ["District", 2001, 2002],
-                            ["Ashvale", 100, 110], ["Northland", 200, "(D)"]],
+            "Mean income": [
+                ["Income per person"],
+                ["District", 2001, 2002],
+                ["Ashvale", 100, 110],
+                ["Northland", 200, "(D)"],
+            ],
             "Population": [["District", 2001, 2002], ["Ashvale", 5, 6], ["Northland", 7, 8]],
         }
     )
@@ -166,14 +170,22 @@ def test_workbook_with_a_sheet_per_year() -> None:
     assert "one year per sheet" in reading.layout.words
     table = _tidy(reading)
     assert table[["year", "population"]].to_numpy().tolist() == [
-        [2001, 5], [2002, 6], [2001, 7], [2002, 8]]
+        [2001, 5],
+        [2002, 6],
+        [2001, 7],
+        [2002, 8],
+    ]
 
 
 def test_second_table_is_joined_and_unmatched_keys_reported() -> None:
-    panel = read_office_table(b"District,inc2001,inc2002\nAshvale,100,110\nNorthland,200,210\n",
-                              "income.csv")
-    other = read_office_table(b"district,year,population\nAshvale,2001,5\nAshvale,2002,6\n"
-                              b"Northland,2001,7\nGreyhollow,2001,9\n", "pop.csv")
+    panel = read_office_table(
+        b"District,inc2001,inc2002\nAshvale,100,110\nNorthland,200,210\n", "income.csv"
+    )
+    other = read_office_table(
+        b"district,year,population\nAshvale,2001,5\nAshvale,2002,6\n"
+        b"Northland,2001,7\nGreyhollow,2001,9\n",
+        "pop.csv",
+    )
     joined, notes = join_measure(panel, other, "pop.csv")
     assert len(joined) == len(panel.table)
     by_key = joined.set_index(["region", "year"])["population"]

@@ -9,7 +9,7 @@ import difflib
 import re
 import unicodedata
 from collections.abc import Iterable, Mapping
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import pandas as pd
 
@@ -48,6 +48,9 @@ class NameMatch:
         Unmatched panel name -> boundary ids that look like it, best first, with a score.
     panel_only, boundary_only : tuple of str
         What is left on each side.
+    zeros : dict
+        Unmatched panel code -> boundary code equal to it but for leading zeros (``1``
+        and ``01``); codes are text, so these are reported, not matched.
     """
 
     matched: dict[str, str]
@@ -55,11 +58,22 @@ class NameMatch:
     suggestions: dict[str, tuple[tuple[str, float], ...]]
     panel_only: tuple[str, ...]
     boundary_only: tuple[str, ...]
+    zeros: dict[str, str] = field(default_factory=dict)
 
     def messages(self) -> list[str]:
         """One sentence per unmatched panel name, in the planner's words."""
-        out = []
+        out = [
+            f"panel code '{p}' was matched to '{b}' by adding leading zeros."
+            for p, b in self.matched.items()
+            if self.how.get(p) == "zero-padded"
+        ]
         for name in self.panel_only:
+            if name in self.zeros:
+                out.append(
+                    f"'{name}' in the panel differs from '{self.zeros[name]}' only by "
+                    "leading zeros; codes are compared as written."
+                )
+                continue
             options = self.suggestions.get(name)
             if options:
                 out.append(
@@ -94,7 +108,8 @@ def _padded(panel: list[str], boundary: list[str]) -> dict[str, str] | None:
     if any(len(v) > 1 for v in by_value.values()):
         return None
     out = {p: by_value[int(p)][0] for p in panel if int(p) in by_value}
-    return out if len(out) == len(panel) else None
+    distinct = len(set(out.values())) == len(out)
+    return out if len(out) == len(panel) and distinct else None
 
 
 def match_names(panel: Iterable[str], boundary: Iterable[str] | Mapping[str, str]) -> NameMatch:
@@ -149,9 +164,15 @@ def match_names(panel: Iterable[str], boundary: Iterable[str] | Mapping[str, str
         best = tuple(s for s in scored if s[1] >= CUTOFF)[:SUGGESTIONS]
         if best:
             suggestions[p] = best
-    return NameMatch(
-        matched, how, suggestions, tuple(p for p in panel if p not in matched), tuple(rest)
-    )
+    panel_only = tuple(p for p in panel if p not in matched)
+    zeros = {
+        p: b
+        for p in panel_only
+        if p.isdigit()
+        for b in names
+        if b.isdigit() and b != p and int(b) == int(p)
+    }
+    return NameMatch(matched, how, suggestions, panel_only, tuple(rest), zeros)
 
 
 def apply_crosswalk(
