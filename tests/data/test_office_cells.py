@@ -91,3 +91,9 @@ def test_any_grouping_reads_the_same_number(whole: int, tenth: int) -> None:
     assert parse_number(us, ".")[0] == expected
     assert parse_number(continental, ",")[0] == expected
     assert parse_number(spaced, ",")[0] == expected
+
+
+def test_semicolon_files_lean_to_the_decimal_comma_when_cells_cannot_tell() -> None:
+    assert decimal_mark(["12.345", "1.000"], prefer=",") == ","
+    assert decimal_mark(["12.345", "1.5"], prefer=",") == "."
+    assert decimal_mark(["1.234.567"]) == ","

@@ -163,7 +163,8 @@ def _skipped_notes(frame: Frame, sheet: str | None, file: str) -> tuple[list, li
 
 def _read_grid(grid: Grid, file: str, options: ReadOptions, single: bool):
     where = f"{file} [{grid.sheet}]" if grid.sheet else file
-    decimal = options.decimal or decimal_mark(c for _, cells in grid.lines for c in cells)
+    prefer = "," if grid.delimiter == ";" else "."
+    decimal = options.decimal or decimal_mark((c for _, cells in grid.lines for c in cells), prefer)
     frame = find_frame(grid, decimal, options.header_row if single else None, where)
     sheet_year = header_year(grid.sheet) if grid.sheet else None
     year = sheet_year[1] if sheet_year and not sheet_year[0] else options.year

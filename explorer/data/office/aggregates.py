@@ -50,6 +50,8 @@ def _run_match(
         total = np.zeros(values.shape[1])
         weight = np.zeros(values.shape[1])
         for n, k in enumerate(run, 1):
+            if kind == "sum" and np.any(values[k] <= 0):
+                break  # a zero or negative member makes any "total" a coincidence
             w = weights[k] if weights is not None else np.ones(values.shape[1])
             total = total + (values[k] if kind == "sum" else values[k] * w)
             weight = weight + w

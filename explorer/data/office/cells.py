@@ -60,6 +60,8 @@ _POINT = re.compile(r"^[-+]?(?:\d{1,3}(?:,\d{3})+|\d+)(?:\.\d+)?$")
 _COMMA = re.compile(r"^[-+]?(?:\d{1,3}(?:\.\d{3})+|\d+)(?:,\d+)?$")
 _SPACED = re.compile(r"^[-+]?\d{1,3}(?:[" + _SPACES + r"]\d{3})+(?:[.,]\d+)?$")
 _EVIDENCE_COMMA = re.compile(r"^[-+]?(?:\d{1,3}(?:\.\d{3})+,\d+|\d+,(?:\d{1,2}|\d{4,}))$")
+_GROUPS_POINT = re.compile(r"^[-+]?\d{1,3}(?:\.\d{3}){2,}$")
+_GROUPS_COMMA = re.compile(r"^[-+]?\d{1,3}(?:,\d{3}){2,}$")
 _EVIDENCE_POINT = re.compile(r"^[-+]?(?:\d{1,3}(?:,\d{3})+\.\d+|\d+\.(?:\d{1,2}|\d{4,}))$")
 
 
@@ -81,13 +83,20 @@ def strip_marker(text: str) -> tuple[str, str]:
     return clean, " ".join(removed)
 
 
-def decimal_mark(cells: Iterable[str]) -> str:
-    """``","`` when the cells show a decimal comma (``12.345,6``, ``3,25``), else ``"."``."""
+def decimal_mark(cells: Iterable[str], prefer: str = ".") -> str:
+    """The file's decimal mark, from the cells that can only be read one way.
+
+    ``12.345,6``, ``3,25`` and ``1.234.567`` say comma; ``12,345.6``, ``3.25`` and
+    ``1,234,567`` say point. ``12,345`` alone says nothing: then ``prefer`` decides (a
+    semicolon-separated file usually comes with decimal commas, common practice).
+    """
     comma = point = 0
     for cell in cells:
         text = cell.strip().rstrip("%")
-        comma += bool(_EVIDENCE_COMMA.match(text))
-        point += bool(_EVIDENCE_POINT.match(text))
+        comma += bool(_EVIDENCE_COMMA.match(text) or _GROUPS_POINT.match(text))
+        point += bool(_EVIDENCE_POINT.match(text) or _GROUPS_COMMA.match(text))
+    if comma == point:
+        return prefer
     return "," if comma > point else "."
 
 
