@@ -28,6 +28,7 @@ from explorer.data.office.aggregates import set_apart_aggregates
 from explorer.data.office.cells import decimal_mark
 from explorer.data.office.grid import Grid, read_grids
 from explorer.data.office.header import Frame, find_frame, first_words
+from explorer.data.office.join import join_measure
 from explorer.data.office.layouts import LAYOUTS, Tidy, tidy_frame
 from explorer.data.office.measures import header_year, measure_key
 from explorer.data.office.names import NameMatch, apply_crosswalk, match_names, normalise
@@ -245,6 +246,23 @@ def _check_unique(table: pd.DataFrame, file: str) -> None:
     )
 
 
+def _layout(readings: list[tuple[Grid, Tidy, Frame]]) -> Layout:
+    """What the sheets' layouts add up to, as a key and in words."""
+    tidies = [t for _, t, _ in readings]
+    sheets = tuple((g.sheet, t.layout, f.header[0]) for g, t, f in readings)
+    measures = tuple(dict.fromkeys(m for t in tidies for m in t.measures))
+    key = tidies[0].layout if len({t.layout for t in tidies}) == 1 else "mixed"
+    words = LAYOUTS.get(key, "sheets in different layouts")
+    if len(readings) > 1:
+        if all(header_year(g.sheet or "") for g, _, _ in readings):
+            words += "; one year per sheet"
+        elif len({t.measures for t in tidies}) == len(tidies):
+            words += "; one measure per sheet"
+        else:
+            words += "; sheets stacked"
+    return Layout(key, words, measures, sheets)
+
+
 def read_office_table(
     source: str | Path | bytes,
     name: str | None = None,
@@ -308,22 +326,8 @@ def read_office_table(
     notes += _aggregate_notes(aggregates, options.keep_aggregates, file)
     kept = table if options.keep_aggregates else districts
     _check_unique(kept, file)
-    grid0, tidy0, frame0, decimal0 = readings[0][0], readings[0][1], readings[0][2], readings[0][3]
-    sheets = tuple((g.sheet, t.layout, f.header[0]) for g, t, f, *_ in readings)
-    measures = tuple(dict.fromkeys(m for t in tidies for m in t.measures))
-    key = tidy0.layout if len({t.layout for t in tidies}) == 1 else "mixed"
-    words = LAYOUTS.get(key, "sheets in different layouts")
-    if len(readings) > 1:
-        per = (
-            "one year per sheet"
-            if all(header_year(g.sheet or "") for g, *_ in readings)
-            else (
-                "one measure per sheet"
-                if len({t.measures for t in tidies}) == len(tidies)
-                else "sheets stacked"
-            )
-        )
-        words = f"{words}; {per}"
+    grid0, frame0, decimal0 = readings[0][0], readings[0][2], readings[0][3]
+    layout = _layout([(g, t, f) for g, t, f, *_ in readings])
     detected = replace(
         options,
         decimal=decimal0,
@@ -336,7 +340,7 @@ def read_office_table(
     out = kept.drop(columns="line").reset_index(drop=True)
     return OfficeTable(
         out,
-        Layout(key, words, measures, sheets),
+        layout,
         frame0.header[0],
         tuple(skipped),
         tuple(notes),
@@ -344,71 +348,3 @@ def read_office_table(
         detected,
         recognise_published(out, headers, percent),
     )
-
-
-def join_measure(
-    panel: pd.DataFrame | OfficeTable,
-    other: pd.DataFrame | OfficeTable,
-    file: str = "second table",
-) -> tuple[pd.DataFrame, tuple[Problem, ...]]:
-    """Join a second table (district, year, measures) to a panel on district and year.
-
-    Parameters
-    ----------
-    panel, other : DataFrame or OfficeTable
-        Tidy tables with ``region`` and ``year``.
-    file : str
-        Name of the second table, for messages.
-
-    Returns
-    -------
-    joined : DataFrame
-        The panel's rows with the other table's measures (missing where unmatched).
-    notes : tuple of Problem
-        Warnings naming the district-years found in only one of the tables.
-
-    Raises
-    ------
-    DataError
-        When both tables hold the same measure, or a key is doubled in ``other``.
-    """
-    left = panel.table if isinstance(panel, OfficeTable) else panel
-    right = other.table if isinstance(other, OfficeTable) else other
-    clash = (set(left.columns) & set(right.columns)) - {"region", "year"}
-    if clash:
-        raise fail(
-            f"both tables hold {', '.join(sorted(clash))}.",
-            "Drop the measure from one of them before joining.",
-            file=file,
-        )
-    if right.duplicated(["region", "year"]).any():
-        first = right[right.duplicated(["region", "year"])].iloc[0]
-        raise fail(
-            f"'{first['region']}' appears more than once for {first['year']}.",
-            "Keep one line per district and year.",
-            file=file,
-        )
-    keys = ["region", "year"]
-    right = right.astype({"region": str})
-    joined = left.astype({"region": str}).merge(right, on=keys, how="left", indicator=True)
-    panel_only = joined.loc[joined["_merge"] == "left_only", keys]
-    other_only = right.merge(
-        left[keys].astype({"region": str}), on=keys, how="left", indicator=True
-    ).query("_merge == 'left_only'")[keys]
-    notes = []
-    for rows, words in (
-        (panel_only, f"have no line in {file}"),
-        (other_only, "of the second table are not in the panel"),
-    ):
-        if len(rows):
-            shown = ", ".join(f"{r.region} {r.year}" for r in rows.head(LISTED).itertuples())
-            more = f" and {len(rows) - LISTED} more" if len(rows) > LISTED else ""
-            notes.append(
-                Problem(
-                    f"{len(rows)} district-year(s) {words}: {shown}{more}.",
-                    "Check the names (see match_names) or the years.",
-                    file=file,
-                    severity="warning",
-                )
-            )
-    return joined.drop(columns="_merge"), tuple(notes)
