@@ -194,3 +194,16 @@ def test_second_table_is_joined_and_unmatched_keys_reported() -> None:
     assert "Northland 2002" in messages and "Greyhollow 2001" in messages
     with pytest.raises(DataError, match="both tables hold"):
         join_measure(panel, panel)
+
+
+def test_one_year_column_is_a_year_not_a_measure() -> None:
+    text = "Population by district\nDistrict,2003 (p)\nAshvale,5\nNorthland,7\n"
+    reading = read_office_table(text.encode(), "one.csv")
+    assert reading.table[["year", "population"]].to_numpy().tolist() == [[2003, 5], [2003, 7]]
+
+
+def test_columns_beside_the_years_are_named_as_not_read() -> None:
+    text = "District,2001,2002,Change (%)\nAshvale,5,6,20.0\nNorthland,7,8,14.3\n"
+    reading = read_office_table(text.encode(), "c.csv", measure="population")
+    assert list(reading.table.columns) == ["region", "year", "population"]
+    assert any("not read: Change (%)" in p.message for p in reading.notes)

@@ -18,11 +18,21 @@ from pathlib import Path
 
 from explorer.data.model import fail
 
-__all__ = ["DELIMITERS", "MAX_CELLS", "MAX_COLUMNS", "Grid", "Line", "read_grids", "source_bytes"]
+__all__ = [
+    "DELIMITERS",
+    "MAX_BYTES",
+    "MAX_CELLS",
+    "MAX_COLUMNS",
+    "Grid",
+    "Line",
+    "read_grids",
+    "source_bytes",
+]
 
 DELIMITERS = (",", ";", "\t", "|")
 MAX_COLUMNS = 1_000
 MAX_CELLS = 2_000_000
+MAX_BYTES = 200_000_000  # a district table is far smaller; refuse before reading it
 SNIFF_LINES = 60
 
 #: One kept line of a table: its 1-based line number in the file and its cells as text.
@@ -61,6 +71,13 @@ def source_bytes(source: str | Path | bytes, name: str | None) -> tuple[bytes, s
         return bytes(source), name or "upload"
     path = Path(source)
     try:
+        if path.stat().st_size > MAX_BYTES:
+            raise fail(
+                f"the file is larger than {MAX_BYTES // 1_000_000} MB; that is more than a "
+                "district table.",
+                "Keep only the districts and years you need.",
+                file=name or path.name,
+            )
         return path.read_bytes(), name or path.name
     except OSError as exc:
         raise fail(

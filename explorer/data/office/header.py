@@ -10,7 +10,7 @@ from dataclasses import dataclass
 from explorer.data.model import fail
 from explorer.data.office.cells import is_numberlike
 from explorer.data.office.grid import Grid, Line
-from explorer.data.office.measures import header_year
+from explorer.data.office.measures import column_role, header_year
 
 __all__ = ["Frame", "find_frame", "first_words"]
 
@@ -61,11 +61,12 @@ def _filled(cells: tuple[str, ...]) -> list[str]:
 
 
 def _is_year_header(cells: tuple[str, ...]) -> bool:
+    """Years across (two or more), or a lone year under a column named like a district."""
     rest = _filled(cells[1:])
-    years = [header_year(c) for c in rest]
-    return sum(y is not None for y in years) >= 2 and sum(y is not None for y in years) * 2 >= len(
-        rest
-    )
+    years = sum(header_year(c) is not None for c in rest)
+    if years == 1 and len(rest) == 1:
+        return column_role(cells[0]) == "region"
+    return years >= 2 and years * 2 >= len(rest)
 
 
 def _is_data(cells: tuple[str, ...], decimal: str) -> bool:

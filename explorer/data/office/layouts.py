@@ -241,6 +241,18 @@ def _years_across(
             "Name each block of year columns with its own measure.",
             file=notes.file,
         )
+    used = set(labels) | {j for _, columns in blocks for j in columns}
+    unread = [
+        header[j] or f"column {j + 1}"
+        for j in range(len(header))
+        if j not in used and (header[j] or _body_column(frame, j))
+    ]
+    if unread:
+        notes.warn(
+            f"{len(unread)} column(s) are neither a district label nor a year and were "
+            f"not read: {', '.join(unread[:LISTED])}.",
+            "Read them as a table of their own if they are needed.",
+        )
     records: dict[tuple[int, int], dict[str, object]] = {}
     for (_, columns), key in zip(blocks, measures, strict=True):
         for i, (line, cells) in enumerate(frame.body):
@@ -360,7 +372,8 @@ def tidy_frame(
     body = [cells for _, cells in frame.body]
     labels = _label_columns(header, body, decimal)
     year_columns = [j for j in range(len(header)) if j not in labels and header_year(header[j])]
-    if len(year_columns) >= 2:
+    has_year = any(column_role(h) == "year" for j, h in enumerate(header) if j not in labels)
+    if len(year_columns) >= 2 or (len(year_columns) == 1 and not has_year):
         table, measures, headers = _years_across(
             frame, header, labels, notes, decimal, measure, fallback
         )
