@@ -28,6 +28,12 @@ def test_bom_is_dropped_and_latin1_is_the_fallback() -> None:
     assert latin.encoding == "latin-1" and latin.lines[1][1][0] == "Åsby"
 
 
+def test_utf16_text_export_is_read() -> None:
+    _, [grid] = read_grids("District\t2001\nÅsby\t3\n".encode("utf-16"), "u.txt")
+    assert grid.encoding == "utf-16" and grid.delimiter == "\t"
+    assert grid.lines[1][1] == ("Åsby", "3")
+
+
 def test_blank_lines_are_left_out_but_line_numbers_kept() -> None:
     _, [grid] = read_grids(b"Title\n\n\nDistrict,2001\nAshvale,3\n", "c.csv")
     assert [n for n, _ in grid.lines] == [1, 4, 5]

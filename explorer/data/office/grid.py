@@ -15,6 +15,7 @@ import io
 from collections import Counter
 from dataclasses import dataclass
 from pathlib import Path
+from typing import Any
 
 from explorer.data.model import fail
 
@@ -95,7 +96,13 @@ def _trimmed(cells: list[str]) -> tuple[str, ...]:
 
 
 def _decode(data: bytes) -> tuple[str, str]:
-    # UTF-8 first (a BOM is dropped); Latin-1 decodes any byte, so it is the last resort.
+    # UTF-16 when its BOM says so (spreadsheet "Unicode text"); then UTF-8 (a BOM is
+    # dropped); Latin-1 decodes any byte, so it is the last resort.
+    if data[:2] in (b"\xff\xfe", b"\xfe\xff"):
+        try:
+            return data.decode("utf-16"), "utf-16"
+        except UnicodeDecodeError:
+            pass
     try:
         return data.decode("utf-8-sig"), "utf-8"
     except UnicodeDecodeError:
@@ -157,22 +164,20 @@ def _cell_text(value: object) -> str:
     return str(value).strip()
 
 
-def _sheet_grid(sheet: object, file: str) -> Grid:
-    width = sheet.max_column or 0  # type: ignore[attr-defined]
-    height = sheet.max_row or 0  # type: ignore[attr-defined]
-    _bounded(file, width, 0)
+def _sheet_grid(sheet: Any, file: str) -> Grid:
+    # the stated dimension refuses a huge sheet early; rows are still bounded one by one,
+    # since some writers state no dimension or a wrong one
+    _bounded(file, sheet.max_column or 0, 0)
     lines: list[Line] = []
     cells = 0
-    # values_only rows; a far-away stray cell costs only the loop, never stored blank rows
-    for number, row in enumerate(sheet.iter_rows(values_only=True, max_col=max(width, 1)), 1):  # type: ignore[attr-defined]
+    for number, row in enumerate(sheet.iter_rows(values_only=True), 1):
+        _bounded(file, len(row), cells)
         row_cells = _trimmed([_cell_text(v) for v in row])
-        if row_cells:
+        if row_cells:  # a far-away stray cell costs only the loop, never stored blank rows
             cells += len(row_cells)
             _bounded(file, len(row_cells), cells)
             lines.append((number, row_cells))
-        if number >= max(height, 1) and height:
-            break
-    return Grid(tuple(lines), sheet.title)  # type: ignore[attr-defined]
+    return Grid(tuple(lines), sheet.title)
 
 
 def _workbook_grids(data: bytes, file: str) -> list[Grid]:
