@@ -207,3 +207,22 @@ def test_columns_beside_the_years_are_named_as_not_read() -> None:
     reading = read_office_table(text.encode(), "c.csv", measure="population")
     assert list(reading.table.columns) == ["region", "year", "population"]
     assert any("not read: Change (%)" in p.message for p in reading.notes)
+
+
+def test_years_in_the_line_above_measures_in_the_header() -> None:
+    text = (
+        "Valdoria Province\n"
+        ",2001,,2002,\n"
+        "District,Mean income,Population,Mean income,Population\n"
+        "Ashvale,100,5,110,6\n"
+        "Northland,200,7,210,8\n"
+    )
+    reading = read_office_table(text.encode(), "m.csv")
+    table = _tidy(reading)
+    assert reading.layout.measures == ("mean_income", "population")
+    assert table[["year", "mean_income", "population"]].to_numpy().tolist() == [
+        [2001, 100, 5],
+        [2002, 110, 6],
+        [2001, 200, 7],
+        [2002, 210, 8],
+    ]

@@ -35,7 +35,8 @@ class Frame:
         Note and title lines above the header (the line just above it, when it labels blocks
         of years, is ``spanning`` instead).
     spanning : Line or None
-        A line above the header that names blocks of year columns.
+        A line just above the header that names blocks of year columns, or that holds the
+        years over a header of measures.
     between : tuple of Line
         Lines among the data that hold no values (section headings), set aside.
     below : tuple of Line
@@ -84,7 +85,15 @@ def _spanning(above: list[Line], header: Line) -> Line | None:
     labels = _filled(cells[1:])
     header_years = [header_year(c) for c in header[1][1:] if c.strip()]
     repeated = len({y[1] for y in header_years if y}) < sum(y is not None for y in header_years)
-    if labels and repeated and len(labels) < len(_filled(header[1])) and number == header[0] - 1:
+    # years above and measures in the header: ",2001,,2002" over "District,Income,Pop,…"
+    years_above = sum(header_year(c) is not None for c in labels)
+    years_over_measures = years_above >= 2 and years_above == len(labels) and not any(header_years)
+    if (
+        labels
+        and (repeated or years_over_measures)
+        and len(labels) < len(_filled(header[1]))
+        and number == header[0] - 1
+    ):
         return above[-1]
     return None
 

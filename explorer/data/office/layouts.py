@@ -164,25 +164,36 @@ def _regions(frame: Frame, region: int, notes: _Notes) -> list[str]:
     return names
 
 
-def _blocks(header: list[str], spanning: tuple[str, ...] | None) -> list[tuple[str, list[int]]]:
-    """Year columns grouped into measures: by prefix, by spanning label, or by restarts."""
+Block = tuple[str, list[tuple[int, int]]]  # measure label, (column, year) pairs
+
+
+def _blocks(header: list[str], spanning: tuple[str, ...] | None, labels: list[int]) -> list[Block]:
+    """Year columns grouped into measures: by header prefix, by spanning label, by restarts
+    of the years, or, with the years in the spanning line, by the measure under each."""
     span: list[str] = []
     current = ""
     for j in range(len(header)):
         if spanning is not None and j < len(spanning) and spanning[j].strip():
             current = strip_marker(spanning[j])[0]
         span.append(current)
-    blocks: list[tuple[str, list[int]]] = []
+    blocks: list[Block] = []
+    if not any(header_year(header[j]) for j in range(len(header)) if j not in labels):
+        by_measure: dict[str, list[tuple[int, int]]] = {}
+        for j, cell in enumerate(header):
+            year = header_year(span[j]) if j not in labels and cell else None
+            if year is not None and not year[0]:
+                by_measure.setdefault(cell, []).append((j, year[1]))
+        return list(by_measure.items())
     last_year = None
     for j, cell in enumerate(header):
-        found = header_year(cell)
+        found = header_year(cell) if j not in labels else None
         if found is None:
             continue
         label = found[0] or span[j]
         restart = last_year is not None and found[1] <= last_year
         if not blocks or blocks[-1][0] != label or (restart and not label):
             blocks.append((label, []))
-        blocks[-1][1].append(j)
+        blocks[-1][1].append((j, found[1]))
         last_year = found[1]
     return blocks
 
@@ -232,7 +243,7 @@ def _years_across(
 ) -> tuple[pd.DataFrame, list[str], dict[str, str]]:
     region, others = _region_columns(header, labels)
     names = _regions(frame, region, notes)
-    blocks = _blocks(header, frame.spanning[1] if frame.spanning else None)
+    blocks = _blocks(header, frame.spanning[1] if frame.spanning else None, labels)
     titles = [" ".join(c) for _, c in frame.above]
     measures = _measure_names([b[0] for b in blocks], measure, titles, notes, fallback)
     if len(set(measures)) != len(measures):
@@ -241,7 +252,7 @@ def _years_across(
             "Name each block of year columns with its own measure.",
             file=notes.file,
         )
-    used = set(labels) | {j for _, columns in blocks for j in columns}
+    used = set(labels) | {j for _, columns in blocks for j, _ in columns}
     unread = [
         header[j] or f"column {j + 1}"
         for j in range(len(header))
@@ -256,8 +267,7 @@ def _years_across(
     records: dict[tuple[int, int], dict[str, object]] = {}
     for (_, columns), key in zip(blocks, measures, strict=True):
         for i, (line, cells) in enumerate(frame.body):
-            for j in columns:
-                year = header_year(header[j])[1]  # type: ignore[index]
+            for j, year in columns:
                 text = cells[j] if j < len(cells) else ""
                 record = records.setdefault(
                     (i, year), {"line": line, "region": names[i], "year": year}
@@ -371,9 +381,10 @@ def tidy_frame(
     header = _clean_header(frame.header[1], width, notes)
     body = [cells for _, cells in frame.body]
     labels = _label_columns(header, body, decimal)
-    year_columns = [j for j in range(len(header)) if j not in labels and header_year(header[j])]
+    spanning = frame.spanning[1] if frame.spanning else None
+    year_columns = sum(len(c) for _, c in _blocks(header, spanning, labels))
     has_year = any(column_role(h) == "year" for j, h in enumerate(header) if j not in labels)
-    if len(year_columns) >= 2 or (len(year_columns) == 1 and not has_year):
+    if year_columns >= 2 or (year_columns == 1 and not has_year):
         table, measures, headers = _years_across(
             frame, header, labels, notes, decimal, measure, fallback
         )
