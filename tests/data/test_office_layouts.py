@@ -226,3 +226,15 @@ def test_years_in_the_line_above_measures_in_the_header() -> None:
         [2001, 200, 7],
         [2002, 210, 8],
     ]
+
+
+def test_values_without_a_district_name_are_named_not_read() -> None:
+    text = "District,2001,2002\n,1,2\nAshvale,3,4\n"
+    reading = read_office_table(text.encode(), "n.csv", measure="population")
+    assert reading.table["region"].unique().tolist() == ["Ashvale"]
+    assert any("no district name" in p.message and "lines 2" in p.message for p in reading.notes)
+
+
+def test_an_empty_file_is_a_clear_error() -> None:
+    with pytest.raises(DataError, match="holds no cells"):
+        read_office_table(b"", "empty.csv")

@@ -112,6 +112,8 @@ def _decode(data: bytes) -> tuple[str, str]:
 def _sniff(text: str) -> str:
     """The delimiter that splits the first lines into the most, most regular, fields."""
     sample = [ln for ln in text.splitlines()[:SNIFF_LINES] if ln.strip()]
+    if not sample:
+        return ","
     best, best_score = ",", (0, 0)
     for delimiter in DELIMITERS:
         widths = Counter(len(row) for row in csv.reader(sample, delimiter=delimiter))

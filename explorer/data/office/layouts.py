@@ -393,5 +393,14 @@ def tidy_frame(
         table, measures, headers, layout = _by_columns(frame, header, labels, notes, decimal, year)
     table["region"] = table["region"].astype(str)
     table["year"] = table["year"].astype("int64")
+    nameless = table["region"].str.strip() == ""
+    if nameless.any():
+        lines = sorted(set(table.loc[nameless, "line"]))
+        notes.warn(
+            f"{len(lines)} line(s) hold values but no district name and were not read "
+            f"(lines {', '.join(map(str, lines[:LISTED]))}).",
+            "Write the district's name or code in the first column.",
+        )
+        table = table[~nameless].reset_index(drop=True)
     percent = tuple(sorted(notes.percent & set(measures)))
     return Tidy(table, layout, tuple(measures), notes.problems(), percent, headers)
