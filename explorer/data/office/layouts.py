@@ -31,6 +31,7 @@ LAYOUTS = {
 }
 LISTED = 5
 #: Column names of the panel contract, which a long table keeps as they are.
+RESERVED = {"line", "region", "year"}
 CONTRACT = {c for columns in KIND_COLUMNS.values() for c in columns} - {"region", "year"}
 
 
@@ -246,12 +247,7 @@ def _years_across(
     blocks = _blocks(header, frame.spanning[1] if frame.spanning else None, labels)
     titles = [" ".join(c) for _, c in frame.above]
     measures = _measure_names([b[0] for b in blocks], measure, titles, notes, fallback)
-    if len(set(measures)) != len(measures):
-        raise fail(
-            f"two blocks of years would both be '{measures[0]}'.",
-            "Name each block of year columns with its own measure.",
-            file=notes.file,
-        )
+    _unique([_slug(header[k]) for k in others] + measures, notes.file)
     used = set(labels) | {j for _, columns in blocks for j, _ in columns}
     unread = [
         header[j] or f"column {j + 1}"
@@ -277,6 +273,17 @@ def _years_across(
                     record[_slug(header[k])] = strip_marker(cells[k] if k < len(cells) else "")[0]
     titles_used = {m: (b[0] or " ".join(titles)) for m, b in zip(measures, blocks, strict=True)}
     return pd.DataFrame.from_records(list(records.values())), measures, titles_used
+
+
+def _unique(names: list[str], file: str) -> None:
+    """Refuse two output columns of one name, or one named like a key column."""
+    doubled = [n for n, count in Counter(names).items() if count > 1 or n in RESERVED]
+    if doubled:
+        raise fail(
+            f"two columns of the table would both be called '{doubled[0]}'.",
+            "Give each column its own header (one year column, one column per measure).",
+            file=file,
+        )
 
 
 def _slug(label: str) -> str:
@@ -312,6 +319,7 @@ def _by_columns(
         else (measure_key(header[j]) or _slug(header[j]))
         for j in values
     ]
+    _unique([_slug(header[k]) for k in others] + keys, notes.file)
     rows = []
     for i, (line, cells) in enumerate(frame.body):
         row: dict[str, object] = {"line": line, "region": names[i]}
@@ -335,12 +343,6 @@ def _by_columns(
         for j, key in zip(values, keys, strict=True):
             row[key] = notes.cell(cells[j] if j < len(cells) else "", header[j], line, decimal, key)
         rows.append(row)
-    if len(set(keys)) != len(keys):
-        raise fail(
-            f"two columns would both be '{Counter(keys).most_common(1)[0][0]}'.",
-            "Give each measure column its own header.",
-            file=notes.file,
-        )
     headers = {k: header[j] for j, k in zip(values, keys, strict=True)}
     return pd.DataFrame(rows), keys, headers, "long" if year_col is not None else "one_year"
 

@@ -80,7 +80,7 @@ def recognise_published(
     headers = dict(headers or {})
     found = []
     for column in table.columns:
-        if column in ("region", "year", "line"):
+        if column in ("region", "year", "line") or not pd.api.types.is_numeric_dtype(table[column]):
             continue
         header = headers.get(column, column)
         key = column if column in INDEX_MEASURES else measure_key(header)
