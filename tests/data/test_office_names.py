@@ -1,5 +1,6 @@
 """District names across files. Suggestions are ranked by difflib's ratio (Ratcliff and
-Obershelp 1988, 'Pattern matching: the gestalt approach', Dr. Dobb's Journal) or word overlap."""
+Metzener 1988, 'Pattern matching: the gestalt approach', Dr. Dobb's Journal 13(7)) or the
+share of words in common (Jaccard 1912); difflib itself is the reference for the scores."""
 
 from __future__ import annotations
 

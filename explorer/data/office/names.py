@@ -125,6 +125,21 @@ def match_names(panel: Iterable[str], boundary: Iterable[str] | Mapping[str, str
     Returns
     -------
     NameMatch
+
+    Notes
+    -----
+    Exact ids first, then normalised names (:func:`normalise`) when they point at a single
+    boundary district, then numeric codes padded with zeros when that matches every one.
+    The rest are scored against every unused boundary district by the larger of the
+    gestalt pattern-matching ratio and the share of words in common; scores of at least
+    0.6 are suggested, best first.
+
+    References
+    ----------
+    Ratcliff, J. W. and Metzener, D. E. (1988). Pattern matching: the gestalt approach.
+    *Dr. Dobb's Journal*, 13(7), 46-51 (the ratio of :class:`difflib.SequenceMatcher`).
+    Jaccard, P. (1912). The distribution of the flora in the alpine zone. *New
+    Phytologist*, 11(2), 37-50 (the share of words in common).
     """
     panel = list(dict.fromkeys(str(p) for p in panel))
     names = dict(boundary) if isinstance(boundary, Mapping) else {str(b): str(b) for b in boundary}
