@@ -106,3 +106,10 @@ def test_option_keeps_the_totals(keep: bool) -> None:
     assert ("Total" in set(reading.table["region"])) is keep
     assert reading.aggregates["region"].unique().tolist() == ["Total"]
     assert any("totals of other rows" in p.message for p in reading.notes)
+
+
+def test_a_district_named_all_saints_is_not_a_total() -> None:
+    table = _table([("All Saints", (5, 6)), ("All districts", (9, 9))])
+    districts, aggregates = set_apart_aggregates(table)
+    assert districts["region"].unique().tolist() == ["All Saints"]
+    assert aggregates["region"].unique().tolist() == ["All districts"]

@@ -238,3 +238,12 @@ def test_values_without_a_district_name_are_named_not_read() -> None:
 def test_an_empty_file_is_a_clear_error() -> None:
     with pytest.raises(DataError, match="holds no cells"):
         read_office_table(b"", "empty.csv")
+
+
+def test_summary_states_what_was_understood() -> None:
+    text = "Population\nDistrict,2001,2002\nTotal,8,10\nAshvale,3,4\nNorthland,5,6\n"
+    lines = read_office_table(text.encode(), "s.csv").summary()
+    assert lines[0] == "Layout: one line per district, years across the columns."
+    assert lines[1] == "Header on line 2; measures: population."
+    assert lines[2] == "2 districts, years 2001–2002, 4 rows."
+    assert lines[3] == "1 total row(s) set apart: Total."

@@ -8,9 +8,33 @@ from hypothesis import strategies as st
 from explorer.data.model import DataError
 from explorer.data.office import read_office_table
 
-PIECES = ["District", "2001", "2002 (p)", "Y2003", "Total", "Ashvale 3/", "12,345", "12.345,6",
-          "..", "(D)", "x", "-", "", "Source: Valdoria", "gini (%)", "year", "region", "\u00a0",
-          '"', "Ørnby", "1)", "0.5", "-3", "inc2001", "pop2001"]
+PIECES = [
+    "District",
+    "2001",
+    "2002 (p)",
+    "Y2003",
+    "Total",
+    "Ashvale 3/",
+    "12,345",
+    "12.345,6",
+    "..",
+    "(D)",
+    "x",
+    "-",
+    "",
+    "Source: Valdoria",
+    "gini (%)",
+    "year",
+    "region",
+    "\u00a0",
+    '"',
+    "Ørnby",
+    "1)",
+    "0.5",
+    "-3",
+    "inc2001",
+    "pop2001",
+]
 
 
 @settings(max_examples=150, deadline=None)

@@ -132,6 +132,26 @@ class OfficeTable:
     options: ReadOptions
     published: Published = field(default_factory=lambda: Published(False, ()))
 
+    def summary(self) -> list[str]:
+        """What was understood, one sentence a line, for a preview before the table is used."""
+        table = self.table
+        years = sorted(table["year"].unique())
+        span = f"{years[0]}–{years[-1]}" if len(years) > 1 else str(years[0]) if years else "-"
+        lines = [
+            f"Layout: {self.layout.words}.",
+            f"Header on line {self.header_row}; measures: {', '.join(self.layout.measures)}.",
+            f"{table['region'].nunique()} districts, years {span}, {len(table)} rows.",
+        ]
+        if len(self.aggregates):
+            lines.append(
+                f"{self.aggregates['region'].nunique()} total row(s) set apart: "
+                + ", ".join(self.aggregates["region"].drop_duplicates().head(LISTED))
+                + "."
+            )
+        for column in self.published.columns:
+            lines.append(f"{column.column}: published {column.measure}, {column.scale}.")
+        return lines + [p.message for p in self.notes]
+
 
 def _skipped_notes(frame: Frame, sheet: str | None, file: str) -> tuple[list, list[Problem]]:
     skipped, notes = [], []

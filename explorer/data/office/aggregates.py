@@ -22,7 +22,7 @@ __all__ = ["TOTAL_WORDS", "set_apart_aggregates"]
 
 #: Words that name a total row (common practice of office tables).
 TOTAL_WORDS = re.compile(
-    r"^(?:total|totals|grand total|all|all \w+|national|nation|whole country|country|"
+    r"^(?:total|totals|grand total|all|all (?:districts|regions|areas|counties|zones|units)|national|nation|whole country|country|"
     r"province|(?:\w+ )?province|province of \w+|province total|provincial total|\w+ total|total \w+|entire \w+)$"
 )
 TOLERANCE = 0.005
