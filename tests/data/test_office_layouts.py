@@ -247,3 +247,12 @@ def test_summary_states_what_was_understood() -> None:
     assert lines[1] == "Header on line 2; measures: population."
     assert lines[2] == "2 districts, years 2001–2002, 4 rows."
     assert lines[3] == "1 total row(s) set apart: Total."
+
+
+def test_notes_count_every_cleaned_cell_but_list_only_a_few() -> None:
+    rows = "\n".join(f"D{k} 3/,{k},see note" for k in range(1, 13))
+    reading = read_office_table(f"District,2001,2002\n{rows}\n".encode(), "m.csv")
+    text = " ".join(p.message for p in reading.notes)
+    assert "footnote markers removed from 12 district names" in text
+    assert "12 cell(s) are not numbers" in text
+    assert text.count("see note") == 5

@@ -30,8 +30,8 @@ LAYOUTS = {
     "one_year": "one line per district for a single year, measures across",
 }
 LISTED = 5
-#: Column names of the panel contract, which a long table keeps as they are.
 RESERVED = {"line", "region", "year"}
+#: Column names of the panel contract, which a long table keeps as they are.
 CONTRACT = {c for columns in KIND_COLUMNS.values() for c in columns} - {"region", "year"}
 
 
@@ -53,8 +53,10 @@ class _Notes:
     def __init__(self, file: str) -> None:
         self.file = file
         self.codes: Counter[tuple[str, str]] = Counter()
+        # counts, and the first few examples only: memory stays bounded on a large table
         self.markers: dict[str, list[str]] = defaultdict(list)
         self.words: dict[str, list[str]] = defaultdict(list)
+        self.counts: Counter[tuple[str, str]] = Counter()
         self.percent: set[str] = set()
         self.extra: list[Problem] = []
 
@@ -63,12 +65,19 @@ class _Notes:
         if percent:
             self.percent.add(key or column)
         if code == "text":
-            self.words[column].append(f"line {line} '{text}'")
+            self.example("words", column, f"line {line} '{text}'")
         elif code and code.startswith("flag:"):
-            self.markers["values"].append(text)
+            self.example("markers", "values", text)
         elif code:
             self.codes[(code, column)] += 1
         return value
+
+    def example(self, kind: str, key: str, text: str) -> None:
+        """Count one cleaned cell of ``kind`` ("markers" or "words") and keep a few."""
+        self.counts[(kind, key)] += 1
+        kept = (self.markers if kind == "markers" else self.words)[key]
+        if len(kept) < LISTED:
+            kept.append(text)
 
     def warn(self, message: str, fix: str = "", column: str | None = None) -> None:
         self.extra.append(Problem(message, fix, file=self.file, column=column, severity="warning"))
@@ -92,7 +101,8 @@ class _Notes:
             shown = ", ".join(f"'{r}'" for r in removed[:LISTED])
             out.append(
                 Problem(
-                    f"footnote markers removed from {len(removed)} {kind} (e.g. {shown}).",
+                    f"footnote markers removed from {self.counts[('markers', kind)]} {kind} "
+                    f"(e.g. {shown}).",
                     file=self.file,
                     severity="warning",
                 )
@@ -100,7 +110,8 @@ class _Notes:
         for column, cells in self.words.items():
             out.append(
                 Problem(
-                    f"{len(cells)} cell(s) are not numbers and are read as missing: "
+                    f"{self.counts[('words', column)]} cell(s) are not numbers and are read as "
+                    "missing: "
                     f"{', '.join(cells[:LISTED])}.",
                     "Correct those cells if they should hold values.",
                     file=self.file,
@@ -117,7 +128,7 @@ def _clean_header(cells: tuple[str, ...], width: int, notes: _Notes) -> list[str
         clean, marker = strip_marker(cell)
         year = header_year(cell)
         if (marker and year is None) or (year and not year[0] and cell.strip() != str(year[1])):
-            notes.markers["headers"].append(cell)
+            notes.example("markers", "headers", cell)
         out.append(clean)
     return out
 
@@ -160,7 +171,7 @@ def _regions(frame: Frame, region: int, notes: _Notes) -> list[str]:
     for _, cells in frame.body:
         clean, marker = strip_marker(cells[region] if region < len(cells) else "")
         if marker:
-            notes.markers["district names"].append(cells[region])
+            notes.example("markers", "district names", cells[region])
         names.append(clean)
     return names
 
