@@ -256,3 +256,9 @@ def test_notes_count_every_cleaned_cell_but_list_only_a_few() -> None:
     assert "footnote markers removed from 12 district names" in text
     assert "12 cell(s) are not numbers" in text
     assert text.count("see note") == 5
+
+
+def test_a_year_given_for_a_table_with_years_is_not_used_and_said_so() -> None:
+    reading = read_office_table(PLAIN.encode(), "y.csv", year=1990, measure="population")
+    assert sorted(reading.table["year"].unique()) == [2001, 2002, 2003]
+    assert any("1990 was given" in p.message for p in reading.notes)

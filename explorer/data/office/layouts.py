@@ -404,6 +404,8 @@ def tidy_frame(
         layout = "years_across"
     else:
         table, measures, headers, layout = _by_columns(frame, header, labels, notes, decimal, year)
+    if year is not None and layout != "one_year":
+        notes.warn(f"the year {year} was given, but the table has its own years; it was not used.")
     table["region"] = table["region"].astype(str)
     table["year"] = table["year"].astype("int64")
     nameless = table["region"].str.strip() == ""
