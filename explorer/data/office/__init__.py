@@ -252,7 +252,7 @@ def _aggregate_notes(aggregates: pd.DataFrame, keep: bool, file: str) -> list[Pr
     ]
 
 
-def _check_unique(table: pd.DataFrame, file: str) -> None:
+def _check_unique(table: pd.DataFrame, file: str, file_lines: bool) -> None:
     doubled = table[table.duplicated(["region", "year"], keep=False)]
     if doubled.empty:
         return
@@ -262,7 +262,7 @@ def _check_unique(table: pd.DataFrame, file: str) -> None:
         f"({len(doubled)} rows share a district and year with another).",
         "Give each district a unique name or code (codes are safest).",
         file=file,
-        row=int(first["line"]) if "line" in doubled else None,
+        row=int(first["line"]) if file_lines else None,
     )
 
 
@@ -345,7 +345,7 @@ def read_office_table(
     districts, aggregates = set_apart_aggregates(table, boundary_ids)
     notes += _aggregate_notes(aggregates, options.keep_aggregates, file)
     kept = table if options.keep_aggregates else districts
-    _check_unique(kept, file)
+    _check_unique(kept, file, file_lines=len(readings) == 1)
     grid0, frame0, decimal0 = readings[0][0], readings[0][2], readings[0][3]
     layout = _layout([(g, t, f) for g, t, f, *_ in readings])
     detected = replace(
