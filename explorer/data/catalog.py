@@ -9,16 +9,15 @@ from __future__ import annotations
 from pathlib import Path
 
 from explorer import data as readers
+from explorer.data.demo import DEMO_IDS
 from explorer.data.model import DataError, Panel, Problem
-from explorer.present.vocabulary import DEMO_DATASETS
 
 __all__ = ["demo_kind", "open_dataset", "open_demo", "open_stored"]
 
 
 def demo_kind(dataset_id: str) -> str | None:
     """The kind of demo data behind a built-in dataset id, or None for any other id."""
-    entry = DEMO_DATASETS.get(dataset_id)
-    return entry[1] if entry else None
+    return DEMO_IDS.get(dataset_id)
 
 
 def open_demo(kind: str) -> Panel:

@@ -11,6 +11,7 @@ from explorer.data.load import load_panel
 from explorer.data.model import DataError, Panel, Problem
 
 __all__ = [
+    "DEMO_IDS",
     "DEMO_BOUNDARIES",
     "DEMO_FILES",
     "DEMO_INCOME_CONCEPT",
@@ -19,6 +20,8 @@ __all__ = [
     "demo_paths",
 ]
 
+#: Built-in dataset id -> kind of demo data (their names in the list: present.vocabulary).
+DEMO_IDS: dict[str, str] = {"demo": "brackets", "demo-households": "units", "demo-means": "means"}
 DEMO_FILES = {"brackets": "deciles.csv", "units": "households.csv", "means": "means.csv"}
 DEMO_BOUNDARIES = "districts.geojson"
 DEMO_INCOME_CONCEPT = "equivalised disposable income per person (demo currency units)"

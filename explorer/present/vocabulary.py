@@ -14,6 +14,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from explorer.data.demo import DEMO_IDS
 from explorer.stats import decompose, indices, lorenz
 
 __all__ = [
@@ -162,10 +163,13 @@ PAGES: dict[str, Page] = {
 }
 
 #: Built-in dataset id -> (name in the dataset list, kind of demo data).
+_DEMO_NAMES = {
+    "demo": "Demo: decile shares",
+    "demo-households": "Demo: household sample",
+    "demo-means": "Demo: district means",
+}
 DEMO_DATASETS: dict[str, tuple[str, str]] = {
-    "demo": ("Demo: decile shares", "brackets"),
-    "demo-households": ("Demo: household sample", "units"),
-    "demo-means": ("Demo: district means", "means"),
+    dataset: (_DEMO_NAMES[dataset], kind) for dataset, kind in DEMO_IDS.items()
 }
 
 #: The view's field for the index the Breakdown page splits.
