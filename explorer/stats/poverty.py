@@ -196,9 +196,7 @@ def from_units(
     table = pd.DataFrame(
         {
             "region": np.repeat(keys["region"].astype(str).to_numpy(), k),
-            "year": np.repeat(keys["year"].to_numpy().astype(np.int64), k)
-            if "year" in keys
-            else 0,
+            "year": np.repeat(keys["year"].to_numpy().astype(np.int64), k) if "year" in keys else 0,
             "index": np.tile(np.asarray(POVERTY_INDICES, dtype=object), G),
             "value": value,
             "lower": np.stack([bounds[key][0] for key in POVERTY_INDICES], axis=1).ravel(),
