@@ -72,7 +72,7 @@ def _mean_below(g, cut):
     root = np.sqrt(np.clip(cut, 0.0, 1.0))
     j = np.clip(np.floor(root * size).astype(np.int64), 0, size - 1)
     rows = np.arange(g.shape[0])
-    part = (root - j / size) * 2 * _U[j] * np.nan_to_num(g[rows, j])
+    part = (cut - (j / size) ** 2) * np.nan_to_num(g[rows, j])  # the cell's share of (0, cut]
     with np.errstate(invalid="ignore", divide="ignore"):
         mean = (before[rows, j] + part) / cut
         return np.where((cut > 0) & np.isfinite(g).all(axis=1), mean, np.nan)

@@ -1,0 +1,85 @@
+"""Tests of the tidy poverty table for each kind of panel."""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+import pytest
+from scipy import special
+
+from explorer.data.model import DataError
+from explorer.data.validate import validate
+from explorer.stats import poverty_table
+
+COLUMNS = ["region", "year", "index", "value", "lower", "upper", "method", "note"]
+
+
+def bracket_panel(mean=True):
+    rows = []
+    for region, sigma, mu in (("Ashford", 0.5, 900.0), ("Brackenmoor", 0.9, 1200.0)):
+        P = np.linspace(0, 1, 11)
+        shares = np.diff(special.ndtr(special.ndtri(P) - sigma))  # lognormal deciles
+        for share in shares:
+            row = dict(region=region, year=2021, pop_share=0.1, income_share=share)
+            if mean:
+                row.update(mean_income=mu, population=1000.0)
+            rows.append(row)
+    return validate(pd.DataFrame(rows), kind="brackets")
+
+
+def test_bracket_table_has_the_contract_columns_and_lognormal_values():
+    table = poverty_table.compute(bracket_panel(), 600.0, ["lognormal", "gq"])
+    assert list(table.columns) == COLUMNS
+    assert len(table) == 2 * 2 * 5
+    row = table[(table["method"] == "lognormal") & (table["region"] == "Ashford")]
+    got = row.set_index("index")["value"]
+    # lognormal partial moments (Aitchison & Brown 1957): H = Phi(ln(z/mu)/sigma + sigma/2)
+    a = np.log(600 / 900) / 0.5 + 0.25
+    assert got["fgt_0"] == pytest.approx(special.ndtr(a), abs=1e-9)
+    assert row["note"].str.contains("600 per person per year").all()
+
+
+def test_relative_line_to_each_districts_own_mean():
+    from explorer.stats.poverty_lines import parse_line
+
+    table = poverty_table.compute(bracket_panel(), parse_line("50%mean", "district"), "lognormal")
+    got = table.set_index(["region", "index"])["value"]
+    for region, sigma in (("Ashford", 0.5), ("Brackenmoor", 0.9)):
+        a = np.log(0.5) / sigma + sigma / 2
+        assert got[(region, "fgt_0")] == pytest.approx(special.ndtr(a), abs=1e-9)
+
+
+def test_province_median_line_is_the_same_amount_for_every_district():
+    table = poverty_table.compute(bracket_panel(), "60%median", "lognormal")
+    assert table.attrs["line"] == "60% of the province median"
+    head = table[table["index"] == "fgt_0"].set_index("region")["value"]
+    # the more unequal, richer district and the poorer equal one, against one line
+    assert 0 < head["Ashford"] < 1 and 0 < head["Brackenmoor"] < 1
+
+
+def test_means_panel_is_refused_with_a_plain_message():
+    frame = pd.DataFrame({"region": ["Ashford"], "year": [2021], "mean_income": [900.0]})
+    with pytest.raises(DataError, match="cannot be measured from district means alone"):
+        poverty_table.compute(validate(frame, kind="means"), 600.0)
+
+
+def test_relative_line_without_means_is_refused():
+    with pytest.raises(DataError, match="mean income"):
+        poverty_table.compute(bracket_panel(mean=False), "60%median")
+
+
+def test_unit_table_with_bootstrap():
+    rng = np.random.default_rng(2)
+    frame = pd.DataFrame(
+        {
+            "region": np.repeat(["Ashford", "Brackenmoor"], 300),
+            "year": 2021,
+            "income": rng.lognormal(7, 0.7, 600),
+        }
+    )
+    table = poverty_table.compute(
+        validate(frame, kind="units"), "60%median", ci="bootstrap", reps=49
+    )
+    assert list(table.columns) == COLUMNS
+    assert (table["lower"] <= table["value"]).all() and (table["value"] <= table["upper"]).all()
+    assert table["note"].str.contains("sampling error of the relative line").all()
