@@ -25,8 +25,20 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+import pandas as pd
 
-__all__ = ["RankIntervals", "rank_change", "ranks", "from_bounds", "from_replicates"]
+from explorer.data.model import fail
+
+__all__ = [
+    "CAUTION",
+    "RANK_COLUMNS",
+    "RankIntervals",
+    "from_bounds",
+    "from_replicates",
+    "rank_change",
+    "rank_table",
+    "ranks",
+]
 
 
 @dataclass(frozen=True)
@@ -170,3 +182,71 @@ def rank_change(first: RankIntervals, second: RankIntervals):
     with np.errstate(invalid="ignore"):
         clear = (low > 0) | (high < 0)
     return change, low, high, clear
+
+
+RANK_COLUMNS = ("region", "year", "index", "method", "value", "rank", "best", "worst", "clear")
+CAUTION = (
+    "A rank is a position, not a measure of need: an index alone must not decide funding. "
+    "Districts whose rank intervals overlap cannot be told apart, and the office's own rules "
+    "for allocation come first."
+)
+
+
+def rank_table(table, index: str, year, method: str | None = None, descending=False):
+    """Rank the districts of one year by one index of a tidy table, with rank intervals.
+
+    Parameters
+    ----------
+    table : DataFrame
+        A tidy table with ``region, year, index, value, lower, upper, method`` (the index,
+        poverty or welfare table). ``lower``/``upper`` are bounds (bracket panels) or
+        bootstrap intervals (unit panels); where they are missing the district is ranked
+        with that side unbounded, so its interval is honest, if wide.
+    index, year, method
+        Which rows; ``method`` may be omitted when the table has one.
+    descending : bool
+        Rank 1 to the largest value (e.g. for welfare).
+
+    Returns
+    -------
+    DataFrame
+        Columns :data:`RANK_COLUMNS`, sorted by rank; ``attrs["caution"]`` holds
+        :data:`CAUTION`.
+
+    Notes
+    -----
+    An interval built from each district's own 95 % interval is not a 95 % interval for
+    the rank: it covers the true rank whenever every district's interval covers its value.
+    Use :func:`from_replicates` on bootstrap replicates for a rank interval at a stated level.
+    """
+    rows = table[(table["index"] == index) & (table["year"] == year)]
+    if method is not None:
+        rows = rows[rows["method"] == method]
+    if rows["method"].nunique() > 1:
+        raise fail(
+            f"the table holds {index} for several methods ({', '.join(rows['method'].unique())})",
+            "choose one method to rank by",
+            column="method",
+        )
+    got = from_bounds(
+        rows["value"].to_numpy(float),
+        rows["lower"].to_numpy(float),
+        rows["upper"].to_numpy(float),
+        descending,
+    )
+    out = pd.DataFrame(
+        {
+            "region": rows["region"].to_numpy(),
+            "year": rows["year"].to_numpy(),
+            "index": index,
+            "method": rows["method"].to_numpy(),
+            "value": rows["value"].to_numpy(float),
+            "rank": got.rank,
+            "best": got.best,
+            "worst": got.worst,
+            "clear": got.clear,
+        }
+    )
+    out = out.sort_values(["rank", "region"], na_position="last").reset_index(drop=True)
+    out.attrs["caution"] = CAUTION
+    return out

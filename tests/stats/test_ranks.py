@@ -90,3 +90,25 @@ def test_point_rank_lies_inside_its_interval(n):
     v = rng.normal(size=n)
     got = ranks.from_bounds(v, v - rng.uniform(0, 0.1, n), v + rng.uniform(0, 0.1, n))
     assert np.all(got.best <= got.rank) and np.all(got.rank <= got.worst)
+
+
+def test_rank_table_from_a_tidy_table_carries_the_caution():
+    import pandas as pd
+
+    table = pd.DataFrame(
+        {
+            "region": ["Ashford", "Brackenmoor", "Cindervale"],
+            "year": 2021,
+            "index": "fgt_1",
+            "value": [0.2, 0.25, 0.5],
+            "lower": [0.1, 0.22, 0.45],
+            "upper": [0.3, 0.28, 0.55],
+            "method": "gq",
+            "note": "",
+        }
+    )
+    got = ranks.rank_table(table, "fgt_1", 2021)
+    assert list(got.columns) == list(ranks.RANK_COLUMNS)
+    assert got["region"].tolist() == ["Ashford", "Brackenmoor", "Cindervale"]
+    assert got["clear"].tolist() == [False, False, True]
+    assert "must not decide funding" in got.attrs["caution"]
