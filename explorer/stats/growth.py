@@ -21,8 +21,14 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+import pandas as pd
 
-__all__ = ["GRID", "GrowthIncidence", "annualise", "incidence"]
+from explorer.data.model import fail
+from explorer.stats import lorenz, poverty_table
+
+__all__ = ["GRID", "SUMMARY_KEYS", "GrowthIncidence", "annualise", "from_panel", "incidence"]
+
+SUMMARY_KEYS = ("growth_mean", "growth_bottom40", "growth_pro_poor")
 
 GRID = (np.arange(1, 100) / 100.0).copy()
 """Percentiles 1 .. 99, where growth incidence curves are drawn."""
@@ -103,9 +109,14 @@ def incidence(first, second, mean_0, mean_1, headcount=None, p=GRID) -> GrowthIn
     """
     p = np.asarray(p, dtype=float)
     ratio = np.asarray(mean_1, float) / np.asarray(mean_0, float)
+    slopes = (first.slope(p), second.slope(p), first.slope(_FINE), second.slope(_FINE))
+    return _incidence(p, *slopes, ratio, headcount)
+
+
+def _incidence(p, slope_0, slope_1, fine_0, fine_1, ratio, headcount) -> GrowthIncidence:
     n = len(ratio)
-    rate = _rates(first.slope(p), second.slope(p), ratio)
-    fine = _rates(first.slope(_FINE), second.slope(_FINE), ratio)
+    rate = _rates(slope_0, slope_1, ratio)
+    fine = _rates(fine_0, fine_1, ratio)
     head = np.full(n, np.nan) if headcount is None else np.asarray(headcount, float)
     pro_poor = np.where(head > 0, _mean_below(fine, np.nan_to_num(head)), np.nan)
     return GrowthIncidence(
@@ -122,3 +133,86 @@ def annualise(rate, years) -> np.ndarray:
     years = np.asarray(years, dtype=float)
     with np.errstate(invalid="ignore", divide="ignore"):
         return np.power(1.0 + np.asarray(rate, float), 1.0 / years) - 1.0
+
+
+def from_panel(panel, first_year, second_year, method: str = "auto", line=None):
+    """Growth incidence of every district present in both years of a bracket panel.
+
+    Parameters
+    ----------
+    panel : explorer.data.model.Panel
+        A bracket panel with each district's mean income in both years (same price base).
+    first_year, second_year : int
+    method : str
+        The Lorenz method for both years.
+    line : PovertyLine, str or float, optional
+        The line whose first-year headcount sets the poorest H % for the rate of pro-poor
+        growth (an amount in the first year's prices).
+
+    Returns
+    -------
+    summary : DataFrame
+        ``region, year, index, value, lower, upper, method, note`` with ``year`` the second
+        year and the keys of :data:`SUMMARY_KEYS`.
+    curves : DataFrame
+        ``region, p, rate``: the growth incidence curve of each district on :data:`GRID`.
+
+    References
+    ----------
+    Ravallion & Chen (2003) (module docstring).
+    """
+    if panel.kind != "brackets":
+        raise fail(
+            "growth incidence here needs bracket shares with district means",
+            "load a bracket table with mean_income for both years",
+        )
+    fits = lorenz.fit_panel(panel, method)
+    keys = fits.keys.reset_index(drop=True)
+    first = panel.data.groupby(["region", "year"], sort=False)["mean_income"].first()
+    mean = first.reindex(pd.MultiIndex.from_frame(keys)).to_numpy(float)
+    where = {
+        (r, int(y)): i for i, (r, y) in enumerate(zip(keys["region"], keys["year"], strict=True))
+    }
+    regions = sorted(
+        {r for r, y in where if y == first_year} & {r for r, y in where if y == second_year}
+    )
+    if not regions:
+        raise fail(
+            f"no district has brackets in both {first_year} and {second_year}",
+            "choose two years that the same districts report",
+            column="year",
+        )
+    a = np.array([where[(r, first_year)] for r in regions])
+    b = np.array([where[(r, second_year)] for r in regions])
+    s_p, s_fine = fits.slope(GRID), fits.slope(_FINE)
+    head = None
+    if line is not None:
+        table = poverty_table.compute(panel, line, method)
+        h = table[(table["index"] == "fgt_0") & (table["year"] == first_year)]
+        head = h.set_index("region")["value"].reindex(regions).to_numpy(float)
+    got = _incidence(GRID, s_p[a], s_p[b], s_fine[a], s_fine[b], mean[b] / mean[a], head)
+    note = np.where(
+        np.isnan(mean[a]) | np.isnan(mean[b]), "undefined: a district mean is missing", ""
+    )
+    pro_note = "" if line is not None else "needs a poverty line (the first year's headcount)"
+    k = len(SUMMARY_KEYS)
+    summary = pd.DataFrame(
+        {
+            "region": np.repeat(regions, k),
+            "year": int(second_year),
+            "index": np.tile(np.asarray(SUMMARY_KEYS, dtype=object), len(regions)),
+            "value": np.column_stack([got.mean_growth, got.bottom40, got.pro_poor]).ravel(),
+            "lower": np.nan,
+            "upper": np.nan,
+            "method": method,
+            "note": np.column_stack([note, note, np.where(note == "", pro_note, note)]).ravel(),
+        }
+    )
+    curves = pd.DataFrame(
+        {
+            "region": np.repeat(regions, GRID.size),
+            "p": np.tile(GRID, len(regions)),
+            "rate": got.rate.ravel(),
+        }
+    )
+    return summary, curves

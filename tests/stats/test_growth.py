@@ -54,3 +54,32 @@ def test_lognormal_incidence_matches_its_closed_form():
 
 def test_annualise_compounds():
     assert growth.annualise(0.21, 2) == pytest.approx(0.1, abs=1e-12)
+
+
+def test_from_panel_uniform_growth_for_every_district():
+    # Ravallion & Chen (2003), eq. (1): the same shares in both years and a 10 % higher
+    # mean give 10 % growth at every percentile, for the bottom 40 % and for the poor
+    import pandas as pd
+
+    from explorer.data.validate import validate
+
+    shares = np.diff(special.ndtr(special.ndtri(P) - 0.6))
+    rows = []
+    for region, mu in (("Ashford", 900.0), ("Brackenmoor", 1300.0)):
+        for year, grow in ((2019, 1.0), (2021, 1.1)):
+            for share in shares:
+                rows.append(
+                    dict(
+                        region=region,
+                        year=year,
+                        pop_share=0.1,
+                        income_share=share,
+                        mean_income=mu * grow,
+                        population=1000.0,
+                    )
+                )
+    panel = validate(pd.DataFrame(rows), kind="brackets")
+    summary, curves = growth.from_panel(panel, 2019, 2021, "gq", line=700.0)
+    np.testing.assert_allclose(summary["value"], 0.1, atol=1e-9)
+    np.testing.assert_allclose(curves["rate"], 0.1, atol=1e-9)
+    assert set(summary["index"]) == set(growth.SUMMARY_KEYS)
