@@ -135,6 +135,25 @@ def annualise(rate, years) -> np.ndarray:
         return np.power(1.0 + np.asarray(rate, float), 1.0 / years) - 1.0
 
 
+def _pairs(keys, first_year, second_year):
+    """Districts present in both years, and their rows in each."""
+    where = {
+        (r, int(y)): i for i, (r, y) in enumerate(zip(keys["region"], keys["year"], strict=True))
+    }
+    regions = sorted(
+        {r for r, y in where if y == first_year} & {r for r, y in where if y == second_year}
+    )
+    if not regions:
+        raise fail(
+            f"no district has brackets in both {first_year} and {second_year}",
+            "choose two years that the same districts report",
+            column="year",
+        )
+    a = np.array([where[(r, first_year)] for r in regions])
+    b = np.array([where[(r, second_year)] for r in regions])
+    return regions, a, b
+
+
 def from_panel(panel, first_year, second_year, method: str = "auto", line=None):
     """Growth incidence of every district present in both years of a bracket panel.
 
@@ -170,20 +189,7 @@ def from_panel(panel, first_year, second_year, method: str = "auto", line=None):
     keys = fits.keys.reset_index(drop=True)
     first = panel.data.groupby(["region", "year"], sort=False)["mean_income"].first()
     mean = first.reindex(pd.MultiIndex.from_frame(keys)).to_numpy(float)
-    where = {
-        (r, int(y)): i for i, (r, y) in enumerate(zip(keys["region"], keys["year"], strict=True))
-    }
-    regions = sorted(
-        {r for r, y in where if y == first_year} & {r for r, y in where if y == second_year}
-    )
-    if not regions:
-        raise fail(
-            f"no district has brackets in both {first_year} and {second_year}",
-            "choose two years that the same districts report",
-            column="year",
-        )
-    a = np.array([where[(r, first_year)] for r in regions])
-    b = np.array([where[(r, second_year)] for r in regions])
+    regions, a, b = _pairs(keys, first_year, second_year)
     s_p, s_fine = fits.slope(GRID), fits.slope(_FINE)
     head = None
     if line is not None:
