@@ -176,6 +176,9 @@ def from_panel(panel, first_year, second_year, method: str = "auto", line=None):
     curves : DataFrame
         ``region, p, rate``: the growth incidence curve of each district on :data:`GRID`.
 
+    Districts with brackets in only one of the two years are named in
+    ``summary.attrs["left_out"]`` for the caller to show.
+
     References
     ----------
     Ravallion & Chen (2003) (module docstring).
@@ -221,4 +224,6 @@ def from_panel(panel, first_year, second_year, method: str = "auto", line=None):
             "rate": got.rate.ravel(),
         }
     )
+    seen = set(keys["region"][keys["year"].isin([first_year, second_year])])
+    summary.attrs["left_out"] = sorted(seen - set(regions))  # in only one of the two years
     return summary, curves
