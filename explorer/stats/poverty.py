@@ -10,8 +10,8 @@ same units as the inequality intervals do.
 The Sen index is the large-sample, weighted form ``S = (2/H) sum_i w_i g_i (H - F_i)``
 (``g_i`` the normalised gap ``1 - y_i/z``, ``F_i`` the midpoint cumulative population share
 of unit i, weights normalised to 1), which equals ``H [I + (1 - I) G_p]`` with ``G_p`` the
-Gini of the poor on midpoint ranks; Sen's discrete formula differs by a factor ``q/(q+1)``
-on the Gini term (q poor units).
+Gini of the poor on midpoint ranks; Sen's formula for q poor units, with its weights
+``(q + 1 - i) / (q + 1)``, differs from it by terms of order 1/q.
 
 References
 ----------
