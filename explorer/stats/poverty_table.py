@@ -40,16 +40,14 @@ def _line(line) -> PovertyLine:
     return line if isinstance(line, PovertyLine) else poverty_lines.parse_line(line)
 
 
-def _province(values, population, year, base) -> tuple[np.ndarray, str]:
-    """Population-weighted mean (or pooled median) by year, spread back to the rows."""
+def _province_mean(values, population, year) -> tuple[np.ndarray, str]:
+    """Population-weighted mean of the district means by year, spread back to the rows."""
     given = np.isfinite(population) & (population > 0)
     weights = np.where(given.all(), population, 1.0)
-    note = "" if given.all() else "province line weights districts equally (populations missing)"
-    years, code = np.unique(year, return_inverse=True)
-    if base == "mean":
-        total = np.bincount(code, weights=weights * values) / np.bincount(code, weights=weights)
-        return total[code], note
-    raise AssertionError("medians are pooled by the callers")  # pragma: no cover
+    note = "" if given.all() else "province mean weights districts equally (populations missing)"
+    _, code = np.unique(year, return_inverse=True)
+    total = np.bincount(code, weights=weights * values) / np.bincount(code, weights=weights)
+    return total[code], note
 
 
 def _bracket_line(panel, line, keys, batches) -> tuple[np.ndarray, np.ndarray, str]:
@@ -66,10 +64,10 @@ def _bracket_line(panel, line, keys, batches) -> tuple[np.ndarray, np.ndarray, s
             "add mean_income to the bracket table, or give an absolute line",
             column="mean_income",
         )
+    if line.base == "mean" and line.scope == "district":
+        return line.fraction * mean, mean, ""
     if line.base == "mean":
-        base, note = (
-            (mean, "") if line.scope == "district" else _province(mean, population, year, "mean")
-        )
+        base, note = _province_mean(mean, population, year)
         return line.fraction * base, mean, note
     slopes = np.full((len(keys), _POOL.size), np.nan)
     for rows, P, L in batches:

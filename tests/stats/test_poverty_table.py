@@ -83,3 +83,14 @@ def test_unit_table_with_bootstrap():
     assert list(table.columns) == COLUMNS
     assert (table["lower"] <= table["value"]).all() and (table["value"] <= table["upper"]).all()
     assert table["note"].str.contains("sampling error of the relative line").all()
+
+
+def test_province_mean_line_is_the_population_weighted_mean():
+    # equal populations: the province mean is (900 + 1200) / 2 = 1050, the line 525; each
+    # district's headcount is the lognormal Phi(ln(z/mu)/sigma + sigma/2) (Aitchison &
+    # Brown 1957)
+    table = poverty_table.compute(bracket_panel(), "50%mean", "lognormal")
+    got = table[table["index"] == "fgt_0"].set_index("region")["value"]
+    for region, sigma, mu in (("Ashford", 0.5, 900.0), ("Brackenmoor", 0.9, 1200.0)):
+        a = np.log(525.0 / mu) / sigma + sigma / 2
+        assert got[region] == pytest.approx(special.ndtr(a), abs=1e-9)
