@@ -56,7 +56,15 @@ from scipy import special
 from explorer.stats import lorenz
 from explorer.stats.poverty import POVERTY_INDICES
 
-__all__ = ["GRID_SIZE", "NO_BOUND_NOTE", "bounds", "from_points", "grid_measures"]
+__all__ = [
+    "GRID_P",
+    "GRID_SIZE",
+    "NO_BOUND_NOTE",
+    "bounds",
+    "crossing",
+    "from_points",
+    "grid_measures",
+]
 
 GRID_SIZE = 256
 _U = (np.arange(GRID_SIZE) + 0.5) / GRID_SIZE
@@ -77,7 +85,7 @@ _NEGATIVE_SLOPE = "withheld: the fitted curve's slope is negative near p = 0; us
 # ---------------------------------------------------------------------------- the grid
 
 
-def _crossing(p, y, r):
+def crossing(p, y, r) -> np.ndarray:
     """Where each row's increasing ``y`` (on nodes ``p``) crosses ``r``: H by interpolation."""
     below = np.sum(y < r[:, None], axis=1)
     j = np.clip(below, 1, p.size - 1)
@@ -127,7 +135,7 @@ def grid_measures(level, slope, r, head=None) -> dict[str, np.ndarray]:
     dict of str to ndarray, shape (n,)
     """
     slope = np.maximum(slope, 0.0)
-    h = _crossing(GRID_P, slope, r) if head is None else head
+    h = crossing(GRID_P, slope, r) if head is None else head
     with np.errstate(divide="ignore", invalid="ignore"):
         gap = np.clip(1.0 - slope / r[:, None], 0.0, None)
         logs = np.where(gap > 0, np.log(r[:, None]) - np.log(slope), 0.0)

@@ -15,8 +15,8 @@ A relative line is resolved once per district-year before any method runs, so ev
 measures poverty against the same amount: the province's (all districts of the year in the
 panel) or each district's own median or mean. For bracket panels the median is the ``auto``
 curve's ``mu L'(1/2)``; the province median of a bracket panel is the median of the pooled
-district distributions (each district's quantiles on a fixed grid, weighted by population,
-or equally where populations are missing, which the note says).
+district distributions of the ``auto`` curves (districts weighted by population, or equally
+where populations are missing, which the note says).
 """
 
 from __future__ import annotations
@@ -31,7 +31,6 @@ from explorer.stats.poverty_lines import PovertyLine
 
 __all__ = ["compute"]
 
-_POOL = (np.arange(512) + 0.5) / 512  # percentiles pooled for a province median
 _OUTSIDE = "the fitted curve gives a value outside the bounds the bracket shares allow"
 _NO_SAMPLING = "the interval ignores the sampling error of the relative line itself"
 
@@ -69,29 +68,48 @@ def _bracket_line(panel, line, keys, batches) -> tuple[np.ndarray, np.ndarray, s
     if line.base == "mean":
         base, note = _province_mean(mean, population, year)
         return line.fraction * base, mean, note
-    slopes = np.full((len(keys), _POOL.size), np.nan)
+    grid = poverty_curves.GRID_P
+    slopes = np.full((len(keys), grid.size), np.nan)
+    median = np.full(len(keys), np.nan)
     for rows, P, L in batches:
-        slopes[rows] = lorenz.fit_points(P, L, "auto").slope(_POOL)
+        fits = lorenz.fit_points(P, L, "auto")
+        slopes[rows], median[rows] = fits.slope(grid), fits.slope([0.5])[:, 0]
     if line.scope == "district":
-        return line.fraction * mean * lorenz_median(slopes), mean, ""
+        return line.fraction * mean * median, mean, ""
     given = np.isfinite(population) & (population > 0)
     weight = np.where(given.all(), population, 1.0)
-    pooled = measures.sort_units(
-        (mean[:, None] * slopes).ravel(),
-        np.repeat(weight, _POOL.size),
-        np.repeat(year, _POOL.size),
-    )
-    medians = welfare.weighted_median(pooled)
-    labels = np.asarray(pooled.labels).astype(np.int64)
-    z = line.fraction * medians[np.searchsorted(labels, year)]
+    z = line.fraction * _pooled_median(slopes, mean, weight, year, mean * median)
     note = "" if given.all() else "province median weights districts equally (populations missing)"
     return z, mean, note
 
 
-def lorenz_median(slopes) -> np.ndarray:
-    """Median relative income from slopes on the pooling grid: L'(1/2) by interpolation."""
-    j = _POOL.size // 2
-    return 0.5 * (slopes[:, j - 1] + slopes[:, j])
+def _pooled_median(slopes, mean, weight, year, district_median) -> np.ndarray:
+    """The median of the pooled district distributions of each year, spread to the rows.
+
+    Bisection on the pooled distribution function ``sum_d w_d H_d(x / mu_d) / sum_d w_d``
+    (each district's headcount at ``x`` from its curve on the grid), between the smallest
+    and largest district medians, which bracket it; every year at once.
+    """
+    _, code = np.unique(year, return_inverse=True)
+    total = np.bincount(code, weights=weight)
+    ok = np.isfinite(district_median)
+    lo = np.full(total.size, np.inf)
+    hi = np.zeros(total.size)
+    np.minimum.at(lo, code[ok], district_median[ok])
+    np.maximum.at(hi, code[ok], district_median[ok])
+    lo, hi = np.log(lo), np.log(hi)
+    usable = np.isfinite(slopes).all(axis=1)
+    for _ in range(60):
+        mid = 0.5 * (lo + hi)
+        head = poverty_curves.crossing(
+            poverty_curves.GRID_P, np.nan_to_num(slopes), np.exp(mid[code]) / mean
+        )
+        share = np.bincount(code, weights=np.where(usable, weight * head, 0.0)) / np.bincount(
+            code, weights=np.where(usable, weight, 0.0)
+        )
+        below = share < 0.5
+        lo, hi = np.where(below, mid, lo), np.where(below, hi, mid)
+    return np.exp(0.5 * (lo + hi))[code]
 
 
 def _block(keys, values, lower, upper, method, notes) -> pd.DataFrame:

@@ -94,3 +94,28 @@ def test_province_mean_line_is_the_population_weighted_mean():
     for region, sigma, mu in (("Ashford", 0.5, 900.0), ("Brackenmoor", 0.9, 1200.0)):
         a = np.log(525.0 / mu) / sigma + sigma / 2
         assert got[region] == pytest.approx(special.ndtr(a), abs=1e-9)
+
+
+def test_province_median_of_identical_districts_is_their_median():
+    # two districts with the same lognormal deciles and mean: the pooled median is the
+    # lognormal median mu exp(-sigma^2 / 2) (Aitchison & Brown 1957), up to the fitted
+    # curve's error at p = 1/2
+    rows = []
+    P = np.linspace(0, 1, 11)
+    shares = np.diff(special.ndtr(special.ndtri(P) - 0.6))
+    for region in ("Ashford", "Brackenmoor"):
+        for share in shares:
+            rows.append(
+                dict(
+                    region=region,
+                    year=2021,
+                    pop_share=0.1,
+                    income_share=share,
+                    mean_income=1000.0,
+                    population=500.0,
+                )
+            )
+    panel = validate(pd.DataFrame(rows), kind="brackets")
+    table = poverty_table.compute(panel, "100%median", "lognormal")
+    head = table[table["index"] == "fgt_0"]["value"].to_numpy()
+    np.testing.assert_allclose(head, 0.5, atol=1e-4)
