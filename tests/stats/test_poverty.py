@@ -323,3 +323,19 @@ def test_resolve_relative_to_district_or_province():
     province = poverty_lines.parse_line("50%mean")
     with pytest.raises(DataError, match="province"):
         poverty_lines.resolve(province, district_base=np.array([1.0]))
+
+
+@settings(max_examples=30, deadline=None)
+@given(st.floats(0.2, 1.2), st.floats(0.2, 1.5), st.floats(1.01, 2.0))
+def test_curve_measures_monotone_in_the_line_and_headcount_at_most_one(sigma, r, factor):
+    # common practice: poverty rises with the line; FGT(2) <= FGT(1) <= FGT(0) <= 1 since
+    # the normalised gap lies in [0, 1]
+    P, L = lognormal_deciles(sigma)
+    for method in ("gq", "lognormal", "linear", "upper"):
+        low, _, _ = poverty_curves.from_points(P, L, np.array([r]), method)
+        high, _, _ = poverty_curves.from_points(P, L, np.array([r * factor]), method)
+        if not np.isfinite(low["fgt_0"][0]):
+            continue  # the fit is not a valid curve here; its note says why
+        for key in ("fgt_0", "fgt_1", "fgt_2"):
+            assert high[key][0] >= low[key][0] - 1e-9, (method, key)
+        assert low["fgt_2"][0] <= low["fgt_1"][0] + 1e-12 <= low["fgt_0"][0] + 2e-12 <= 1 + 3e-12
