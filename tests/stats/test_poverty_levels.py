@@ -10,7 +10,8 @@ import pytest
 
 from explorer.data.model import DataError
 from explorer.data.validate import validate
-from explorer.stats import poverty, poverty_levels, poverty_table
+from explorer.stats import measures, poverty, poverty_levels, poverty_table
+from explorer.stats.poverty_lines import parse_line
 
 
 def unit_panel():
@@ -42,8 +43,6 @@ def test_contributions_add_up_to_the_pooled_province_value(index):
     split = poverty_levels.by_level(table, panel, index)
     total = split.loc[split["level"] == "province", "value"].iloc[0]
     # the province's value computed directly on all records pooled, at the same line
-    from explorer.stats import measures
-
     pooled = poverty.measure_units(
         measures.sort_units(frame["income"], frame["weight"]), np.array([900.0])
     )[index][0, 0]
@@ -60,8 +59,6 @@ def test_sen_and_district_relative_lines_are_refused():
     table = poverty_table.compute(panel, 900.0)
     with pytest.raises(DataError, match="not additively decomposable"):
         poverty_levels.by_level(table, panel, "sen_poverty")
-    from explorer.stats.poverty_lines import parse_line
-
     own = poverty_table.compute(panel, parse_line("60%median", "district"))
     with pytest.raises(DataError, match="different lines"):
         poverty_levels.by_level(own, panel, "fgt_0")
