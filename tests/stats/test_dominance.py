@@ -12,7 +12,7 @@ import numpy as np
 import pytest
 from scipy import special
 
-from explorer.stats import dominance
+from explorer.stats import dominance, measures
 
 P = np.linspace(0, 1, 11)
 
@@ -83,8 +83,6 @@ def test_different_published_points_are_compared_on_their_union():
 def test_unit_decile_differences_match_direct_ordinates_and_flag_real_gaps():
     # Lorenz ordinate at p = k/n of n equal-weight sorted incomes: the share of the k
     # poorest (common practice); sigma 0.4 vs 0.8 lognormal samples differ at every decile
-    from explorer.stats import measures
-
     rng = np.random.default_rng(0)
     y = np.concatenate([rng.lognormal(0, 0.4, 2000), rng.lognormal(0, 0.8, 2000)])
     units = measures.sort_units(y, None, np.repeat([0, 1], 2000))

@@ -3,9 +3,11 @@
 from __future__ import annotations
 
 import numpy as np
+import pandas as pd
 import pytest
 from scipy import integrate, special
 
+from explorer.data.validate import validate
 from explorer.stats import growth, lorenz
 
 P = np.linspace(0, 1, 11)
@@ -59,10 +61,6 @@ def test_annualise_compounds():
 def test_from_panel_uniform_growth_for_every_district():
     # Ravallion & Chen (2003), eq. (1): the same shares in both years and a 10 % higher
     # mean give 10 % growth at every percentile, for the bottom 40 % and for the poor
-    import pandas as pd
-
-    from explorer.data.validate import validate
-
     shares = np.diff(special.ndtr(special.ndtri(P) - 0.6))
     rows = []
     for region, mu in (("Ashford", 900.0), ("Brackenmoor", 1300.0)):

@@ -10,6 +10,7 @@ from scipy import special
 from explorer.data.model import DataError
 from explorer.data.validate import validate
 from explorer.stats import poverty_table
+from explorer.stats.poverty_lines import parse_line
 
 COLUMNS = ["region", "year", "index", "value", "lower", "upper", "method", "note"]
 
@@ -40,8 +41,6 @@ def test_bracket_table_has_the_contract_columns_and_lognormal_values():
 
 
 def test_relative_line_to_each_districts_own_mean():
-    from explorer.stats.poverty_lines import parse_line
-
     table = poverty_table.compute(bracket_panel(), parse_line("50%mean", "district"), "lognormal")
     got = table.set_index(["region", "index"])["value"]
     for region, sigma in (("Ashford", 0.5), ("Brackenmoor", 0.9)):

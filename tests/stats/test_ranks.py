@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import numpy as np
+import pandas as pd
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
@@ -93,8 +94,6 @@ def test_point_rank_lies_inside_its_interval(n):
 
 
 def test_rank_table_from_a_tidy_table_carries_the_caution():
-    import pandas as pd
-
     table = pd.DataFrame(
         {
             "region": ["Ashford", "Brackenmoor", "Cindervale"],
