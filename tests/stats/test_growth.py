@@ -1,0 +1,83 @@
+"""Tests of growth incidence (Ravallion & Chen 2003, Economics Letters 78: 93-99)."""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+import pytest
+from scipy import integrate, special
+
+from explorer.data.validate import validate
+from explorer.stats import growth, lorenz
+
+P = np.linspace(0, 1, 11)
+
+
+def lognormal_points(sigma):
+    """Exact decile points of the lognormal Lorenz curve (Aitchison & Brown 1957)."""
+    L = special.ndtr(special.ndtri(P) - sigma)
+    L[0], L[-1] = 0.0, 1.0
+    return np.vstack([P, P]), np.vstack([L, L])
+
+
+@pytest.mark.parametrize("method", ["lognormal", "gq", "pchip", "linear"])
+def test_uniform_growth_gives_that_growth_at_every_percentile(method):
+    # Ravallion & Chen (2003), eq. (1): with an unchanged Lorenz curve, g(p) is the growth
+    # of the mean at every p
+    Pm, Lm = lognormal_points(0.5)
+    fits = lorenz.fit_points(Pm, Lm, method)
+    got = growth.incidence(fits, fits, [1000.0, 500.0], [1100.0, 540.0], headcount=[0.3, 0.2])
+    np.testing.assert_allclose(got.rate[0], 0.1, atol=1e-12)
+    np.testing.assert_allclose(got.rate[1], 0.08, atol=1e-12)
+    np.testing.assert_allclose(got.pro_poor, [0.1, 0.08], atol=1e-12)
+    np.testing.assert_allclose(got.bottom40, [0.1, 0.08], atol=1e-12)
+    np.testing.assert_allclose(got.mean_growth, [0.1, 0.08], atol=1e-15)
+
+
+def test_lognormal_incidence_matches_its_closed_form():
+    # Lognormal quantiles y(p) = mu exp(sigma Phi^-1(p) - sigma^2 / 2) (Aitchison & Brown
+    # 1957), so g(p) = (mu1/mu0) exp((s1 - s0) Phi^-1(p) - (s1^2 - s0^2) / 2) - 1; the
+    # pro-poor rate is its mean over (0, H], by quadrature here
+    s0, s1, m0, m1, h = 0.7, 0.5, 1000.0, 1050.0, 0.35
+    first = lorenz.fit_points(*lognormal_points(s0), "lognormal")
+    second = lorenz.fit_points(*lognormal_points(s1), "lognormal")
+    got = growth.incidence(first, second, [m0, m0], [m1, m1], headcount=[h, h])
+
+    def g(p):
+        z = special.ndtri(p)
+        return m1 / m0 * np.exp((s1 - s0) * z - (s1**2 - s0**2) / 2) - 1
+
+    np.testing.assert_allclose(got.rate[0], g(growth.GRID), rtol=1e-9)
+    expected = integrate.quad(g, 0, h)[0] / h
+    assert got.pro_poor[0] == pytest.approx(expected, abs=1e-6)
+    assert got.bottom40[0] == pytest.approx(integrate.quad(g, 0, 0.4)[0] / 0.4, abs=1e-6)
+    assert got.pro_poor[0] > got.mean_growth[0]  # inequality fell: growth favoured the poor
+
+
+def test_annualise_compounds():
+    assert growth.annualise(0.21, 2) == pytest.approx(0.1, abs=1e-12)
+
+
+def test_from_panel_uniform_growth_for_every_district():
+    # Ravallion & Chen (2003), eq. (1): the same shares in both years and a 10 % higher
+    # mean give 10 % growth at every percentile, for the bottom 40 % and for the poor
+    shares = np.diff(special.ndtr(special.ndtri(P) - 0.6))
+    rows = []
+    for region, mu in (("Ashford", 900.0), ("Brackenmoor", 1300.0)):
+        for year, grow in ((2019, 1.0), (2021, 1.1)):
+            for share in shares:
+                rows.append(
+                    dict(
+                        region=region,
+                        year=year,
+                        pop_share=0.1,
+                        income_share=share,
+                        mean_income=mu * grow,
+                        population=1000.0,
+                    )
+                )
+    panel = validate(pd.DataFrame(rows), kind="brackets")
+    summary, curves = growth.from_panel(panel, 2019, 2021, "gq", line=700.0)
+    np.testing.assert_allclose(summary["value"], 0.1, atol=1e-9)
+    np.testing.assert_allclose(curves["rate"], 0.1, atol=1e-9)
+    assert set(summary["index"]) == set(growth.SUMMARY_KEYS)
