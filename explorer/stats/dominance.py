@@ -248,15 +248,15 @@ def decile_differences(units, first: int, second: int, reps=199, seed=0, level=0
     """
 
     point = _ordinates(units, units.weights, DECILES)[0]
-    resampler = intervals._Resampler(units, "multinomial", np.random.default_rng(seed))
-    chunk = intervals._default_chunk(len(units.values), reps)
+    resampler = intervals.Resampler(units, "multinomial", np.random.default_rng(seed))
+    chunk = intervals.default_chunk(len(units.values), reps)
     diffs = np.empty((DECILES.size, reps))
     for start in range(0, reps, chunk):
         size = min(chunk, reps - start)
         got = _ordinates(units, units.weights * resampler.draw(size), DECILES)
         diffs[:, start : start + size] = (got[:, first] - got[:, second]).T
     tail = (1 - level) / 2
-    lower, upper = intervals._percentiles(diffs, (tail, 1 - tail), 0.9)
+    lower, upper = intervals.percentiles(diffs, (tail, 1 - tail), 0.9)
     return pd.DataFrame(
         {
             "p": DECILES,

@@ -19,7 +19,16 @@ from explorer.stats.measures import (
     replicate_values,
 )
 
-__all__ = ["SCHEMES", "bootstrap", "bootstrap_replicates", "gini_analytic", "gini_se"]
+__all__ = [
+    "SCHEMES",
+    "Resampler",
+    "bootstrap",
+    "bootstrap_replicates",
+    "default_chunk",
+    "gini_analytic",
+    "gini_se",
+    "percentiles",
+]
 
 #: Resampling schemes: how a replicate's multiplicities are drawn.
 SCHEMES = ("multinomial", "poisson", "bayesian")
@@ -28,11 +37,12 @@ SCHEMES = ("multinomial", "poisson", "bayesian")
 _CHUNK_CELLS = 4_000_000
 
 
-def _default_chunk(n: int, reps: int) -> int:
+def default_chunk(n: int, reps: int) -> int:
+    """How many replicates to draw at once for ``n`` units so a chunk stays within memory."""
     return int(max(1, min(reps, _CHUNK_CELLS // max(n, 1))))
 
 
-class _Resampler:
+class Resampler:
     """Draws multiplicities for R replicates at once, shape (R, n), sorted order.
 
     Draws are made replicate by replicate from one generator, so a replicate's
@@ -121,8 +131,8 @@ def bootstrap_replicates(
     out = {key: np.empty((G, reps)) for key in keys}
     if G == 0:
         return out
-    chunk = _default_chunk(n, reps) if chunk is None else max(1, int(chunk))
-    resampler = _Resampler(sorted_units, scheme, np.random.default_rng(seed))
+    chunk = default_chunk(n, reps) if chunk is None else max(1, int(chunk))
+    resampler = Resampler(sorted_units, scheme, np.random.default_rng(seed))
     base = sorted_units.weights
     for first in range(0, reps, chunk):
         size = min(chunk, reps - first)
@@ -132,7 +142,7 @@ def bootstrap_replicates(
     return out
 
 
-def _percentiles(replicates: np.ndarray, probs: tuple[float, float], min_finite: float):
+def percentiles(replicates: np.ndarray, probs: tuple[float, float], min_finite: float):
     """Percentiles of each row's finite replicates, the (R + 1) p order-statistic rule.
 
     ``numpy.quantile(method="weibull")`` on each row's finite values, vectorised: NaN
@@ -215,7 +225,7 @@ def bootstrap(
     tail = (1.0 - level) / 2.0
     out = {}
     for key in keys:
-        lower, upper = _percentiles(replicates[key], (tail, 1.0 - tail), min_finite=0.9)
+        lower, upper = percentiles(replicates[key], (tail, 1.0 - tail), min_finite=0.9)
         defined = np.isfinite(point[key].value)
         out[key] = (np.where(defined, lower, np.nan), np.where(defined, upper, np.nan))
     return out

@@ -136,8 +136,8 @@ def bootstrap(
     G, n = units.n_groups, len(units.values)
     replicates = {key: np.empty((G, reps)) for key in POVERTY_INDICES}
     # the same resampler and chunking rule as the inequality intervals
-    resampler = intervals._Resampler(units, "multinomial", np.random.default_rng(seed))
-    chunk = intervals._default_chunk(n, reps)
+    resampler = intervals.Resampler(units, "multinomial", np.random.default_rng(seed))
+    chunk = intervals.default_chunk(n, reps)
     for first in range(0, reps, chunk):
         size = min(chunk, reps - first)
         got = measure_units(units, line, units.weights * resampler.draw(size))
@@ -146,7 +146,7 @@ def bootstrap(
     tail = (1.0 - level) / 2.0
     out = {}
     for key in POVERTY_INDICES:
-        out[key] = tuple(intervals._percentiles(replicates[key], (tail, 1 - tail), 0.9))
+        out[key] = tuple(intervals.percentiles(replicates[key], (tail, 1 - tail), 0.9))
     return out
 
 
