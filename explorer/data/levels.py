@@ -19,6 +19,7 @@ import numpy as np
 import pandas as pd
 
 from explorer.data.ids import id_strings, match_ids
+from explorer.data.model import KIND_COLUMNS
 
 __all__ = [
     "LevelCandidate",
@@ -30,16 +31,9 @@ __all__ = [
 ]
 
 _NUMBER = re.compile(r"^[+-]?(\d+([.,]\d*)?|[.,]\d+)([eE][+-]?\d+)?%?$")
+# The panel's own columns are data, never levels.
 _NOT_LEVELS = {
-    "region",
-    "year",
-    "bracket",
-    "pop_share",
-    "income_share",
-    "population",
-    "mean_income",
-    "income",
-    "weight",
+    *(column for columns in KIND_COLUMNS.values() for column in columns),
     "name",
     "income_concept",
     "geometry",
