@@ -11,12 +11,15 @@ from __future__ import annotations
 import html
 from collections.abc import Mapping, Sequence
 from datetime import UTC, datetime
+from typing import TYPE_CHECKING
 
 import altair as alt
 import pandas as pd
 
 from explorer.present import charts as chart_builders
-from explorer.views import ViewState
+
+if TYPE_CHECKING:  # only the view's own methods are used: no import of the layer above
+    from explorer.views import ViewState
 
 __all__ = ["METHOD_REFERENCES", "build_report"]
 
