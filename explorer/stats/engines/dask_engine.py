@@ -87,9 +87,7 @@ def _frame(dd, files: list[Path], columns):
     if kind == "parquet":
         ddf = dd.read_parquet(paths, columns=wanted)
     else:
-        ddf = dd.read_csv(
-            paths, usecols=wanted, dtype={chosen["region"]: str}, float_precision="round_trip"
-        )
+        ddf = dd.read_csv(paths, usecols=wanted, dtype={chosen["region"]: str})
     ddf = ddf.rename(columns={name: role for role, name in chosen.items() if name is not None})
     if chosen["weight"] is None:
         ddf = ddf.assign(weight=1.0)

@@ -17,8 +17,7 @@ __all__ = ["read_frame", "run"]
 def read_frame(files: list[Path], columns: Mapping[str, str | None] | None = None) -> pd.DataFrame:
     """All records of the files as ``region, year, income, weight``.
 
-    CSV numbers are parsed with round-trip precision, so every engine sees the same
-    doubles.
+    Region codes are read as text (leading zeros kept), as the other engines read them.
     """
     kind = sources.file_format(files)
     parts = []
@@ -38,7 +37,6 @@ def read_frame(files: list[Path], columns: Mapping[str, str | None] | None = Non
                 path,
                 usecols=wanted,
                 dtype={chosen["region"]: str},
-                float_precision="round_trip",
             )
         parts.append(_roles(part, chosen))
     return pd.concat(parts, ignore_index=True) if parts else _roles(pd.DataFrame(), {})
