@@ -114,7 +114,7 @@ def dask_address():
         protocol="tcp",
         host="127.0.0.1",
         scheduler_port=0,
-        dashboard_address=None,
+        dashboard_address="127.0.0.1:0",
     )
     try:
         assert cluster.scheduler_address.startswith("tcp://127.0.0.1:")

@@ -34,8 +34,8 @@ BYTES_PER_RECORD = 160
 CSV_BYTES_PER_RECORD = 30
 """Typical CSV bytes per record, to count records of a CSV file from its size."""
 
-DEFAULT_BATCH_ROWS = 2_000_000
-"""Records handed to the kernel at once by the DuckDB engine (about 320 MB of work)."""
+DEFAULT_BATCH_ROWS = 1_000_000
+"""Records handed to the kernel at once by the DuckDB engine (a few hundred MB of kernel work)."""
 
 DEFAULT_MEMORY_LIMIT = "1GB"
 """DuckDB's own memory limit; its sort spills to a temporary folder beyond this."""

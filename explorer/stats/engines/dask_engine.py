@@ -66,7 +66,7 @@ def client(scheduler: str | None = None, workers: int = 2) -> Iterator[object]:
         protocol="tcp",  # loopback TCP rather than in-process: the same path as a cluster
         host="127.0.0.1",
         scheduler_port=0,
-        dashboard_address=None,
+        dashboard_address="127.0.0.1:0",
         silence_logs=logging.ERROR,
     )
     with cluster, distributed.Client(cluster) as local:
