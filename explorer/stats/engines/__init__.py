@@ -18,7 +18,7 @@ district-year, never on the batching.
 
 from __future__ import annotations
 
-from collections.abc import Iterable, Mapping, Sequence
+from collections.abc import Callable, Iterable, Mapping, Sequence
 from pathlib import Path
 
 import numpy as np
@@ -76,7 +76,7 @@ def compute_units(
     scheduler: str | None = None,
     batch_rows: int = budget.DEFAULT_BATCH_ROWS,
     memory_limit: str = budget.DEFAULT_MEMORY_LIMIT,
-    progress=None,
+    progress: Callable[[int], None] | None = None,
 ) -> pd.DataFrame:
     """The tidy index table of unit records, computed by the chosen engine.
 

@@ -69,8 +69,18 @@ def client(scheduler: str | None = None, workers: int = 2) -> Iterator[object]:
         dashboard_address="127.0.0.1:0",
         silence_logs=logging.ERROR,
     )
-    with cluster, distributed.Client(cluster) as local:
+    log = logging.getLogger("distributed")
+    level = log.level
+    local = distributed.Client(cluster)
+    try:
         yield local
+    finally:
+        log.setLevel(max(level, logging.ERROR))  # closing connections logs noise, not news
+        try:
+            local.close()
+            cluster.close()
+        finally:
+            log.setLevel(level)
 
 
 def _frame(dd, files: list[Path], columns):

@@ -43,18 +43,17 @@ def _ident(name: str) -> str:
     return '"' + name.replace('"', '""') + '"'
 
 
-def _scan(files: list[Path], region: str) -> str:
+def _scan(files: list[Path], region: str | None) -> str:
+    """The table function reading the files; CSV district codes as text (keeps ``007``)."""
     listed = "[" + ", ".join(_quote(str(p)) for p in files) + "]"
     if sources.file_format(files) == "parquet":
         return f"read_parquet({listed}, union_by_name = true)"
-    return (
-        f"read_csv({listed}, header = true, union_by_name = true, "
-        f"types = {{{_quote(region)}: 'VARCHAR'}})"
-    )
+    types = f", types = {{{_quote(region)}: 'VARCHAR'}}" if region else ""
+    return f"read_csv({listed}, header = true, union_by_name = true{types})"
 
 
 def _query(con, files: list[Path], columns) -> str:
-    head = con.execute(f"DESCRIBE SELECT * FROM {_scan(files, 'region')}").fetchall()
+    head = con.execute(f"DESCRIBE SELECT * FROM {_scan(files, None)}").fetchall()
     chosen = sources.column_names([row[0] for row in head], columns, file=str(files[0]))
     scan = _scan(files, chosen["region"])
     weight = "1.0" if chosen["weight"] is None else f"CAST({_ident(chosen['weight'])} AS DOUBLE)"
