@@ -16,7 +16,6 @@ the order in which an engine delivered them either.
 
 from __future__ import annotations
 
-import zlib
 from collections.abc import Sequence
 
 import numpy as np
@@ -54,13 +53,17 @@ def group_seed(seed: int | None, region: str, year: int) -> np.random.SeedSequen
     Returns
     -------
     numpy.random.SeedSequence
-        Built from the seed, a CRC-32 of the district name and the year, so the same
-        district-year always gets the same draws for the same seed.
+        Built from the seed, the district name's bytes and the year, so the same
+        district-year always gets the same draws for the same seed, and different
+        district-years get independent streams.
     """
-    tag = zlib.crc32(str(region).encode("utf-8"))
     if seed is None:
         return np.random.SeedSequence()
-    return np.random.SeedSequence([int(seed), tag, int(year) & 0xFFFFFFFF])
+    name = str(region).encode("utf-8")
+    # the whole name as one integer (its length first, so no two names coincide)
+    return np.random.SeedSequence(
+        [int(seed), len(name), int.from_bytes(name, "little"), int(year) & 0xFFFFFFFF]
+    )
 
 
 def _checked(frame: pd.DataFrame) -> tuple[np.ndarray, np.ndarray, pd.DataFrame]:
