@@ -392,3 +392,13 @@ def test_each_district_year_draws_its_own_stream():
     assert got["lower"].nunique() == 3  # but independent resamples per district-year
     alone = kernel.compute_groups(one.assign(region="QZ02"), ["gini"], ci="bootstrap", reps=49)
     assert alone["lower"].iat[0] == got["lower"].iat[2]  # QZ02 2020: same draws alone
+
+
+def test_a_frame_without_weights_needs_them_said_so(generated):
+    with pytest.raises(DataError, match="no column weight"):
+        engines.compute_units(generated.drop(columns="weight"), "memory", ["gini"])
+    got = engines.compute_units(
+        generated.drop(columns="weight"), "memory", ["gini"], columns={"weight": None}
+    )
+    want = engines.compute_units(generated.assign(weight=1.0), "memory", ["gini"])
+    assert_same(got, want, bounds=False)

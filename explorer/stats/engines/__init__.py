@@ -128,7 +128,7 @@ def compute_units(
         frame = source.data if isinstance(source, Panel) else source
         if columns:
             frame = frame.rename(columns={v: k for k, v in columns.items() if v is not None})
-        if "weight" not in frame.columns or (columns or {}).get("weight", "weight") is None:
+        if (columns or {}).get("weight", "weight") is None:  # unweighted, said explicitly
             frame = frame.assign(weight=1.0)
         table, used = memory.run(frame, indices, **settings), "memory"
     else:
