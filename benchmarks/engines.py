@@ -97,6 +97,7 @@ def _child(args) -> None:
         import duckdb
 
         con = duckdb.connect(config={"memory_limit": args.memory_limit, "threads": 2})
+        con.execute("SET enable_progress_bar = false")
         listed = ", ".join(f"'{p}'" for p in files)
         con.execute(
             f"COPY (SELECT * FROM read_parquet([{listed}]) ORDER BY region, year) "
@@ -125,7 +126,7 @@ def _measure(what: str, files: list[Path], out: Path, args) -> dict:
     done = subprocess.run(command, capture_output=True, text=True, cwd=ROOT)
     if done.returncode:
         sys.exit(f"{what} failed:\n{done.stderr[-3000:]}")
-    got = json.loads(done.stdout.strip().splitlines()[-1])
+    got = json.loads([line for line in done.stdout.splitlines() if line.startswith("{")][-1])
     print(f"{what:>16}: {got['seconds']:8.2f} s, peak {got['peak_memory_mb']:8.0f} MB")
     return got
 

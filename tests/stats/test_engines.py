@@ -230,7 +230,7 @@ def _peak_growth(path: Path, engine: str) -> dict:
     )
     import json
 
-    return json.loads(out.stdout.strip().splitlines()[-1])
+    return json.loads([line for line in out.stdout.splitlines() if line.startswith("{")][-1])
 
 
 @pytest.mark.slow

@@ -110,6 +110,7 @@ def batches(
             "preserve_insertion_order": False,
         }
         con = duckdb.connect(":memory:", config=config)
+        con.execute("SET enable_progress_bar = false")  # progress is ours to report
         try:
             relation = con.sql(_query(con, files, columns))
             # the streaming Arrow reader: record_batch before DuckDB 2, to_arrow_reader since
