@@ -30,7 +30,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from explorer.data import io
+from explorer.data import demo
 from explorer.data.model import DataError
 from explorer.resources import demo_dir
 from explorer.stats import engines, indices
@@ -127,7 +127,7 @@ def dask_address():
 
 
 def test_memory_engine_is_todays_path_on_the_demo_panel():
-    panel = io.demo_panel("units")
+    panel = demo.demo_panel("units")
     want = indices.compute(panel)
     got = engines.compute_units(panel, "memory")
     assert_same(got, want, bounds=False)
