@@ -3,13 +3,14 @@
 from __future__ import annotations
 
 import hashlib
+import io
 from pathlib import Path
 
 import numpy as np
 import pandas as pd
 import pytest
 
-from explorer import cli
+from explorer import cli, serving
 from explorer import data as readers
 
 BAD = Path(__file__).parent / "fixtures" / "bad"
@@ -87,9 +88,10 @@ def test_compute_writes_the_tidy_table_with_bounds(tmp_path, capsys):
 def test_compute_to_stdout_parses_as_csv(capsys):
     code, out, _ = run(capsys, "compute", "demo", "--kind", "means", "--indices", "gini")
     assert code == 0
-    lines = out.strip().splitlines()
-    assert lines[0].startswith("region,year,index,value")
-    assert len(lines) > 1
+    table = pd.read_csv(io.StringIO(out))
+    assert list(table.columns[:4]) == ["region", "year", "index", "value"]
+    assert len(table) > 1
+    assert pd.api.types.is_float_dtype(table["value"])
 
 
 def test_compute_refuses_to_overwrite_its_input(tmp_path, capsys):
@@ -205,11 +207,11 @@ def test_app_serves_this_machine_only_by_default_and_passes_the_data_folder(
 ):
     seen = {}
 
-    def fake_call(command, env, cwd):
+    def fake_run(command, env, cwd):
         seen.update(command=command, env=env, cwd=cwd)
         return 0
 
-    monkeypatch.setattr(cli.subprocess, "call", fake_call)
+    monkeypatch.setattr(serving, "run_until_stopped", fake_run)
     code, _, err = run(capsys, "app", "--data", str(tmp_path), "--port", "8611")
     assert code == 0
     command = seen["command"]
@@ -227,6 +229,9 @@ def test_app_serves_this_machine_only_by_default_and_passes_the_data_folder(
     ):
         assert command[command.index(flag) + 1] == value, flag
     assert "http://localhost:8611" in err
+    # Only this machine's own names are answered (a rebinding name is refused).
+    hosts = [command[i + 1] for i, part in enumerate(command) if part == "--server.allowedHosts"]
+    assert set(hosts) == {"localhost", "127.0.0.1", "::1"}
 
 
 def test_check_save_stores_the_dataset_once_and_leaves_the_inputs_alone(tmp_path, capsys):

@@ -16,6 +16,7 @@ References
 
 from __future__ import annotations
 
+import csv
 import io
 from typing import IO
 
@@ -64,8 +65,12 @@ def neutralise(table: pd.DataFrame) -> pd.DataFrame:
 
 
 def write_csv(table: pd.DataFrame, target: str | IO[str]) -> None:
-    """Write ``table`` as CSV (no index) to a path or an open text stream, neutralised."""
-    neutralise(table).to_csv(target, index=False)
+    """Write ``table`` as CSV (no index) to a path or an open text stream, neutralised.
+
+    Every text cell is also put in double quotes, as the guidance recommends [1]_, so that a
+    carriage return inside a cell cannot start a new row; numbers stay unquoted.
+    """
+    neutralise(table).to_csv(target, index=False, quoting=csv.QUOTE_NONNUMERIC)
 
 
 def csv_bytes(table: pd.DataFrame) -> bytes:
