@@ -305,7 +305,9 @@ def test_report_of_an_unreadable_view_file_exits_two_and_writes_nothing(
 
 def test_a_view_file_with_a_byte_order_mark_is_read(tmp_path, capsys):
     view_file = tmp_path / "view.json"
-    view_file.write_bytes(b"\xef\xbb\xbf" + b'{"rift_view": 1, "year": 2020, "index": "nonsense", "zz": 1}')
+    view_file.write_bytes(
+        b"\xef\xbb\xbf" + b'{"rift_view": 1, "year": 2020, "index": "nonsense", "zz": 1}'
+    )
     out = tmp_path / "r.html"
     code, _, err = run(capsys, "report", str(view_file), "--out", str(out))
     assert code == 0, err
