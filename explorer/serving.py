@@ -91,23 +91,33 @@ def app_command(port: int, host: str = "127.0.0.1", allow_hosts: Iterable[str] =
     return command
 
 
-def _stop_with_parent() -> None:  # pragma: no cover - runs in the child before exec
-    """Linux: the server gets SIGTERM when the process that started it dies, however it dies."""
+def _stop_with_parent():
+    """Linux: a function for the child that makes it get SIGTERM when its parent dies.
+
+    Everything is looked up here, in the parent: between fork and exec the child only calls
+    ``prctl`` (importing there could wait forever on a lock another thread held).
+    """
+    if not sys.platform.startswith("linux"):
+        return None
     try:
         import ctypes
 
-        libc = ctypes.CDLL(None, use_errno=True)
-        libc.prctl(1, signal.SIGTERM)  # 1 = PR_SET_PDEATHSIG
+        prctl = ctypes.CDLL(None, use_errno=True).prctl
     except (OSError, AttributeError):
-        pass
+        return None
+    pr_set_pdeathsig, sigterm = 1, int(signal.SIGTERM)
+
+    def in_child() -> None:  # pragma: no cover - runs in the child before exec
+        prctl(pr_set_pdeathsig, sigterm)
+
+    return in_child
 
 
 def start_server(
     command: list[str], *, env: Mapping[str, str] | None = None, cwd: Path = PROJECT, **popen
 ) -> subprocess.Popen:
     """Start a server process that cannot outlive the process starting it (on Linux)."""
-    preexec = _stop_with_parent if sys.platform.startswith("linux") else None
-    return subprocess.Popen(command, env=env, cwd=cwd, preexec_fn=preexec, **popen)
+    return subprocess.Popen(command, env=env, cwd=cwd, preexec_fn=_stop_with_parent(), **popen)
 
 
 def stop_server(process: subprocess.Popen, timeout: float = 10.0) -> int | None:

@@ -128,3 +128,37 @@ def test_sigint_and_sighup_to_rift_app_stop_its_server_too(signum):
     port = _free_port()
     process = _start_rift_app(port)
     _stops_and_frees_its_port(process, port, signum)
+
+
+def _running(pid: int) -> bool:
+    """True while ``pid`` exists and is not a zombie (dead, waiting to be reaped)."""
+    try:
+        status = Path(f"/proc/{pid}/status").read_text()
+    except OSError:
+        return False
+    state = next(line for line in status.splitlines() if line.startswith("State:"))
+    return "Z" not in state.split()[1]
+
+
+@pytest.mark.skipif(not Path("/proc/self/status").exists(), reason="needs Linux /proc")
+def test_a_server_does_not_outlive_the_process_that_started_it_even_when_that_is_killed():
+    script = (
+        "import sys, time\n"
+        f"sys.path.insert(0, {str(ROOT)!r})\n"
+        "from explorer import serving\n"
+        "child = serving.start_server([sys.executable, '-c', 'import time; time.sleep(60)'])\n"
+        "print(child.pid, flush=True)\n"
+        "time.sleep(60)\n"
+    )
+    parent = subprocess.Popen([sys.executable, "-c", script], stdout=subprocess.PIPE, text=True)
+    try:
+        child = int(parent.stdout.readline())
+        assert _running(child)
+    finally:
+        parent.kill()  # SIGKILL: no handler of the parent's can run
+        parent.wait(timeout=10)
+        parent.stdout.close()
+    deadline = time.monotonic() + 10
+    while _running(child) and time.monotonic() < deadline:
+        time.sleep(0.1)
+    assert not _running(child)
