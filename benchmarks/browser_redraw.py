@@ -24,6 +24,7 @@ from pathlib import Path
 
 from playwright.sync_api import sync_playwright
 
+from explorer import serving
 from explorer.serving import app_command, wait_until_serving
 
 ROOT = Path(__file__).resolve().parent.parent
@@ -53,7 +54,8 @@ def free_port() -> int:
 
 
 def start_server(port: int, data: str) -> subprocess.Popen:
-    server = subprocess.Popen(
+    # serving.start_server: the server also stops when this benchmark is killed.
+    server = serving.start_server(
         app_command(port),
         cwd=ROOT,
         env={**os.environ, "RIFT_DATA": data},
@@ -61,7 +63,7 @@ def start_server(port: int, data: str) -> subprocess.Popen:
         stderr=subprocess.DEVNULL,
     )
     if not wait_until_serving(f"http://127.0.0.1:{port}", 60, server):
-        server.terminate()
+        serving.stop_server(server)
         raise SystemExit("the app did not start within 60 s")
     return server
 
@@ -112,8 +114,7 @@ def main() -> None:
                     page.wait_for_timeout(500)
                 browser.close()
         finally:
-            server.terminate()
-            server.wait(timeout=30)
+            serving.stop_server(server, timeout=30)
     base = statistics.median(reload)
     figures = {
         "reload_median_s": round(base, 3),

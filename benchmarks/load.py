@@ -33,6 +33,7 @@ import threading
 import time
 from pathlib import Path
 
+from explorer import serving
 from explorer.serving import app_command, wait_until_serving
 
 ROOT = Path(__file__).resolve().parent.parent
@@ -127,7 +128,8 @@ class MemoryWatch(threading.Thread):
 def start_server(port: int, data_dir: Path) -> subprocess.Popen:
     env = {**os.environ, "RIFT_DATA": str(data_dir)}
     command = app_command(port)
-    server = subprocess.Popen(
+    # serving.start_server: the server also stops when this benchmark is killed.
+    server = serving.start_server(
         command,
         cwd=ROOT,
         env=env,

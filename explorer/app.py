@@ -19,7 +19,7 @@ __all__ = ["main"]
 
 def main() -> None:
     """Draw the sidebar and run the chosen page, never showing a traceback."""
-    st.set_page_config(page_title="Rift", page_icon=":material/landscape:", layout="wide")
+    st.set_page_config(page_title="Rift", page_icon="⛰️", layout="wide")
     pages = {
         name: st.Page(state.page_path(name), title=page.title, icon=page.icon, url_path=name)
         for name, page in PAGES.items()

@@ -8,8 +8,8 @@ line and exit with status 2; the command never shows a traceback.
 from __future__ import annotations
 
 import argparse
+import json
 import os
-import subprocess
 import sys
 import tempfile
 from collections.abc import Sequence
@@ -18,7 +18,7 @@ from pathlib import Path
 import pandas as pd
 
 from explorer.data.model import DataError, Problem
-from explorer.present import vocabulary
+from explorer.present import exports, vocabulary
 
 __all__ = ["COMMANDS", "EXIT_BAD_INPUT", "EXIT_FAILED", "EXIT_OK", "build_parser", "main"]
 
@@ -92,6 +92,15 @@ def build_parser() -> argparse.ArgumentParser:
         default="localhost",
         help="address to listen on (default localhost: this machine only; 0.0.0.0 lets a "
         "team reach a shared machine)",
+    )
+    app.add_argument(
+        "--allow-host",
+        action="append",
+        default=[],
+        metavar="NAME",
+        help="another name browsers may use to reach the server (repeatable; '*' for any). "
+        "By default only the listening address, this machine's loopback names and, with "
+        "0.0.0.0, its own host names are answered",
     )
 
     check = commands.add_parser("check", help="validate a panel and its boundaries")
@@ -191,12 +200,16 @@ def _inputs(args: argparse.Namespace) -> set[Path]:
 
 
 def _write(table: pd.DataFrame, out: str | None, args: argparse.Namespace) -> None:
-    """Write a tidy table to ``out`` (atomically) or to standard output as CSV."""
+    """Write a tidy table to ``out`` (atomically) or to standard output as CSV.
+
+    CSV text cells that a spreadsheet would run as formulas are prefixed with a quote
+    (:mod:`explorer.present.exports`); Parquet keeps the raw strings.
+    """
     # attrs may carry side tables (e.g. excluded district-years) that Parquet cannot store.
     table = table.copy(deep=False)
     table.attrs = {}
     if not out:
-        table.to_csv(sys.stdout, index=False)
+        exports.write_csv(table, sys.stdout)
         return
     target = Path(out)
     if target.resolve() in _inputs(args):
@@ -219,9 +232,9 @@ def _write(table: pd.DataFrame, out: str | None, args: argparse.Namespace) -> No
     os.close(handle)
     try:
         if suffix == ".csv":
-            table.to_csv(temporary, index=False)
+            exports.write_csv(table, temporary)
         else:
-            table.to_parquet(temporary, index=False)
+            Path(temporary).write_bytes(exports.parquet_bytes(table))
         os.replace(temporary, target)
     finally:
         if os.path.exists(temporary):
@@ -250,17 +263,24 @@ def _problem_line(problem: Problem) -> str:
 
 
 def run_app(args: argparse.Namespace) -> int:
-    """Start the Streamlit app on the demo (and any stored datasets)."""
-    from explorer.serving import PROJECT, app_command
+    """Start the Streamlit app on the demo (and any stored datasets); stopping this process
+    (SIGTERM, SIGINT, SIGHUP) stops the server too."""
+    from explorer.serving import PROJECT, allowed_hosts, app_command, run_until_stopped
 
     env = dict(os.environ)
     if args.data:
         env["RIFT_DATA"] = str(Path(args.data).resolve())
-    command = app_command(args.port, args.host)
+    command = app_command(args.port, args.host, args.allow_host)
     shown = "localhost" if args.host in ("localhost", "127.0.0.1", "0.0.0.0") else args.host
     print(f"Rift is starting on http://{shown}:{args.port}  (Ctrl+C stops it)", file=sys.stderr)
+    names = allowed_hosts(args.host, args.allow_host)
+    if "*" not in names:
+        print(
+            f"answering only to the names {', '.join(names)} (add others with --allow-host)",
+            file=sys.stderr,
+        )
     try:
-        return subprocess.call(command, env=env, cwd=PROJECT)
+        return run_until_stopped(command, env=env, cwd=PROJECT)
     except KeyboardInterrupt:
         return EXIT_OK
 
@@ -385,23 +405,62 @@ def run_spatial(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
+def _view_file_problem(path: Path, message: str) -> DataError:
+    return DataError([Problem(message, fix="save a view file from the app", file=str(path))])
+
+
+def _read_view_file(path: Path) -> str:
+    """The text of a view file, refused (exit 2) unless it can be read as one.
+
+    The size limit is applied before anything is read: at most one byte more than the limit
+    is ever read (a device of endless zeros is refused at the limit). A UTF-8 byte-order mark
+    is accepted. A file that is not a JSON object with the current ``rift_view`` version is
+    refused: a report of the default view would be a report of something else.
+    """
+    from explorer import views
+
+    limit = views.MAX_VIEW_FILE_BYTES
+    try:
+        if path.is_dir():
+            raise _view_file_problem(path, "this is a folder, not a view file")
+        with path.open("rb") as handle:
+            raw = handle.read(limit + 1)
+    except OSError as error:
+        raise _view_file_problem(
+            path, f"cannot read the view file: {error.strerror or error}"
+        ) from None
+    if len(raw) > limit:
+        raise _view_file_problem(
+            path,
+            f"the view file is larger than {limit / 1e6:.0f} MB; a view file is a few "
+            "hundred bytes",
+        )
+    try:
+        text = raw.decode("utf-8-sig")
+    except UnicodeDecodeError as error:
+        raise _view_file_problem(
+            path, f"the view file is not UTF-8 text (byte {error.start + 1})"
+        ) from None
+    try:
+        body = json.loads(text)
+    except (ValueError, RecursionError) as error:
+        where = f" (line {error.lineno})" if isinstance(error, json.JSONDecodeError) else ""
+        raise _view_file_problem(path, f"the view file is not valid JSON{where}") from None
+    version = body.get("rift_view") if isinstance(body, dict) else None
+    if version is None or isinstance(version, bool) or version != views.VIEW_FILE_VERSION:
+        raise _view_file_problem(
+            path,
+            f"this is not a view file of version {views.VIEW_FILE_VERSION} "
+            "(a JSON object with its 'rift_view' version)",
+        )
+    return text
+
+
 def run_report(args: argparse.Namespace) -> int:
     from explorer import figures, views
 
     view_path = Path(args.view)
-    try:
-        text = view_path.read_text(encoding="utf-8")
-    except (OSError, UnicodeDecodeError) as error:
-        raise DataError(
-            [
-                Problem(
-                    f"cannot read the view file: {error}",
-                    fix="save a view from the app",
-                    file=str(view_path),
-                )
-            ]
-        ) from None
-    view, notices = views.from_json(text)
+    view, notices = views.from_json(_read_view_file(view_path))
     for notice in notices:
         print(f"note: {notice}", file=sys.stderr)
     out = Path(args.out)

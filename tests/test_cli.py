@@ -3,13 +3,14 @@
 from __future__ import annotations
 
 import hashlib
+import io
 from pathlib import Path
 
 import numpy as np
 import pandas as pd
 import pytest
 
-from explorer import cli
+from explorer import cli, serving
 from explorer import data as readers
 
 BAD = Path(__file__).parent / "fixtures" / "bad"
@@ -87,9 +88,10 @@ def test_compute_writes_the_tidy_table_with_bounds(tmp_path, capsys):
 def test_compute_to_stdout_parses_as_csv(capsys):
     code, out, _ = run(capsys, "compute", "demo", "--kind", "means", "--indices", "gini")
     assert code == 0
-    lines = out.strip().splitlines()
-    assert lines[0].startswith("region,year,index,value")
-    assert len(lines) > 1
+    table = pd.read_csv(io.StringIO(out))
+    assert list(table.columns[:4]) == ["region", "year", "index", "value"]
+    assert len(table) > 1
+    assert pd.api.types.is_float_dtype(table["value"])
 
 
 def test_compute_refuses_to_overwrite_its_input(tmp_path, capsys):
@@ -205,11 +207,11 @@ def test_app_serves_this_machine_only_by_default_and_passes_the_data_folder(
 ):
     seen = {}
 
-    def fake_call(command, env, cwd):
+    def fake_run(command, env, cwd):
         seen.update(command=command, env=env, cwd=cwd)
         return 0
 
-    monkeypatch.setattr(cli.subprocess, "call", fake_call)
+    monkeypatch.setattr(serving, "run_until_stopped", fake_run)
     code, _, err = run(capsys, "app", "--data", str(tmp_path), "--port", "8611")
     assert code == 0
     command = seen["command"]
@@ -227,6 +229,9 @@ def test_app_serves_this_machine_only_by_default_and_passes_the_data_folder(
     ):
         assert command[command.index(flag) + 1] == value, flag
     assert "http://localhost:8611" in err
+    # Only this machine's own names are answered (a rebinding name is refused).
+    hosts = [command[i + 1] for i, part in enumerate(command) if part == "--server.allowedHosts"]
+    assert set(hosts) == {"localhost", "127.0.0.1", "::1"}
 
 
 def test_check_save_stores_the_dataset_once_and_leaves_the_inputs_alone(tmp_path, capsys):
@@ -268,3 +273,106 @@ def test_python_dash_m_explorer_is_the_same_command_line():
     )
     assert done.returncode == 0, done.stderr
     assert done.stdout.strip().endswith("valid")
+
+
+# --------------------------------------------------------------------------- view files
+
+
+@pytest.mark.parametrize(
+    ("content", "what"),
+    [
+        (b'{"rift_view": 1, "year": ', "not valid JSON"),
+        (b"[1, 2, 3]", "not a view file"),
+        (b'{"year": 2020}', "not a view file"),
+        (b'{"rift_view": 99}', "not a view file"),
+        (b'{"rift_view": 1, "year": "\xff"}', "not UTF-8"),
+        (b"", "not valid JSON"),
+    ],
+    ids=["truncated", "list", "no-version", "newer", "latin-1", "empty"],
+)
+def test_report_of_an_unreadable_view_file_exits_two_and_writes_nothing(
+    tmp_path, capsys, content, what
+):
+    view_file = tmp_path / "view.json"
+    view_file.write_bytes(content)
+    out = tmp_path / "r.html"
+    code, _, err = run(capsys, "report", str(view_file), "--out", str(out))
+    assert code == 2, err
+    assert what in err and "view.json" in err
+    assert "Traceback" not in err
+    assert not out.exists()  # never a report of the default view instead
+
+
+def test_a_view_file_with_a_byte_order_mark_is_read(tmp_path, capsys):
+    view_file = tmp_path / "view.json"
+    view_file.write_bytes(
+        b"\xef\xbb\xbf" + b'{"rift_view": 1, "year": 2020, "index": "nonsense", "zz": 1}'
+    )
+    out = tmp_path / "r.html"
+    code, _, err = run(capsys, "report", str(view_file), "--out", str(out))
+    assert code == 0, err
+    assert out.exists()
+    # Notices about a view file call it a view file, not a link.
+    notes = [line for line in err.splitlines() if line.startswith("note:")]
+    assert len(notes) == 2, err
+    assert all("view" in line and "link" not in line for line in notes)
+
+
+def test_an_oversized_view_file_is_refused_at_the_limit_without_reading_it(tmp_path, capsys):
+    from explorer import views
+
+    huge = tmp_path / "zeros.json"
+    with huge.open("wb") as handle:  # sparse: 8 GB declared, nothing on disk
+        handle.truncate(8 * 1024**3)
+    opened = []
+    real_open = Path.open
+
+    def counting_open(self, *args, **kwargs):
+        handle = real_open(self, *args, **kwargs)
+        if self == huge:
+            real_read = handle.read
+
+            def read(size=-1):
+                opened.append(size)
+                return real_read(size)
+
+            handle.read = read
+        return handle
+
+    with pytest.MonkeyPatch.context() as patch:
+        patch.setattr(Path, "open", counting_open)
+        code, _, err = run(capsys, "report", str(huge), "--out", str(tmp_path / "r.html"))
+    assert code == 2
+    assert "larger than" in err
+    assert opened and all(0 <= size <= views.MAX_VIEW_FILE_BYTES + 1 for size in opened)
+
+
+@pytest.mark.skipif(not Path("/dev/zero").exists(), reason="needs /dev/zero")
+def test_an_endless_device_as_view_file_is_refused(tmp_path, capsys):
+    code, _, err = run(capsys, "report", "/dev/zero", "--out", str(tmp_path / "r.html"))
+    assert code == 2
+    assert "larger than" in err
+    assert not (tmp_path / "r.html").exists()
+
+
+# --------------------------------------------------------------------------- exports
+
+
+def test_formula_cells_are_quoted_in_csv_out_and_on_stdout_but_raw_in_parquet(tmp_path, capsys):
+    import argparse
+
+    # OWASP Foundation (2023), "CSV Injection": a leading = + - @ tab or CR is prefixed with
+    # a single quote; numbers, negative ones included, are left alone.
+    table = pd.DataFrame(
+        {"region": ["=HYPERLINK(1)", "@SUM(A1)", "Orlen"], "value": [-0.5, 0.25, 1.0]}
+    )
+    args = argparse.Namespace(panel="demo")
+    cli._write(table, str(tmp_path / "t.csv"), args)
+    cli._write(table, str(tmp_path / "t.parquet"), args)
+    cli._write(table, None, args)
+    out = capsys.readouterr().out
+    for text in (out, (tmp_path / "t.csv").read_text(encoding="utf-8")):
+        back = pd.read_csv(io.StringIO(text))
+        assert back["region"].tolist() == ["'=HYPERLINK(1)", "'@SUM(A1)", "Orlen"]
+        assert back["value"].tolist() == [-0.5, 0.25, 1.0]
+    pd.testing.assert_frame_equal(pd.read_parquet(tmp_path / "t.parquet"), table)

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import io
 import json
 import logging
 import re
@@ -14,6 +13,7 @@ import pandas as pd
 import streamlit as st
 
 from explorer.data.model import DataError
+from explorer.present import exports
 
 __all__ = [
     "caution_texts",
@@ -128,12 +128,10 @@ def slug(text: str) -> str:
 
 
 def table_bytes(table: pd.DataFrame, fmt: str) -> bytes:
-    """A table as CSV or Parquet bytes."""
+    """A table as CSV (safe to open in a spreadsheet) or Parquet (raw strings) bytes."""
     if fmt == "csv":
-        return table.to_csv(index=False).encode("utf-8")
-    buffer = io.BytesIO()
-    table.to_parquet(buffer, index=False)
-    return buffer.getvalue()
+        return exports.csv_bytes(table)
+    return exports.parquet_bytes(table)
 
 
 def table_downloads(table: pd.DataFrame, name: str, *, key: str) -> None:

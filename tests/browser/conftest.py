@@ -4,12 +4,12 @@ from __future__ import annotations
 
 import os
 import socket
-import subprocess
 from pathlib import Path
+from subprocess import STDOUT
 
 import pytest
 
-from explorer.serving import PROJECT, app_command, wait_until_serving
+from explorer.serving import PROJECT, app_command, start_server, stop_server, wait_until_serving
 
 ROOT = Path(__file__).resolve().parents[2]
 CHROMIUM = Path("/usr/bin/chromium")
@@ -40,19 +40,14 @@ def server(tmp_path_factory):
     workspace = tmp_path_factory.mktemp("workspace")
     log = (tmp_path_factory.mktemp("server") / "server.log").open("w")
     env = {**os.environ, "RIFT_DATA": str(workspace)}
-    process = subprocess.Popen(
-        app_command(port), cwd=PROJECT, env=env, stdout=log, stderr=subprocess.STDOUT
-    )
+    # start_server: the server is stopped with this test run however the run ends.
+    process = start_server(app_command(port), cwd=PROJECT, env=env, stdout=log, stderr=STDOUT)
     base = f"http://127.0.0.1:{port}"
     if not wait_until_serving(base, 60, process):
-        process.terminate()
+        stop_server(process)
         pytest.fail("the Rift server did not start within 60 s")
     yield base
-    process.terminate()
-    try:
-        process.wait(timeout=15)
-    except subprocess.TimeoutExpired:
-        process.kill()
+    stop_server(process, timeout=15)
     log.close()
 
 
