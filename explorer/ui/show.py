@@ -42,19 +42,29 @@ LOG = logging.getLogger("rift")
 _MARKUP = re.compile(r"([\\`*_{}\[\]()#+\-.!|<>~$:&=^\"'@/])")
 
 
+#: U+2060, invisible; it splits an address so that it is not made into a link.
+WORD_JOINER = "\u2060"
+_AUTOLINK = re.compile(r"(?<=:)(?=//)|(?i:(?<=www))(?=\.)|(?<=@)(?=\w)")
+
+
 def plain(text: Any) -> str:
     """Text from a file, a link or a view file, escaped so that Markdown shows it as typed.
 
     Streamlit renders Markdown in titles, captions, notices, metric labels and help texts;
     a district called ``![x](http://host/x.png)`` would otherwise make every viewer's
-    browser fetch that image. Line breaks become spaces (a name is one line).
+    browser fetch that image. Line breaks become spaces (a name is one line), and a word
+    joiner (U+2060, invisible) goes into bare web and mail addresses so none becomes a link.
 
     References
     ----------
     MacFarlane, J. (2019). CommonMark Spec, version 0.29, section 2.4 "Backslash escapes":
     any ASCII punctuation character may be backslash-escaped.
     """
-    return _MARKUP.sub(r"\\\1", " ".join(str(text).split()))
+    one_line = " ".join(str(text).split())
+    # GitHub-style Markdown links bare addresses even when escaped ("http\\://x" is still a
+    # link); an invisible word joiner inside "://", "www." and "@name" stops that.
+    one_line = _AUTOLINK.sub(WORD_JOINER, one_line)
+    return _MARKUP.sub(r"\\\1", one_line)
 
 
 def markdown(template: str, *values: Any) -> None:
