@@ -126,7 +126,12 @@ def build_parser() -> argparse.ArgumentParser:
     compute.add_argument("--ci", choices=("bootstrap",), help="intervals for unit data")
     compute.add_argument("--reps", type=int, default=199, help="bootstrap replicates")
     compute.add_argument("--seed", type=int, default=0, help="random seed")
-    compute.add_argument("--level", type=float, default=0.95, help="confidence level")
+    compute.add_argument(
+        "--confidence",
+        type=float,
+        default=0.95,
+        help="confidence of the sampling intervals, e.g. 0.95",
+    )
     compute.add_argument("--fits", metavar="FILE", help="also write the fit diagnostics here")
     _out_argument(compute)
 
@@ -361,7 +366,7 @@ def run_compute(args: argparse.Namespace) -> int:
         ci=args.ci,
         reps=args.reps,
         seed=args.seed,
-        level=args.level,
+        level=args.confidence,
     )
     if args.fits:
         _write(indices.fits(panel, methods), args.fits, args)

@@ -24,6 +24,9 @@ key        field                   form
 ``ct``     ``counties``            comma-separated county names, each percent-encoded
 ``dx``     ``decomposition_index`` index of the Breakdown page
 ``iv``     ``show_intervals``      1 or 0
+``ly``     ``layer``               map layer: index or clusters
+``pc``     ``by_county``           1 or 0 (Timelines: one panel per county)
+``bs``     ``bootstrap``           1 or 0 (unit records: sampling intervals)
 ========== ======================= ================================================
 
 Fields at their default are left out of a link. A view file is JSON:
@@ -46,6 +49,7 @@ __all__ = [
     "CLASS_SCHEMES",
     "DECOMPOSABLE",
     "LORENZ_METHODS",
+    "MAP_LAYERS",
     "MAX_VIEW_FILE_BYTES",
     "PAGES",
     "QUERY_KEYS",
@@ -60,6 +64,7 @@ __all__ = [
 PAGES = {key: page.title for key, page in vocabulary.PAGES.items()}
 LORENZ_METHODS = vocabulary.LORENZ_METHODS
 CLASS_SCHEMES = ("quantiles", "equal", "breaks")
+MAP_LAYERS = ("index", "clusters")
 VIEW_FILE_VERSION = 1
 MAX_VIEW_FILE_BYTES = 1_000_000
 _MAX_VALUE_CHARS = 4_000
@@ -102,6 +107,9 @@ QUERY_KEYS = {
     "counties": "ct",
     "decomposition_index": "dx",
     "show_intervals": "iv",
+    "layer": "ly",
+    "by_county": "pc",
+    "bootstrap": "bs",
 }
 _FIELD_OF_KEY = {key: name for name, key in QUERY_KEYS.items()}
 _PLAIN = {
@@ -119,6 +127,9 @@ _PLAIN = {
     "counties": "county filter",
     "decomposition_index": "Breakdown index",
     "show_intervals": "show intervals",
+    "layer": "map layer",
+    "by_county": "one panel per county",
+    "bootstrap": "sampling intervals",
 }
 
 
@@ -350,6 +361,9 @@ _PARSERS = {
     "level": _level,
     "decomposition_index": _decomposition_index,
     "show_intervals": _flag,
+    "layer": lambda raw, known: _choice(raw, MAP_LAYERS, "map layer"),
+    "by_county": _flag,
+    "bootstrap": _flag,
 }
 _LIST_PARSERS = {
     "districts": _labels("districts", "district"),
@@ -392,6 +406,12 @@ class ViewState:
         Index of the Breakdown page.
     show_intervals : bool
         Whether bounds and intervals are drawn.
+    layer : str
+        Map layer: ``index`` (the chosen index) or ``clusters`` (local clusters).
+    by_county : bool
+        Timelines drawn as one panel per county.
+    bootstrap : bool
+        Sampling intervals (bootstrap) for unit records.
 
     Raises
     ------
@@ -414,6 +434,9 @@ class ViewState:
     counties: tuple[str, ...] = field(default=())
     decomposition_index: str = "theil_t"
     show_intervals: bool = True
+    layer: str = "index"
+    by_county: bool = False
+    bootstrap: bool = False
 
     def __post_init__(self) -> None:
         free = Known()

@@ -10,7 +10,7 @@ from explorer.present import vocabulary
 opened = ui.open_view()
 view, panel = opened.view, opened.panel
 st.title("Atlas")
-st.caption(vocabulary.describe_view(view, panel))
+ui.caption(vocabulary.describe_view(view, panel))
 
 if panel.kind == "means":
     st.info(
@@ -21,49 +21,51 @@ if panel.kind == "means":
 
 left, middle, right = st.columns([2, 1, 1])
 with left:
-    layer = st.segmented_control(
-        "Map layer",
-        ["Index", "Local clusters"],
-        default="Index",
-        key="atlas_layer",
-        help="Local clusters: districts that resemble their neighbours (local Moran).",
-    )
-with middle:
     ui.control(
-        "classes",
-        st.selectbox,
-        "Colour classes",
-        list(vocabulary.CLASS_LABELS),
-        format_func=vocabulary.CLASS_LABELS.get,
+        "layer",
+        st.segmented_control,
+        "Map layer",
+        list(vocabulary.LAYER_LABELS),
+        format_func=vocabulary.LAYER_LABELS.get,
+        # Clicking the chosen segment again clears it: that keeps the index layer.
+        to_view=lambda chosen: chosen or "index",
+        help=vocabulary.LAYER_HELP,
     )
+# Colour classes apply to the index layer only; the clusters have their own four colours.
+on_index = ui.current_view().layer == "index"
+with middle:
+    if on_index:
+        ui.control(
+            "classes",
+            st.selectbox,
+            "Colour classes",
+            list(vocabulary.CLASS_LABELS),
+            format_func=vocabulary.CLASS_LABELS.get,
+            help=vocabulary.CLASS_HELP,
+        )
 with right:
-    ui.control("k", st.slider, "Number of classes", min_value=3, max_value=9)
+    if on_index:
+        ui.control("k", st.slider, "Number of classes", min_value=3, max_value=9)
 means_only = panel.kind == "means"
-mark_wide = ui.control(
-    vocabulary.INTERVAL_FIELD,
-    st.toggle,
-    "Mark districts whose bounds are wide",
-    help="Dashed outline where the range between lower and upper bound is more than "
-    f"{vocabulary.WIDE_SHARE:.0%} of the value: the figure is uncertain there."
-    + (" District means have no bounds, so there is nothing to mark." if means_only else ""),
-    disabled=means_only,
-)
+# District means have no bounds, and the clusters layer draws no outline: no control then.
+if not means_only and on_index:
+    ui.control(
+        vocabulary.INTERVAL_FIELD,
+        st.toggle,
+        "Mark districts whose bounds are wide",
+        help="Dashed outline where the range between lower and upper bound is more than "
+        f"{vocabulary.WIDE_SHARE:.0%} of the value: the figure is uncertain there.",
+    )
 view = ui.current_view()
 
-shown = figures.atlas(
-    panel,
-    view,
-    opened.compute,
-    layer="clusters" if layer == "Local clusters" else "index",
-    mark_wide=mark_wide,
-)
+shown = figures.atlas(panel, view, opened.compute)
 if shown.empty:
-    st.warning(shown.notices[0])
+    ui.notice(shown.notices[0], "warning")
     st.stop()
 for notice in shown.notices:
-    st.warning(notice)
+    ui.notice(notice, "warning")
 if shown.remark:
-    st.info(shown.remark)
+    ui.notice(shown.remark)
 
 if shown.clusters is not None and shown.clusters.overall is not None:
     ui.moran_summary(shown.clusters.overall)
@@ -77,12 +79,12 @@ if shown.chart is not None:
     st.caption("Click a district to open its District sheet.")
 
 for column, (label, value) in zip(st.columns(3), shown.headline, strict=False):
-    column.metric(label, value)
+    ui.metric(column, label, value)
 
 ui.cautions(panel, ranking=True, wide_intervals=shown.wide_count)
 
 with st.expander(shown.ranking_title, expanded=False):
-    st.caption(shown.ranking_caution)
+    ui.caption(shown.ranking_caution)
     ranked_rows = shown.ranking[RANK_COLUMNS].rename(columns=vocabulary.COLUMN_LABELS)
     value_format = "%,.0f" if means_only else "%.4f"
     shown_ranked, options = ui.planner_table(

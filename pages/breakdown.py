@@ -14,23 +14,31 @@ st.caption(
     "and inequality inside them, for every year."
 )
 
+index_used, instead = figures.split_index(view)
 left, right = st.columns(2)
 with left:
-    ui.control(
-        vocabulary.BREAKDOWN_FIELD,
-        st.selectbox,
-        "Index to split",
-        list(vocabulary.DECOMPOSABLE),
-        format_func=vocabulary.index_label,
-        help="Theil T, the mean log deviation and GE(2) split exactly into within and "
-        "between parts; the Gini also has an overlap part (Dagum 1997).",
-    )
+    if instead:  # the view's index does not split: say so, and let the planner choose
+        ui.caption(instead)
+        ui.control(
+            vocabulary.BREAKDOWN_FIELD,
+            st.selectbox,
+            "Index split instead",
+            list(vocabulary.DECOMPOSABLE),
+            format_func=vocabulary.index_label,
+            help="Theil T, the mean log deviation and GE(2) split exactly into within and "
+            "between parts; the Gini also has an overlap part (Dagum 1997).",
+        )
+    else:
+        ui.caption(f"Splits the index chosen in the sidebar, {vocabulary.index_label(index_used)}.")
 levels = tuple(panel.levels)
 with right:
-    st.markdown(
-        "**Groups:** "
-        + (" → ".join([*levels, "district"]) if levels else "districts (no higher level found)")
-    )
+    if levels:
+        ui.markdown(
+            "**Groups:** {}",
+            " → ".join(vocabulary.groups_word(level) for level in [*levels, "region"]),
+        )
+    else:
+        st.markdown("**Groups:** districts (no higher level found)")
 view = ui.current_view()
 
 split = figures.breakdown(panel, view, opened.compute)
@@ -40,7 +48,7 @@ metrics = split.share_metrics()
 for column, (label, share, help_text) in zip(
     st.columns(max(len(metrics), 1)), metrics, strict=False
 ):
-    column.metric(label, share, help=help_text)
+    ui.metric(column, label, share, help_text)
 
 
 def part_table(frame: pd.DataFrame, key: str, titles: dict[str, str]) -> None:
@@ -73,7 +81,7 @@ if moved is None:
     st.info("Choose a 'From' year before the 'To' year to see what drove the change.")
 else:
     if moved.notice:
-        st.caption(moved.notice)
+        ui.caption(moved.notice)
     st.altair_chart(moved.shown_chart, key="change_chart")
     st.caption(moved.term_help())
     part_table(moved.terms, "change_table", vocabulary.CHANGE_COLUMNS)

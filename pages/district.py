@@ -28,7 +28,7 @@ ui.control(
 )
 view = ui.current_view()
 sheet = figures.district(panel, view, opened.compute)
-st.markdown(sheet.heading)
+ui.markdown("**{}**", sheet.heading)
 
 if panel.kind == "means":
     st.info("District means only: no Lorenz curve or inequality inside the district.")

@@ -9,7 +9,7 @@ from explorer.present import vocabulary
 opened = ui.open_view()
 view, panel = opened.view, opened.panel
 st.title("Timelines")
-st.caption(vocabulary.describe_view(view, panel).rsplit(" · ", 1)[0] + " · every year")
+ui.caption(vocabulary.describe_view(view, panel).rsplit(" · ", 1)[0] + " · every year")
 
 district_names = names(panel)
 labels = dict(zip(district_names["region"], district_names["name"], strict=True))
@@ -26,24 +26,21 @@ with left:
         max_selections=8,
         placeholder="Choose up to 8 districts",
     )
-with right:
-    by_county = st.toggle(
-        "One panel per county",
-        key="timelines_by_county",
-        disabled=county_level(panel) is None,
-    )
+if county_level(panel) is not None:  # no counties in the data: no control
+    with right:
+        ui.control("by_county", st.toggle, "One panel per county")
 view = ui.current_view()
 
-shown = figures.timelines(panel, view, opened.compute, by_county=by_county)
+shown = figures.timelines(panel, view, opened.compute)
 if shown.series is None:
-    st.info(shown.notices[0])
+    ui.notice(shown.notices[0])
 else:
     st.altair_chart(shown.chart, key="timelines_chart")
     if shown.highlighted is not None:
         ui.table(shown.highlighted, "timelines_table", hide_index=False)
     ui.downloads(f"timelines-{view.index}", key="timelines", table=shown.series, chart=shown.chart)
     for notice in shown.notices:
-        st.caption(notice)
+        ui.caption(notice)
 
 st.subheader("Are the districts drawing together?")
 trend = shown.convergence

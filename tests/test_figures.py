@@ -11,6 +11,7 @@ import pytest
 from explorer import figures
 from explorer.data import catalog
 from explorer.figures.compute import PlainCompute
+from explorer.present import vocabulary
 from explorer.views import ViewState
 
 
@@ -92,10 +93,36 @@ def test_breakdown_shares_of_an_exact_split_add_up_to_the_whole(demo):
     # Theil's T splits exactly into within and between parts at every level
     # (Shorrocks, 1980, "The class of additively decomposable inequality measures",
     # Econometrica 48: 613-625), so each level's shares sum to one.
-    view = figures.settle(ViewState(decomposition_index="theil_t"), demo)
+    view = figures.settle(ViewState(index="theil_t"), demo)
     split = figures.breakdown(demo, view, PlainCompute(demo))
+    assert split.index == "theil_t" and not split.instead
     for _, level in split.shares.groupby("level"):
         assert level["share"].sum() == pytest.approx(1.0, abs=1e-9)
+
+
+@pytest.mark.parametrize(
+    ("index", "fallback", "used"),
+    [
+        # The generalised entropy family splits exactly (Shorrocks 1980, Econometrica 48:
+        # 613-625); the Gini with an overlap term (Dagum 1997, Empirical Economics 22:
+        # 515-531); the Palma ratio and Atkinson's index do not split additively.
+        ("mld", "gini", "mld"),
+        ("gini", "mld", "gini"),
+        ("ge_2", "mld", "ge_2"),
+        ("palma", "mld", "mld"),
+        ("atkinson_1", "gini", "gini"),
+    ],
+)
+def test_the_breakdown_splits_the_views_own_index_when_it_decomposes(demo, index, fallback, used):
+    view = figures.settle(ViewState(index=index, decomposition_index=fallback), demo)
+    split = figures.breakdown(demo, view, PlainCompute(demo))
+    assert split.index == used
+    assert set(split.parts.query("component != 'total'")["component"]) >= {"between", "within"}
+    if used == index:
+        assert split.instead == ""
+    else:  # the page says which index it splits instead, in planner words
+        assert vocabulary.index_label(index) in split.instead
+        assert vocabulary.index_label(used) in split.instead
 
 
 def test_cluster_layer_leaves_a_district_without_a_value_out_of_the_graph(demo):

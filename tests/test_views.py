@@ -55,6 +55,9 @@ def view_states(draw) -> ViewState:
         counties=tuple(draw(st.lists(labels, max_size=4))),
         decomposition_index=draw(st.sampled_from(["theil_t", "mld", "gini", "ge_2", "ge_0.5"])),
         show_intervals=draw(st.booleans()),
+        layer=draw(st.sampled_from(views.MAP_LAYERS)),
+        by_county=draw(st.booleans()),
+        bootstrap=draw(st.booleans()),
     )
 
 

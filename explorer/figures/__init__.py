@@ -7,7 +7,13 @@ passes a cached implementation (``explorer.ui.cache``), so both draw the same fi
 """
 
 from explorer.figures.atlas import AtlasFigures, atlas
-from explorer.figures.breakdown import BreakdownFigures, ChangeFigures, breakdown, change
+from explorer.figures.breakdown import (
+    BreakdownFigures,
+    ChangeFigures,
+    breakdown,
+    change,
+    split_index,
+)
 from explorer.figures.compute import Compute, PlainCompute
 from explorer.figures.district import DistrictFigures, district
 from explorer.figures.report import ReportSections, report_for_view, report_html, sections
@@ -38,5 +44,6 @@ __all__ = [
     "report_html",
     "sections",
     "settle",
+    "split_index",
     "timelines",
 ]

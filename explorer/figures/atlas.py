@@ -134,10 +134,14 @@ def atlas(
     view: ViewState,
     compute: Compute,
     *,
-    layer: str = "index",
+    layer: str | None = None,
     mark_wide: bool | None = None,
 ) -> AtlasFigures:
-    """The Atlas figures of ``view``: the ``index`` layer or its local ``clusters``."""
+    """The Atlas figures of ``view``: the ``index`` layer or its local ``clusters``.
+
+    ``layer`` and ``mark_wide`` default to the view's own ``layer`` and ``show_intervals``.
+    """
+    layer = view.layer if layer is None else layer
     money = panel.kind == "means"
     mark_wide = bool(view.show_intervals if mark_wide is None else mark_wide) and not money
     table = None if money else compute.indices(view.method)

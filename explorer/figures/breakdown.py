@@ -33,6 +33,8 @@ class BreakdownFigures:
     note: str
     #: The chart as the page shows it: parts and groups in planner words, panels fitted.
     shown_chart: Any = None
+    #: Why the split index is not the view's own (empty when it is).
+    instead: str = ""
 
     def share_metrics(self) -> tuple[tuple[str, str, str], ...]:
         """(part, share of the total, help) of each part in the view's year, as metrics."""
@@ -74,11 +76,29 @@ class ChangeFigures:
         )
 
 
+def _splits(index: str) -> bool:
+    return index in vocabulary.DECOMPOSABLE or index.startswith("ge_")
+
+
+def split_index(view: ViewState) -> tuple[str, str]:
+    """The index the Breakdown splits, and a sentence when it is not the view's own.
+
+    The view's index is split when it decomposes exactly (the generalised entropy family,
+    Shorrocks 1980; the Gini with its overlap, Dagum 1997); otherwise the view's
+    ``decomposition_index`` (Theil T if that cannot split either), and the sentence says so.
+    """
+    if _splits(view.index):
+        return view.index, ""
+    used = view.decomposition_index if _splits(view.decomposition_index) else "theil_t"
+    return used, (
+        f"{vocabulary.index_label(view.index)} does not split exactly into parts within "
+        f"and between groups, so this page splits {vocabulary.index_label(used)} instead."
+    )
+
+
 def breakdown(panel: Panel, view: ViewState, compute: Compute) -> BreakdownFigures:
-    """The within/between split of the view's Breakdown index (Theil T if it cannot split)."""
-    index = view.decomposition_index
-    if index not in vocabulary.DECOMPOSABLE and not index.startswith("ge_"):
-        index = "theil_t"
+    """The within/between split of the view's index (see :func:`split_index`)."""
+    index, instead = split_index(view)
     levels = tuple(panel.levels)
     parts = compute.breakdown(levels, index, view.method)
     by_level = per_level(parts)
@@ -94,7 +114,11 @@ def breakdown(panel: Panel, view: ViewState, compute: Compute) -> BreakdownFigur
     )
     note = (
         f"Breakdown of {vocabulary.index_label(index)} over "
-        + (" → ".join([*levels, "district"]) if levels else "districts")
+        + (
+            " → ".join(vocabulary.groups_word(g) for g in [*levels, "region"])
+            if levels
+            else "districts"
+        )
         + (
             "; the Gini's overlap part after Dagum (1997)."
             if index == "gini"
@@ -109,7 +133,7 @@ def breakdown(panel: Panel, view: ViewState, compute: Compute) -> BreakdownFigur
         {g: vocabulary.groups_word(g).capitalize() for g in (*levels, "district", "districts")},
     )
     shown = charts.fit_facets(shown, panels=by_level["level"].nunique())
-    return BreakdownFigures(index, levels, parts, by_level, shares, chart, note, shown)
+    return BreakdownFigures(index, levels, parts, by_level, shares, chart, note, shown, instead)
 
 
 def change(panel: Panel, view: ViewState, compute: Compute, index: str) -> ChangeFigures | None:

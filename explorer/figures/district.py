@@ -62,8 +62,12 @@ def district_heading(panel: Panel, region: str, year: int) -> tuple[str, str]:
     """The district's name and the line under the page title (name, id, county, year)."""
     info = names(panel).set_index("region").loc[region]
     level = county_level(panel)
-    county = f" · {level.title()}: {info['county']}" if level and info["county"] else ""
-    return str(info["name"]), f"**{info['name']}** ({region}){county} · {year}"
+    county = (
+        f" · {vocabulary.groups_word(level, plural=False).capitalize()}: {info['county']}"
+        if level and info["county"]
+        else ""
+    )
+    return str(info["name"]), f"{info['name']} ({region}){county} · {year}"
 
 
 def _lorenz(panel, view, compute, region, name):

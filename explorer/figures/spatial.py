@@ -102,8 +102,18 @@ def moran_metrics(overall: Any) -> tuple[tuple[str, str, str | None], ...]:
             f"{moran:.3f}",
             "Above its no-clustering value means similar districts sit next to each other.",
         ),
-        ("Value without clustering", f"{expected:.3f}", None),
-        ("p-value (permutations)", f"{p_value:.3f}", None),
+        (
+            "Expected Moran's I under no clustering",
+            f"{expected:.3f}",
+            "What Moran's I would be on average if the values were placed at random: "
+            "-1/(n-1) for n districts (Cliff and Ord 1981).",
+        ),
+        (
+            "p-value (permutations)",
+            f"{p_value:.3f}",
+            "The share of random placements of the values that cluster at least as much; "
+            "small (below 0.05) means the clustering is unlikely to be chance.",
+        ),
     )
 
 

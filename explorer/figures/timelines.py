@@ -134,9 +134,11 @@ class TimelineFigures:
 
 
 def timelines(
-    panel: Panel, view: ViewState, compute: Compute, *, by_county: bool = False
+    panel: Panel, view: ViewState, compute: Compute, *, by_county: bool | None = None
 ) -> TimelineFigures:
-    """The Timelines figures of ``view`` (one panel per county if ``by_county``)."""
+    """The Timelines figures of ``view`` (one panel per county if ``by_county``, which
+    defaults to the view's own ``by_county``)."""
+    by_county = view.by_county if by_county is None else by_county
     trend = convergence(panel)
     if panel.kind == "means":
         notice = (

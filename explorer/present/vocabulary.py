@@ -23,6 +23,7 @@ __all__ = [
     "CAPTION_CHARS",
     "CHANGE_COLUMNS",
     "CHANGE_TERM_HELP",
+    "CLASS_HELP",
     "CLASS_LABELS",
     "COLUMN_LABELS",
     "DECOMPOSABLE",
@@ -31,6 +32,8 @@ __all__ = [
     "INDEX_COLUMNS",
     "INDEX_LABELS",
     "INTERVAL_FIELD",
+    "LAYER_HELP",
+    "LAYER_LABELS",
     "LORENZ_METHODS",
     "METHOD_LABELS",
     "PAGES",
@@ -185,6 +188,23 @@ CLASS_LABELS = {
     "breaks": "Natural breaks",
 }
 
+CLASS_HELP = (
+    "How districts are put into colour classes. Equal counts: the same number of districts "
+    "in each class. Equal widths: classes of the same width between the lowest and highest "
+    "value. Natural breaks (Jenks 1967): the boundaries are placed where they keep the "
+    "values inside each class as close together as possible, so gaps in the data become "
+    "class boundaries."
+)
+
+LAYER_LABELS = {"index": "Index", "clusters": "Local clusters"}
+LAYER_HELP = (
+    "Index: each district coloured by the chosen index. Local clusters (local Moran, "
+    "Anselin 1995): districts that resemble or differ from their neighbours beyond chance. "
+    "High-high: a high value among high neighbours. Low-low: a low value among low "
+    "neighbours. High-low: a high value among low neighbours. Low-high: a low value among "
+    "high neighbours. Other districts show no significant local pattern."
+)
+
 #: An interval wider than this share of its value is called wide (a display choice).
 WIDE_SHARE = 0.15
 
@@ -293,7 +313,10 @@ def groups_word(level: str, *, plural: bool = True) -> str:
         return "districts" if plural else "district"
     if level == "total":
         return "whole province"
-    level = str(level)
+    # A column name as the file spells it ("SUB_REGION") is not a word: "sub region".
+    level = " ".join(str(level).replace("_", " ").split())
+    if level.isupper() or level[:1].isupper():
+        level = level.lower()
     if not plural or level.endswith("s"):
         return level
     if level.endswith("y") and level[-2:-1] not in tuple("aeiou"):

@@ -21,7 +21,8 @@ from explorer.figures.compute import MAP_PERMUTATIONS, tidy
 
 __all__ = ["BOOTSTRAP_KEY", "CachedCompute", "ChartSpec"]
 
-#: Session key of the sidebar's "Sampling intervals (bootstrap)" toggle.
+#: Session key of the sidebar's "Sampling intervals (bootstrap)" toggle (the view's
+#: ``bootstrap`` field, bound by ``explorer.ui.state.control``).
 BOOTSTRAP_KEY = "ctl_bootstrap"
 
 

@@ -132,7 +132,7 @@ def read_upload(panel_file: Any, boundary_file: Any, options: dict[str, Any]):
 
     with st.status("Reading and checking the files…", expanded=True) as status:
         with _on_disk(panel_file, boundary_file) as (panel_path, boundary_path):
-            st.write(f"Reading {panel_file.name}…")
+            show.caption(f"Reading {panel_file.name}…")
             try:
                 loaded = readers.load_panel(panel_path, boundary_path, **options)
             except DataError:
@@ -163,7 +163,7 @@ def read_upload(panel_file: Any, boundary_file: Any, options: dict[str, Any]):
 
 def summary(panel: Any, dataset_id: str) -> None:
     """What was read, its warnings and excluded district-years, and the save button."""
-    st.success(f"Read **{panel.name or dataset_id}**: now shown on every page of this session.")
+    show.markdown("Read **{}**: now shown on every page of this session.", panel.name or dataset_id)
     try:
         described = panel.describe()
     except Exception:
@@ -329,7 +329,7 @@ def results_out(opened: state.OpenView) -> None:
         except DataError as error:
             show.problems(error, heading="The view could not be saved")
         else:
-            st.success(f"Saved as {Path(saved).name}.")
+            show.notice(f"Saved as {Path(saved).name}.", "success")
 
 
 def apply_view_file(content: bytes) -> None:

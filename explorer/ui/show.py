@@ -16,12 +16,17 @@ from explorer.data.model import DataError
 from explorer.present import exports
 
 __all__ = [
+    "caption",
     "caution_texts",
     "cautions",
     "downloads",
     "guard",
+    "markdown",
+    "metric",
     "moran_summary",
+    "notice",
     "picked_region",
+    "plain",
     "planner_table",
     "problem_table",
     "problems",
@@ -30,6 +35,56 @@ __all__ = [
 ]
 
 LOG = logging.getLogger("rift")
+
+# Every ASCII punctuation character may be backslash-escaped in CommonMark; these are the
+# ones that start Markdown, HTML, Streamlit's colour and icon directives (":red[...]",
+# ":material/...:"), emoji shortcodes, LaTeX ("$") and GitHub-style autolinks ("www.").
+_MARKUP = re.compile(r"([\\`*_{}\[\]()#+\-.!|<>~$:&=^\"'@/])")
+
+
+#: U+2060, invisible; it splits an address so that it is not made into a link.
+WORD_JOINER = "\u2060"
+_AUTOLINK = re.compile(r"(?<=:)(?=//)|(?i:(?<=www))(?=\.)|(?<=@)(?=\w)")
+
+
+def plain(text: Any) -> str:
+    """Text from a file, a link or a view file, escaped so that Markdown shows it as typed.
+
+    Streamlit renders Markdown in titles, captions, notices, metric labels and help texts;
+    a district called ``![x](http://host/x.png)`` would otherwise make every viewer's
+    browser fetch that image. Line breaks become spaces (a name is one line), and a word
+    joiner (U+2060, invisible) goes into bare web and mail addresses so none becomes a link.
+
+    References
+    ----------
+    MacFarlane, J. (2019). CommonMark Spec, version 0.29, section 2.4 "Backslash escapes":
+    any ASCII punctuation character may be backslash-escaped.
+    """
+    one_line = " ".join(str(text).split())
+    # GitHub-style Markdown links bare addresses even when escaped ("http\\://x" is still a
+    # link); an invisible word joiner inside "://", "www." and "@name" stops that.
+    one_line = _AUTOLINK.sub(WORD_JOINER, one_line)
+    return _MARKUP.sub(r"\\\1", one_line)
+
+
+def markdown(template: str, *values: Any) -> None:
+    """Markdown of our own wording, with each ``{}`` filled by a value shown as text."""
+    st.markdown(template.format(*(plain(v) for v in values)))
+
+
+def caption(text: Any) -> None:
+    """A caption whose whole text is shown as typed (it may hold names from the data)."""
+    st.caption(plain(text))
+
+
+def notice(text: Any, kind: str = "info") -> None:
+    """An info, warning, error or success box whose text is shown as typed."""
+    getattr(st, kind)(plain(text))
+
+
+def metric(where: Any, label: Any, value: Any, help: Any = None) -> None:  # noqa: A002
+    """A metric whose label and help are shown as typed (labels may be group names)."""
+    where.metric(plain(label), value, help=None if help is None else plain(help))
 
 
 def caution_texts(panel: Any, *, ranking: bool = False, wide_intervals: int = 0) -> list[str]:
@@ -52,7 +107,7 @@ def cautions(panel: Any, *, ranking: bool = False, wide_intervals: int = 0) -> l
     if items:
         with st.container(border=True, key="cautions_box"):
             st.markdown("**Read with care**")
-            st.markdown("\n".join(f"- {item}" for item in items))
+            st.markdown("\n".join(f"- {plain(item)}" for item in items))
     return items
 
 
@@ -86,8 +141,9 @@ def problem_table(error: DataError, key: str) -> None:
             )
             if part
         )
-        fix = f" **How to fix:** {problem.fix}" if problem.fix else ""
-        lines.append(f"- {f'**{where}**: ' if where else ''}{problem.message}.{fix}")
+        fix = f" **How to fix:** {plain(problem.fix)}" if problem.fix else ""
+        message = plain(problem.message.rstrip("."))
+        lines.append(f"- {f'**{plain(where)}**: ' if where else ''}{message}.{fix}")
     more = len(error.problems) - _LISTED
     if more > 0:
         lines.append(f"- … and {more} more in the table above.")
@@ -229,7 +285,7 @@ def moran_summary(overall: Any) -> None:
     for column, (label, value, help_text) in zip(
         st.columns(3), moran_metrics(overall), strict=True
     ):
-        column.metric(label, value, help=help_text)
+        metric(column, label, value, help_text)
     islands = getattr(overall, "islands", ())
     if islands is not None and len(islands):
         st.caption(

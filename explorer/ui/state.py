@@ -26,8 +26,8 @@ from explorer.present.vocabulary import (
     index_label,
     method_label,
 )
-from explorer.ui import data
-from explorer.ui.cache import BOOTSTRAP_KEY, CachedCompute
+from explorer.ui import data, show
+from explorer.ui.cache import CachedCompute
 
 __all__ = [
     "OpenView",
@@ -181,7 +181,7 @@ def show_notices() -> None:
     if notices:
         st.warning(
             "Some parts of the link could not be used and were reset to defaults:\n\n"
-            + "\n".join(f"- {n}" for n in notices),
+            + "\n".join(f"- {show.plain(n)}" for n in notices),
             icon="⚠️",
         )
         st.session_state[NOTICES] = []
@@ -219,10 +219,10 @@ def sidebar(catalog: Sequence[data.Dataset], panel: Any) -> None:
             "Inequality index",
             list(INDEX_LABELS),
             format_func=index_label,
-            # One mean per district has no inequality inside districts to measure.
-            disabled=panel.kind == "means",
-            help="District means only: the pages show mean incomes and the inequality "
-            "between districts (Breakdown) instead of an index per district."
+            # One mean per district has no inequality inside districts to measure; the
+            # index still measures the inequality between districts on the Breakdown page.
+            help="District means only: the map and the sheets show mean incomes; this "
+            "index measures the inequality between districts on the Breakdown page."
             if panel.kind == "means"
             else None,
         )
@@ -237,9 +237,10 @@ def sidebar(catalog: Sequence[data.Dataset], panel: Any) -> None:
                 "The bounds (lower/upper) are always shown beside the value.",
             )
         elif panel.kind == "units":
-            st.toggle(
+            control(
+                "bootstrap",
+                st.toggle,
                 "Sampling intervals (bootstrap)",
-                key=BOOTSTRAP_KEY,
                 help="Resamples the households 199 times to show how much each district's "
                 "figure could move with another sample. Takes a little while the first time.",
             )

@@ -74,3 +74,10 @@ def save_demo_with_a_gap(folder: Path, region: str, year: int) -> str:
     assert len(panel.excluded) == 1
     options = {"kind": None, "column_map": None, "boundary_id": None, "crs": None}
     return Workspace(folder).add(panel, [path, boundary_path], options)
+
+
+def as_read(text: str) -> str:
+    """Text as the reader sees it: Markdown backslash escapes removed (CommonMark 0.29, 2.4)."""
+    import re
+
+    return re.sub(r"\\([!-/:-@\[-`{-~])", r"\1", text)

@@ -89,7 +89,8 @@ def test_a_malformed_link_value_gives_a_notice_and_the_default(app, params, fiel
 
 
 def test_a_link_to_a_page_with_its_controls_opens_that_view(app):
-    app.query_params.update({"dx": "mld", "y0": "2010", "y1": "2020"})
+    # The Palma ratio does not split, so the page offers the index it splits instead.
+    app.query_params.update({"ix": "palma", "dx": "mld", "y0": "2010", "y1": "2020"})
     run(app)
     app.switch_page(page("breakdown"))
     run(app)

@@ -6,7 +6,7 @@ import json
 
 import numpy as np
 import pandas as pd
-from app_helpers import ROOT, charts, dataframe, run, save_demo_with_a_gap, view
+from app_helpers import ROOT, as_read, charts, dataframe, run, save_demo_with_a_gap, view
 
 DECILES = ROOT / "demo_data" / "deciles.csv"
 
@@ -112,7 +112,7 @@ def test_number_of_classes_sets_the_number_of_colour_classes(app):
 def test_metrics_name_the_highest_and_lowest_district(app):
     run(app)
     table = ranking(app)
-    metrics = {m.label: m.value for m in app.metric}
+    metrics = {as_read(m.label): m.value for m in app.metric}
     top, bottom = table["Value"].idxmax(), table["Value"].idxmin()
     assert float(metrics[f"Highest: {table.loc[top, 'District']}"]) == round(
         table["Value"].max(), 3
@@ -124,23 +124,23 @@ def test_metrics_name_the_highest_and_lowest_district(app):
 
 def test_ranking_shows_the_funding_caution(app):
     run(app)
-    text = " ".join(m.value for m in app.markdown)
+    text = as_read(" ".join(m.value for m in app.markdown))
     assert "allocation" in text or "funds" in text
 
 
 def test_cluster_layer_shows_global_moran_within_its_range(app):
     run(app)
-    app.button_group(key="atlas_layer").set_value("Local clusters")
+    app.button_group(key="ctl_layer").set_value("clusters")
     run(app)
     metrics = {
-        m.label: float(m.value)
+        as_read(m.label): float(m.value)
         for m in app.metric
-        if not m.label.startswith(("Highest", "Lowest", "Median"))
+        if not as_read(m.label).startswith(("Highest", "Lowest", "Median"))
     }
     # With n districts, Moran's I under no autocorrelation is -1/(n-1) (Cliff & Ord 1981,
     # Spatial Processes: Models and Applications, Pion).
     n = len(ranking(app))
-    assert metrics["Value without clustering"] == round(-1 / (n - 1), 3)
+    assert metrics["Expected Moran's I under no clustering"] == round(-1 / (n - 1), 3)
     assert 0 <= metrics["p-value (permutations)"] <= 1
 
 
@@ -153,12 +153,16 @@ def test_cluster_layer_draws_a_set_aside_district_as_no_value_and_names_it(app, 
     app.query_params.update({"d": dataset, "y": "2015"})
     run(app)
     n = len(ranking(app))
-    app.button_group(key="atlas_layer").set_value("Local clusters")
+    app.button_group(key="ctl_layer").set_value("clusters")
     run(app)
     warnings = " ".join(w.value for w in app.warning)
     assert "CAL03" in warnings and "no value" in warnings
-    metrics = {m.label: float(m.value) for m in app.metric if m.label.startswith("Value without")}
-    assert metrics["Value without clustering"] == round(-1 / (n - 1), 3)
+    metrics = {
+        as_read(m.label): float(m.value)
+        for m in app.metric
+        if as_read(m.label).startswith("Expected Moran")
+    }
+    assert metrics["Expected Moran's I under no clustering"] == round(-1 / (n - 1), 3)
     features = json.loads(charts(app)[0].spec)["data"]["values"]
     cluster = {f["properties"]["region"]: f["properties"]["cluster"] for f in features}
     assert cluster["CAL03"] == "no value"

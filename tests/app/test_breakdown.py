@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 import pandas as pd
-from app_helpers import ROOT, dataframe, page, run, view
+from app_helpers import ROOT, as_read, dataframe, page, run, view
 
 
 def open_breakdown(app, **params):
@@ -15,11 +15,11 @@ def open_breakdown(app, **params):
 
 
 def shares(app) -> dict[str, float]:
-    return {m.label: float(m.value.rstrip("%")) / 100 for m in app.metric}
+    return {as_read(m.label): float(m.value.rstrip("%")) / 100 for m in app.metric}
 
 
 def test_theil_parts_of_every_level_add_up_to_the_provinces_total(app):
-    open_breakdown(app, dx="theil_t", y="2021")
+    open_breakdown(app, ix="theil_t", y="2021")
     detail = dataframe(app, "breakdown_detail")
     total = float(
         detail[(detail["component"] == "total") & (detail["group"] == "(all)")]["value"].iloc[0]
@@ -36,13 +36,13 @@ def test_theil_parts_of_every_level_add_up_to_the_provinces_total(app):
         between[level] = float(rows.loc[rows["component"] == "between", "value"].iloc[0])
     # A finer partition never has a smaller between part (common practice for GE).
     assert between["district"] >= between["county"] - 1e-12
-    metric = {m.label: m.value for m in app.metric}
+    metric = {as_read(m.label): m.value for m in app.metric}
     # The metric names its groups in planner words ("between (county)" before).
     assert metric["Between counties"] == f"{between['county'] / total:.1%}"
 
 
 def test_gini_breakdown_has_an_overlap_part(app):
-    open_breakdown(app, dx="gini")
+    open_breakdown(app, ix="gini")
     parts = dataframe(app, "breakdown_table")
     assert "overlap" in set(parts["component"])
 
@@ -51,7 +51,7 @@ def test_between_district_theil_of_district_means_matches_a_direct_formula(app):
     # Between-district Theil T = sum_i s_i ln(s_i / p_i) over district population shares
     # p_i and income shares s_i (Theil 1967, Economics and Information Theory,
     # North-Holland; Shorrocks 1980), from the shipped means.
-    open_breakdown(app, dx="theil_t", y="2018", d="demo-means")
+    open_breakdown(app, ix="theil_t", y="2018", d="demo-means")
     assert view(app).dataset == "demo-means"
     means = pd.read_csv(ROOT / "demo_data" / "means.csv")
     year = means[means["year"] == 2018]

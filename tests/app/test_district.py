@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 import pandas as pd
-from app_helpers import ROOT, dataframe, page, run, view
+from app_helpers import ROOT, as_read, dataframe, page, run, view
 
 
 def open_sheet(app, **params):
@@ -18,7 +18,7 @@ def test_sheet_opens_on_the_district_of_the_link(app):
     open_sheet(app, sel="FER02", y="2016")
     assert view(app).districts == ("FER02",)
     assert app.selectbox(key="ctl_districts").value == "FER02"
-    assert "FER02" in " ".join(m.value for m in app.markdown)
+    assert "FER02" in as_read(" ".join(m.value for m in app.markdown))
 
 
 def test_every_index_lies_within_its_bounds(app):

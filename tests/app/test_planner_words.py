@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 import pytest
-from app_helpers import ROOT, dataframe, page, run, view
+from app_helpers import ROOT, as_read, dataframe, page, run, view
 from hypothesis import given
 from hypothesis import strategies as st
 
@@ -88,7 +88,7 @@ def test_an_infinite_upper_bound_is_written_out_where_the_data_are_infinite(app)
 def test_mean_incomes_on_the_atlas_read_as_whole_currency_units(app):
     open_page(app, "atlas", d="demo-means", y="2025")
     ranked = dataframe(app, "atlas_ranking")
-    metrics = {m.label: m.value for m in app.metric}
+    metrics = {as_read(m.label): m.value for m in app.metric}
     top = ranked.iloc[0]
     shown = metrics[f"Highest: {top['District']}"]
     assert shown == f"{top['Value']:,.0f}"  # thousands separators, no decimals
@@ -105,7 +105,7 @@ def test_every_problem_of_a_bad_file_is_written_out_in_full(app):
     app.button(key="intake_read").click()
     run(app)
     problems = dataframe(app, "problems_table")
-    text = " ".join(m.value for m in app.markdown)
+    text = as_read(" ".join(m.value for m in app.markdown))
     for message in problems["message"]:
         assert message in text
     assert not {"None", "<NA>", "nan"} & set(problems.to_numpy().ravel())

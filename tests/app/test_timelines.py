@@ -43,7 +43,7 @@ def test_county_panels_toggle_faceted_chart(app):
     open_timelines(app)
     spec = app.get("vega_lite_chart")[0].proto.spec
     assert '"facet"' not in spec
-    app.toggle(key="timelines_by_county").set_value(True)
+    app.toggle(key="ctl_by_county").set_value(True)
     run(app)
     assert '"facet"' in app.get("vega_lite_chart")[0].proto.spec
 

@@ -23,6 +23,9 @@ CHROMIUM_ARGS = [
 ]
 
 
+_SERVED: dict[str, Path] = {}
+
+
 def _free_port() -> int:
     with socket.socket() as sock:
         sock.bind(("127.0.0.1", 0))
@@ -46,9 +49,16 @@ def server(tmp_path_factory):
     if not wait_until_serving(base, 60, process):
         stop_server(process)
         pytest.fail("the Rift server did not start within 60 s")
+    _SERVED["workspace"] = workspace  # for tests that put a dataset in the shared workspace
     yield base
     stop_server(process, timeout=15)
     log.close()
+
+
+@pytest.fixture(scope="session")
+def workspace(server) -> Path:
+    """The workspace folder the test server reads its saved datasets from."""
+    return _SERVED["workspace"]
 
 
 @pytest.fixture(scope="session")
