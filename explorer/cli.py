@@ -32,7 +32,9 @@ DEMO = "demo"
 # --------------------------------------------------------------------------- arguments
 
 
-def _panel_arguments(parser: argparse.ArgumentParser, *, boundaries: bool = True) -> None:
+def _panel_arguments(
+    parser: argparse.ArgumentParser, *, boundaries: bool = True, year: bool = True
+) -> None:
     parser.add_argument(
         "panel", help="panel file (CSV, Parquet, Excel), or 'demo' for the built-in province"
     )
@@ -59,7 +61,7 @@ def _panel_arguments(parser: argparse.ArgumentParser, *, boundaries: bool = True
         action="store_true",
         help="accept negative incomes in unit records (losses); indices undefined for them say so",
     )
-    _office_arguments(parser)
+    _office_arguments(parser, year=year)
     if boundaries:
         parser.add_argument("--layer", help="GeoPackage layer to read")
         parser.add_argument(
@@ -70,7 +72,7 @@ def _panel_arguments(parser: argparse.ArgumentParser, *, boundaries: bool = True
         )
 
 
-def _office_arguments(parser: argparse.ArgumentParser) -> None:
+def _office_arguments(parser: argparse.ArgumentParser, *, year: bool = True) -> None:
     """How to read a table as a statistics office publishes it, and what to add to it."""
     office = parser.add_argument_group("published tables")
     office.add_argument(
@@ -85,13 +87,13 @@ def _office_arguments(parser: argparse.ArgumentParser) -> None:
         help="what the values are when the header does not say, e.g. mean_income "
         "(several for blocks side by side)",
     )
-    office.add_argument(
-        "--year",
-        type=int,
-        dest="table_year",
-        metavar="YEAR",
-        help="the year of a table for one year with no year column",
-    )
+    if year:
+        office.add_argument(
+            "--year",
+            type=int,
+            metavar="YEAR",
+            help="the year of a table for one year with no year column",
+        )
     office.add_argument(
         "--keep-totals",
         action="store_true",
@@ -134,7 +136,7 @@ def _read_options(args: argparse.Namespace):
     return ReadOptions(
         header_row=getattr(args, "header_row", None),
         measure=measure[0] if measure and len(measure) == 1 else measure,
-        year=getattr(args, "table_year", None),
+        year=getattr(args, "year", None),
         keep_aggregates=bool(getattr(args, "keep_totals", False)),
     )
 
@@ -207,9 +209,14 @@ def build_parser() -> argparse.ArgumentParser:
     _out_argument(decompose)
 
     spatial = commands.add_parser("spatial", help="spatial clustering of an index or mean")
-    _panel_arguments(spatial)
+    _panel_arguments(spatial, year=False)
     spatial.add_argument("--index", default="gini", help="index key, or mean_income")
-    spatial.add_argument("--year", type=int, help="year (default: the latest)")
+    spatial.add_argument(
+        "--year",
+        type=int,
+        help="year (default: the latest); also the year of a table for one year with no "
+        "year column",
+    )
     spatial.add_argument("--method", default="auto", help="Lorenz method for grouped data")
     spatial.add_argument("--graph", choices=("queen", "rook", "knn"), default="queen")
     spatial.add_argument("--k", type=int, default=4, help="neighbours for --graph knn")

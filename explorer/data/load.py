@@ -57,9 +57,13 @@ class PanelTable:
 
 
 def _office_wanted(frame: pd.DataFrame | None, options: ReadOptions) -> bool:
-    if options != ReadOptions():
-        return True
-    return frame is None or detect_kind(str(c).strip() for c in frame.columns) is None
+    """Whether the office reader should read the table rather than the plain one."""
+    if frame is None or replace(options, year=None) != ReadOptions():
+        return True  # unreadable as it is, or an option only the office reader knows
+    columns = [str(c).strip() for c in frame.columns]
+    if options.year is not None and "year" not in columns:
+        return True  # a table for one year, the year given
+    return detect_kind(columns) is None
 
 
 def read_panel_table(
@@ -99,7 +103,7 @@ def read_panel_table(
     options = options or ReadOptions()
     office = panel_path.suffix.lower() in OFFICE_SUFFIXES
     plain, plain_error = None, None
-    if not (office and options != ReadOptions()):
+    if not (office and replace(options, year=None) != ReadOptions()):
         try:
             plain = _plain(panel_path, sheet, column_map)
         except DataError as error:
