@@ -190,7 +190,7 @@ def _boundary_keys(boundaries) -> list[str] | None:
         return None
     keys: set[str] = set()
     for column in boundaries.columns:
-        if column != "geometry" and boundaries[column].dtype == object:
+        if column != "geometry" and not pd.api.types.is_numeric_dtype(boundaries[column]):
             keys.update(str(v) for v in boundaries[column].dropna())
     return sorted(keys)
 
