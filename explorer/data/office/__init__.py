@@ -163,7 +163,7 @@ def _skipped_notes(frame: Frame, sheet: str | None, file: str) -> tuple[list, li
             "above",
             frame.above,
             "above the header (titles, notes)",
-            "Give header_row if the header is elsewhere.",
+            "Give the line of the header if it is elsewhere.",
         ),
         ("among", frame.between, "among the data without values", ""),
         ("below", frame.below, "below the data (sources, footnotes)", ""),
@@ -248,7 +248,7 @@ def _aggregate_notes(aggregates: pd.DataFrame, keep: bool, file: str) -> list[Pr
     return [
         Problem(
             f"{len(rows)} row(s) are totals of other rows: {shown}{more}. {tail}",
-            "" if keep else "Use keep_aggregates to keep them as districts.",
+            "" if keep else "Choose to keep total rows if they are districts after all.",
             file=file,
             severity="warning",
         )
