@@ -193,10 +193,19 @@ def _level_choices(preview: Any) -> dict[str, str] | None:
     return {column: shown for _, _, column, shown in sorted(chosen)}
 
 
+CODE_WORDS = {"cd", "code", "id", "nm", "name", "txt"}
+
+
 def _readable(column: str) -> str:
-    """A first guess at a display name: words instead of codes (``SUB_REGION`` -> Sub region)."""
-    words = column.replace("_", " ").replace("-", " ").strip()
-    return words[:1].upper() + words[1:].lower() if words.isupper() or "_" in column else words
+    """A first guess at a display name, words instead of a code: ``ZONE_CD`` -> Zone,
+    ``SUB_REGION`` -> Sub region. The planner edits it."""
+    words = column.replace("_", " ").replace("-", " ").split()
+    while len(words) > 1 and words[-1].lower() in CODE_WORDS:
+        words.pop()
+    text = " ".join(words)
+    if column.isupper() or "_" in column:
+        text = text.capitalize()
+    return text or column
 
 
 def _name_choices(preview: Any, known: dict[str, str]) -> dict[str, str]:
