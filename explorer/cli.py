@@ -328,6 +328,14 @@ def _print_problems(error: DataError) -> None:
         print(_problem_line(problem), file=sys.stderr)
 
 
+#: Words of a reader's message, and the option of this command line that answers it.
+OPTION_HINTS = {
+    "no year column": "--year YEAR",
+    "totals of other rows": "--keep-totals",
+    "not read (line": "--header-row N",
+}
+
+
 def _problem_line(problem: Problem) -> str:
     where = [problem.file or "input"]
     if problem.row is not None:
@@ -337,6 +345,9 @@ def _problem_line(problem: Problem) -> str:
     line = f"{problem.severity}: {', '.join(where)}: {problem.message}"
     if problem.fix:
         line += f" — {problem.fix}"
+    hints = [o for words, o in OPTION_HINTS.items() if words in problem.message]
+    if hints and problem.fix:
+        line += f" ({', '.join(hints)})"
     return line
 
 

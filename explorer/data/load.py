@@ -116,14 +116,24 @@ def read_panel_table(
         reading = read_office_table(
             panel_path, panel_path.name, options=options, boundary_ids=boundary_ids
         )
-    except DataError:
-        # a table neither reader can read: the plain reader's account is the plainer one
-        if plain_error is not None:
+    except DataError as error:
+        # A table neither reader can read: the plain reader's account is the plainer one,
+        # unless the office reader understood the table and only needs a choice made.
+        if plain_error is not None and not _needs_choice(error):
             raise plain_error from None
         raise
     frame = reading.table.reset_index(drop=True)
     frame.attrs = {"problems": list(reading.notes)}
     return PanelTable(frame, reading, dict(enumerate(reading.lines)))
+
+
+#: Words of the office reader's errors that mean it understood the table but needs the
+#: planner to choose (the year of a one-year table).
+NEEDS_CHOICE = ("no year column",)
+
+
+def _needs_choice(error: DataError) -> bool:
+    return any(w in p.message for p in error.problems for w in NEEDS_CHOICE)
 
 
 def _plain(panel_path: Path, sheet, column_map) -> pd.DataFrame:

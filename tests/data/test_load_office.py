@@ -187,3 +187,17 @@ def test_levels_option_takes_display_names(spec):
     assert cli._levels(spec) == (
         {"zone": "Zone", "sub": "sub"} if "," in spec else {"zone": "zone"}
     )
+
+
+def test_a_one_year_table_without_its_year_names_the_option(tmp_path, capsys):
+    path = tmp_path / "means_2004.csv"
+    path.write_text(
+        'Mean income by district\n\nDistrict,Mean income\nNorthland,"15,100"\nAshvale,"12,900"\n',
+        encoding="utf-8",
+    )
+    code, _, err = run(capsys, "check", str(path))
+    assert code == cli.EXIT_BAD_INPUT
+    assert "no year column" in err and "--year YEAR" in err
+    code, out, err = run(capsys, "check", str(path), "--year", "2004")
+    assert code == cli.EXIT_OK, err
+    assert "years: 2004-2004" in out
