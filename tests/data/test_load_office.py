@@ -11,6 +11,8 @@ from pathlib import Path
 import geopandas as gpd
 import pandas as pd
 import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 from shapely.geometry import box
 
 from explorer import cli
@@ -201,3 +203,40 @@ def test_a_one_year_table_without_its_year_names_the_option(tmp_path, capsys):
     code, out, err = run(capsys, "check", str(path), "--year", "2004")
     assert code == cli.EXIT_OK, err
     assert "years: 2004-2004" in out
+
+
+@given(
+    means=st.lists(
+        st.lists(st.integers(1_000, 99_999), min_size=3, max_size=3), min_size=2, max_size=5
+    ),
+    first=st.integers(1990, 2020),
+)
+@settings(
+    max_examples=15, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture]
+)
+def test_decorated_and_tidy_forms_give_the_same_panel(tmp_path, means, first):
+    names = DISTRICTS[: len(means)]
+    years = [first, first + 1, first + 2]
+    tidy = tmp_path / "tidy.csv"
+    rows = [
+        f"{n},{y},{v}"
+        for n, vs in zip(names, means, strict=True)
+        for y, v in zip(years, vs, strict=True)
+    ]
+    tidy.write_text("region,year,mean_income\n" + "\n".join(rows) + "\n", encoding="utf-8")
+    decorated = tmp_path / "decorated.csv"
+    header = ",".join(["District", f'"{years[0]}  "', f"{years[1]} (p)", f"Y{years[2]}"])
+    body = [
+        f"{n} 3/," + ",".join(f'"{v:,}"' for v in vs) for n, vs in zip(names, means, strict=True)
+    ]
+    decorated.write_text(
+        "Table 2. Mean income by district\n\n"
+        + header
+        + "\n"
+        + "\n".join(body)
+        + "\n\nSource: an invented office.\n",
+        encoding="utf-8",
+    )
+    plain, office = load_panel(tidy), load_panel(decorated)
+    pd.testing.assert_frame_equal(plain.data, office.data)
+    assert plain.fingerprint == office.fingerprint
