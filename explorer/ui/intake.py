@@ -123,7 +123,7 @@ MEASURES = {
 }
 
 
-def _office_choices(preview_measures: tuple[str, ...]) -> Any:
+def _office_choices() -> Any:
     """The planner's overrides of the office reading: header line, measure, year, totals."""
     from explorer.data.office import ReadOptions
 
@@ -265,7 +265,7 @@ def reading_options(
         _column_choices(panel_file, options)
         if boundary_files:
             _boundary_text_choices(boundary_files, options)
-        reading = _office_choices(())
+        reading = _office_choices()
     options["options"] = reading
     choices = {
         "reading": reading.to_dict(),
