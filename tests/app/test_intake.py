@@ -219,3 +219,20 @@ def test_a_boundary_file_without_a_coordinate_system_offers_the_likely_ones(app,
     # (EPSG:3035 definition, common practice).
     bounds = app.session_state["rift_uploads"][dataset].boundaries.total_bounds
     assert abs(bounds[0] - 10.0) < 0.01 and abs(bounds[1] - 52.0) < 0.01
+
+
+def test_an_accepted_name_match_is_offered_again_for_the_next_upload(app, tmp_path):
+    run(app)
+    office_upload(app, tmp_path)
+    app.checkbox(key="in_name_Lower Marsh").check()
+    run(app)
+    app.button(key="intake_read").click()
+    run(app)
+    app.button(key="intake_save").click()
+    run(app)
+    later = AppTest.from_file(str(APP), default_timeout=120)
+    run(later)
+    again = tmp_path / "again"
+    again.mkdir()
+    office_upload(later, again)
+    assert later.checkbox(key="in_name_Lower Marsh").value is True

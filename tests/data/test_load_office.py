@@ -240,3 +240,38 @@ def test_decorated_and_tidy_forms_give_the_same_panel(tmp_path, means, first):
     plain, office = load_panel(tidy), load_panel(decorated)
     pd.testing.assert_frame_equal(plain.data, office.data)
     assert plain.fingerprint == office.fingerprint
+
+
+def test_levels_option_chooses_and_names_the_level(tmp_path, capsys):
+    import geopandas as gpd
+    from shapely.geometry import box
+
+    frame = gpd.GeoDataFrame(
+        {
+            "name": DISTRICTS,
+            "ZONE_CD": ["East", "East", "West", "West", "West"],
+            "BELT": ["Hill", "Coast", "Hill", "Coast", "Hill"],
+        },
+        geometry=[box(i, 0, i + 1, 1) for i in range(5)],
+        crs="EPSG:4326",
+    )
+    bounds = tmp_path / "districts.geojson"
+    frame.to_file(bounds, driver="GeoJSON")
+    _, out, _ = run(capsys, "check", str(ACROSS), "--boundaries", str(bounds))
+    assert "BELT (2 groups)" in out and "ZONE_CD (2 groups)" in out
+    _, out, _ = run(
+        capsys, "check", str(ACROSS), "--boundaries", str(bounds), "--levels", "ZONE_CD=Zone"
+    )
+    assert "higher levels: Zone (2 groups)" in out
+    assert "BELT" not in out
+
+
+def test_measure_option_says_what_undescribed_values_are(tmp_path):
+    path = tmp_path / "table.csv"
+    path.write_text(
+        "Table 4\n\nDistrict,2001,2002\nNorthland,12400,12600\nAshvale,8300,8350\n",
+        encoding="utf-8",
+    )
+    read = read_panel_table(path, options=ReadOptions(measure="population"))
+    assert list(read.frame.columns) == ["region", "year", "population"]
+    assert read.frame["population"].tolist() == [12400.0, 12600.0, 8300.0, 8350.0]
