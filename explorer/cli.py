@@ -430,7 +430,8 @@ def run_check(args: argparse.Namespace) -> int:
                 [Problem("the demo is built in and needs no saving", fix="save your own files")]
             )
         workspace = Workspace(Path(args.data)) if args.data else Workspace()
-        sources = [Path(args.panel)] + ([Path(args.boundaries)] if args.boundaries else [])
+        extra = (args.boundaries, args.population, args.crosswalk)
+        sources = [Path(args.panel)] + [Path(p) for p in extra if p]
         options = {
             "kind": args.kind,
             "column_map": args.map,
@@ -440,10 +441,22 @@ def run_check(args: argparse.Namespace) -> int:
             "layer": args.layer,
             "reading": _read_options(args).to_dict(),
             "levels": args.levels,
+            "population": Path(args.population).name if args.population else None,
+            "crosswalk": _crosswalk_pairs(args.crosswalk),
         }
         dataset = workspace.add(panel, sources, options)
         print(f"saved as dataset {dataset} in {workspace.root}")
     return EXIT_BAD_INPUT if set_aside else EXIT_OK
+
+
+def _crosswalk_pairs(path: str | None) -> dict[str, str] | None:
+    """The crosswalk file as pairs, stored with the dataset so that it is offered again."""
+    if not path:
+        return None
+    from explorer.data.load import read_crosswalk
+
+    table = read_crosswalk(path)
+    return dict(zip(table["region"], table["boundary_id"], strict=True))
 
 
 def name_suggestions(panel) -> list[str]:

@@ -275,3 +275,22 @@ def test_measure_option_says_what_undescribed_values_are(tmp_path):
     read = read_panel_table(path, options=ReadOptions(measure="population"))
     assert list(read.frame.columns) == ["region", "year", "population"]
     assert read.frame["population"].tolist() == [12400.0, 12600.0, 8300.0, 8350.0]
+
+
+def test_check_save_stores_the_crosswalk_with_the_dataset(tmp_path, capsys):
+    from explorer.data.workspace import Workspace
+
+    walk = tmp_path / "walk.csv"
+    walk.write_text("region,boundary_id\nLower Marsh,LM-01\n", encoding="utf-8")
+    clean = tmp_path / "clean.csv"
+    text = ACROSS.read_text(encoding="utf-8-sig").replace("(D)", '"15,000"')
+    clean.write_text(text.replace("..", '"9,900"'), encoding="utf-8")
+    ws = tmp_path / "ws"
+    code, out, err = run(
+        capsys, "check", str(clean), "--crosswalk", str(walk), "--save", "--data", str(ws)
+    )
+    assert code == cli.EXIT_OK, err
+    ident = out.strip().splitlines()[-1].split()[3]
+    workspace = Workspace(ws)
+    assert workspace.options(ident)["crosswalk"] == {"Lower Marsh": "LM-01"}
+    assert "LM-01" in workspace.open(ident).regions
