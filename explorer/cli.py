@@ -32,7 +32,9 @@ DEMO = "demo"
 # --------------------------------------------------------------------------- arguments
 
 
-def _panel_arguments(parser: argparse.ArgumentParser, *, boundaries: bool = True) -> None:
+def _panel_arguments(
+    parser: argparse.ArgumentParser, *, boundaries: bool = True, year: bool = True
+) -> None:
     parser.add_argument(
         "panel", help="panel file (CSV, Parquet, Excel), or 'demo' for the built-in province"
     )
@@ -59,6 +61,7 @@ def _panel_arguments(parser: argparse.ArgumentParser, *, boundaries: bool = True
         action="store_true",
         help="accept negative incomes in unit records (losses); indices undefined for them say so",
     )
+    _office_arguments(parser, year=year)
     if boundaries:
         parser.add_argument("--layer", help="GeoPackage layer to read")
         parser.add_argument(
@@ -67,6 +70,75 @@ def _panel_arguments(parser: argparse.ArgumentParser, *, boundaries: bool = True
         parser.add_argument(
             "--crs", metavar="EPSG", help="coordinate system of a boundary file that names none"
         )
+
+
+def _office_arguments(parser: argparse.ArgumentParser, *, year: bool = True) -> None:
+    """How to read a table as a statistics office publishes it, and what to add to it."""
+    office = parser.add_argument_group("published tables")
+    office.add_argument(
+        "--header-row",
+        type=int,
+        metavar="N",
+        help="line of the column header (default: detected past title and note lines)",
+    )
+    office.add_argument(
+        "--measure",
+        metavar="NAME[,NAME]",
+        help="what the values are when the header does not say, e.g. mean_income "
+        "(several for blocks side by side)",
+    )
+    if year:
+        office.add_argument(
+            "--year",
+            type=int,
+            metavar="YEAR",
+            help="the year of a table for one year with no year column",
+        )
+    office.add_argument(
+        "--keep-totals",
+        action="store_true",
+        help="keep rows recognised as totals (the province, groups of districts) as districts",
+    )
+    office.add_argument(
+        "--population",
+        metavar="FILE",
+        help="second table of district, year, population joined on district and year",
+    )
+    office.add_argument(
+        "--levels",
+        metavar="COL[=Name],...",
+        help="higher levels to use, outermost first, with display names, e.g. "
+        "ZONE=Zone,SUB=Subregion (default: proposed from the text columns that nest "
+        "the districts)",
+    )
+    office.add_argument(
+        "--crosswalk",
+        metavar="FILE",
+        help="table of region,boundary_id renaming the panel's districts to boundary ids",
+    )
+
+
+def _levels(text: str | None) -> dict[str, str] | None:
+    """``a,b=Name`` as {column: display name}; None when not given."""
+    if not text:
+        return None
+    out = {}
+    for part in _split(text):
+        column, _, name = part.partition("=")
+        out[column.strip()] = name.strip() or column.strip()
+    return out
+
+
+def _read_options(args: argparse.Namespace):
+    from explorer.data.office import ReadOptions
+
+    measure = tuple(_split(getattr(args, "measure", None))) or None
+    return ReadOptions(
+        header_row=getattr(args, "header_row", None),
+        measure=measure[0] if measure and len(measure) == 1 else measure,
+        year=getattr(args, "year", None),
+        keep_aggregates=bool(getattr(args, "keep_totals", False)),
+    )
 
 
 def _out_argument(parser: argparse.ArgumentParser) -> None:
@@ -151,9 +223,14 @@ def build_parser() -> argparse.ArgumentParser:
     _out_argument(decompose)
 
     spatial = commands.add_parser("spatial", help="spatial clustering of an index or mean")
-    _panel_arguments(spatial)
+    _panel_arguments(spatial, year=False)
     spatial.add_argument("--index", default="gini", help="index key, or mean_income")
-    spatial.add_argument("--year", type=int, help="year (default: the latest)")
+    spatial.add_argument(
+        "--year",
+        type=int,
+        help="year (default: the latest); also the year of a table for one year with no "
+        "year column",
+    )
     spatial.add_argument("--method", default="auto", help="Lorenz method for grouped data")
     spatial.add_argument("--graph", choices=("queen", "rook", "knn"), default="queen")
     spatial.add_argument("--k", type=int, default=4, help="neighbours for --graph knn")
@@ -180,9 +257,11 @@ def _load(args: argparse.Namespace):
     from explorer import data as readers
 
     if args.panel == DEMO:
-        return readers.demo_panel(args.kind or "brackets")
+        panel = readers.demo_panel(args.kind or "brackets")
+        _report_set_aside(panel)
+        return panel
     column_map = readers.parse_column_map(args.map) if args.map else None
-    return readers.load_panel(
+    panel = readers.load_panel(
         args.panel,
         getattr(args, "boundaries", None),
         kind=args.kind,
@@ -192,12 +271,27 @@ def _load(args: argparse.Namespace):
         sheet=args.sheet,
         layer=getattr(args, "layer", None),
         allow_negative=args.allow_negative,
+        options=_read_options(args),
+        population=getattr(args, "population", None),
+        crosswalk=getattr(args, "crosswalk", None),
+        levels=_levels(getattr(args, "levels", None)),
     )
+    _report_set_aside(panel)
+    return panel
+
+
+def _report_set_aside(panel) -> None:
+    """One line on stderr per district-year set aside, with its reason, and a count."""
+    excluded = panel.excluded
+    for row in excluded.itertuples():
+        print(f"set aside: district {row.region}, year {row.year}: {row.reason}", file=sys.stderr)
+    total = int(len(excluded)) + int(panel.data.groupby(["region", "year"]).ngroups)
+    print(f"{len(excluded)} of {total} district-year(s) set aside", file=sys.stderr)
 
 
 def _inputs(args: argparse.Namespace) -> set[Path]:
     paths = set()
-    for name in ("panel", "boundaries", "view"):
+    for name in ("panel", "boundaries", "view", "population", "crosswalk"):
         value = getattr(args, name, None)
         if value and value != DEMO:
             paths.add(Path(value).resolve())
@@ -252,6 +346,14 @@ def _print_problems(error: DataError) -> None:
         print(_problem_line(problem), file=sys.stderr)
 
 
+#: Words of a reader's message, and the option of this command line that answers it.
+OPTION_HINTS = {
+    "no year column": "--year YEAR",
+    "totals of other rows": "--keep-totals",
+    "not read (line": "--header-row N",
+}
+
+
 def _problem_line(problem: Problem) -> str:
     where = [problem.file or "input"]
     if problem.row is not None:
@@ -261,6 +363,9 @@ def _problem_line(problem: Problem) -> str:
     line = f"{problem.severity}: {', '.join(where)}: {problem.message}"
     if problem.fix:
         line += f" — {problem.fix}"
+    hints = [o for words, o in OPTION_HINTS.items() if words in problem.message]
+    if hints and problem.fix:
+        line += f" ({', '.join(hints)})"
     return line
 
 
@@ -330,7 +435,18 @@ def run_check(args: argparse.Namespace) -> int:
         print(line)
     for problem in panel.warnings:
         print(_problem_line(problem))
-    print("valid")
+    for line in name_suggestions(panel):
+        print(f"names: {line}")
+    set_aside = int(len(panel.excluded))
+    if set_aside:
+        total = set_aside + int(panel.data.groupby(["region", "year"]).ngroups)
+        usable = total - set_aside
+        print(
+            f"not clean: {set_aside} of {total} district-year(s) set aside; "
+            f"{usable} ({usable / total:.0%}) of the panel is usable"
+        )
+    else:
+        print("valid")
     if args.save:
         from explorer.data.workspace import Workspace
 
@@ -339,7 +455,8 @@ def run_check(args: argparse.Namespace) -> int:
                 [Problem("the demo is built in and needs no saving", fix="save your own files")]
             )
         workspace = Workspace(Path(args.data)) if args.data else Workspace()
-        sources = [Path(args.panel)] + ([Path(args.boundaries)] if args.boundaries else [])
+        extra = (args.boundaries, args.population, args.crosswalk)
+        sources = [Path(args.panel)] + [Path(p) for p in extra if p]
         options = {
             "kind": args.kind,
             "column_map": args.map,
@@ -347,10 +464,46 @@ def run_check(args: argparse.Namespace) -> int:
             "crs": args.crs,
             "sheet": args.sheet,
             "layer": args.layer,
+            "reading": _read_options(args).to_dict(),
+            "levels": args.levels,
+            "population": Path(args.population).name if args.population else None,
+            "crosswalk": _crosswalk_pairs(args.crosswalk),
         }
         dataset = workspace.add(panel, sources, options)
         print(f"saved as dataset {dataset} in {workspace.root}")
-    return EXIT_OK
+    return EXIT_BAD_INPUT if set_aside else EXIT_OK
+
+
+def _crosswalk_pairs(path: str | None) -> dict[str, str] | None:
+    """The crosswalk file as pairs, stored with the dataset so that it is offered again."""
+    if not path:
+        return None
+    from explorer.data.load import read_crosswalk
+
+    table = read_crosswalk(path)
+    return dict(zip(table["region"], table["boundary_id"], strict=True))
+
+
+def name_suggestions(panel) -> list[str]:
+    """For panel districts the boundaries lack: the boundary districts they look like."""
+    from explorer.data.office import match_names
+
+    bounds = panel.boundaries
+    if bounds is None:
+        return []
+    theirs = set(bounds["region"].astype(str))
+    ours = [r for r in panel.regions if r not in theirs]
+    if not ours:
+        return []
+    unused = bounds[~bounds["region"].astype(str).isin(set(panel.regions))]
+    names = unused["name"] if "name" in unused.columns else unused["region"]
+    found = match_names(
+        ours, dict(zip(unused["region"].astype(str), names.astype(str), strict=True))
+    )
+    lines = found.messages()
+    if found.suggestions:
+        lines.append("to accept suggestions, give --crosswalk FILE with columns region,boundary_id")
+    return lines
 
 
 def run_compute(args: argparse.Namespace) -> int:

@@ -17,23 +17,32 @@ upload_tab, stored_tab, out_tab = st.tabs(
 with upload_tab:
     st.markdown(
         "A **panel** has one row per district, year and income group (or per household, or "
-        "one mean per district). CSV, Excel or Parquet. **Boundaries** are optional: "
-        "GeoJSON, GeoPackage, a zipped Shapefile or GeoParquet. Your files are read in this "
+        "one mean per district), or is a table as a statistics office publishes it (years "
+        "across the columns, notes above and below). CSV, Excel or Parquet. **Boundaries** "
+        "are optional: GeoJSON, GeoPackage, a Shapefile (zipped, or its parts together) or "
+        "GeoParquet. Your files are read in this "
         "browser session only; nobody else sees them until you save them to the workspace."
     )
     panel_file = st.file_uploader(
         "Panel file", type=["csv", "txt", "tsv", "xlsx", "parquet"], key="intake_panel"
     )
-    boundary_file = st.file_uploader(
-        "Boundary file (optional)",
-        type=["geojson", "json", "gpkg", "zip", "parquet"],
+    boundary_files = st.file_uploader(
+        "Boundary file (optional): one file, or the parts of a Shapefile together "
+        "(.shp, .shx, .dbf, .prj, .cpg)",
+        type=["geojson", "json", "gpkg", "zip", "parquet", "shp", "shx", "dbf", "prj", "cpg"],
+        accept_multiple_files=True,
         key="intake_boundaries",
     )
+    population_file = st.file_uploader(
+        "Populations (optional): a table of district, year and population",
+        type=["csv", "txt", "tsv", "xlsx"],
+        key="intake_population",
+    )
     if panel_file is not None:
-        options = intake.reading_options(panel_file, boundary_file)
+        options = intake.reading_options(panel_file, boundary_files, population_file)
         if st.button("Read and check", type="primary", key="intake_read"):
             try:
-                loaded = intake.read_upload(panel_file, boundary_file, options)
+                loaded = intake.read_upload(panel_file, boundary_files, options, population_file)
             except DataError as error:
                 ui.problems(error, heading="The files could not be used")
             else:

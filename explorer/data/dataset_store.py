@@ -36,7 +36,16 @@ from explorer.data.atomic import (
 from explorer.data.model import KIND_COLUMNS, DataError, Panel, Problem, fail
 from explorer.data.naming import as_text, display_name
 
-__all__ = ["ENV_VAR", "SCHEMA_VERSION", "DatasetStore", "Source", "dataset_id"]
+__all__ = [
+    "ENV_VAR",
+    "SCHEMA_VERSION",
+    "UNITS",
+    "DatasetFacts",
+    "DatasetStore",
+    "Source",
+    "dataset_id",
+    "equal_weight_notice",
+]
 
 SCHEMA_VERSION = 1
 ENV_VAR = "RIFT_DATA"
@@ -46,6 +55,85 @@ _TABLES = ("data", "hierarchy", "excluded")
 _LIST_COLUMNS = ("id", "name", "kind", "districts", "years", "created")
 
 Source = Path | str | tuple[str, bytes]
+
+
+#: What one income figure is per: the planner's choice on saving.
+UNITS = ("person", "household", "per capita")
+
+
+@dataclasses.dataclass(frozen=True)
+class DatasetFacts:
+    """What a dataset is, in the planner's words, for every caption, report and view file.
+
+    Stored under ``facts`` in the manifest; a manifest written before facts existed opens
+    with all of them empty (nothing else about the format changed, so the schema version
+    stays the same).
+
+    Attributes
+    ----------
+    name : str
+        The dataset's name as the planner gives it.
+    income_concept : str
+        E.g. "disposable household income".
+    unit : str
+        One of :data:`UNITS`, or empty when not given.
+    currency, price_base : str
+        E.g. "crowns" and "2015 prices" (or "current prices").
+    source : str
+        Where the figures come from, as the planner writes it.
+    """
+
+    name: str = ""
+    income_concept: str = ""
+    unit: str = ""
+    currency: str = ""
+    price_base: str = ""
+    source: str = ""
+
+    def __post_init__(self) -> None:
+        if self.unit and self.unit not in UNITS:
+            raise fail(
+                f"unknown unit {self.unit!r}.",
+                f"Choose one of: {', '.join(UNITS)}.",
+            )
+
+    def to_dict(self) -> dict[str, str]:
+        """Plain values for the manifest."""
+        return dataclasses.asdict(self)
+
+    @classmethod
+    def from_dict(cls, values: Any) -> DatasetFacts:
+        """Facts from a manifest; unknown keys and non-text values are left out."""
+        if not isinstance(values, dict):
+            return cls()
+        known = {f.name for f in dataclasses.fields(cls)}
+        clean = {k: v for k, v in values.items() if k in known and isinstance(v, str)}
+        if clean.get("unit") not in (None, "", *UNITS):
+            clean.pop("unit")
+        return cls(**clean)
+
+    def caption(self) -> str:
+        """One line for a caption: concept, unit, money and source, what was given."""
+        money = ", ".join(p for p in (self.currency, self.price_base) if p)
+        unit = f"per {self.unit}" if self.unit and self.unit != "per capita" else self.unit
+        parts = [p for p in (self.income_concept, unit, money) if p]
+        line = "; ".join(parts)
+        if self.source:
+            line = f"{line}. Source: {self.source}" if line else f"Source: {self.source}"
+        return line
+
+
+def equal_weight_notice(panel: Panel) -> str | None:
+    """The notice that each district counts equally, for a means panel with no populations."""
+    if panel.kind != "means" or "population" not in panel.data.columns:
+        return None
+    if panel.data["population"].notna().any():
+        return None
+    return (
+        "This panel has no populations: where districts are pooled, each district counts "
+        "equally, whatever its size. Add a table of populations (district, year, "
+        "population) to weight them."
+    )
 
 
 def _canonical_options(options: dict[str, Any] | None) -> dict[str, Any]:
@@ -151,7 +239,13 @@ class DatasetStore:
             return []
         return sorted(self.datasets_dir / n for n in names if _ID_RE.match(n))
 
-    def add(self, panel: Panel, sources: Sequence[Source], options: dict[str, Any]) -> str:
+    def add(
+        self,
+        panel: Panel,
+        sources: Sequence[Source],
+        options: dict[str, Any],
+        facts: DatasetFacts | None = None,
+    ) -> str:
         """Store a validated panel and return its dataset id.
 
         Parameters
@@ -162,13 +256,17 @@ class DatasetStore:
             The input files exactly as read: paths on disk or uploads as (name, bytes).
             Only read, never changed.
         options : dict
-            The read options used (kind, column map, boundary id, crs, sheet, layer).
+            The read options used (kind, column map, boundary id, crs, sheet, layer,
+            office reading options, crosswalk, levels).
+        facts : DatasetFacts, optional
+            Name, income concept, unit, currency and price base, source. They do not
+            change the id: adding the same dataset with other facts updates the facts.
 
         Returns
         -------
         str
             The dataset id. Adding the same sources with the same options again returns
-            the same id and writes nothing.
+            the same id and writes nothing but changed facts.
 
         Raises
         ------
@@ -180,6 +278,8 @@ class DatasetStore:
         ident = _dataset_id(hashed, canonical, str(panel.fingerprint))
         final = self.datasets_dir / ident
         if final.is_dir() and self._complete(final):
+            if facts is not None and facts != self.facts(ident):
+                self.set_facts(ident, facts)
             return ident
 
         tmp = self.datasets_dir / temp_name()
@@ -193,6 +293,8 @@ class DatasetStore:
                 sources=[{"name": n, "sha256": h, "bytes": b} for n, h, b in hashed],
                 options=canonical,
             )
+            if facts is not None:
+                manifest.update(_facts_fields(facts))
             (tmp / _MANIFEST).write_text(json.dumps(manifest, indent=2), encoding="utf-8")
             fsync_file(tmp / _MANIFEST)
             fsync_dir(tmp)
@@ -207,6 +309,31 @@ class DatasetStore:
                 shutil.rmtree(tmp, ignore_errors=True)
         self._index_entries()
         return ident
+
+    def facts(self, ident: str) -> DatasetFacts:
+        """The stored facts of a dataset (empty ones for a dataset stored without)."""
+        manifest = self._manifest(ident)
+        facts = DatasetFacts.from_dict(manifest.get("facts"))
+        return facts
+
+    def options(self, ident: str) -> dict[str, Any]:
+        """The read options a dataset was stored with (crosswalk, levels, reading)."""
+        options = self._manifest(ident).get("options")
+        return dict(options) if isinstance(options, dict) else {}
+
+    def set_facts(self, ident: str, facts: DatasetFacts) -> None:
+        """Replace a dataset's facts (atomically); name and income concept follow them."""
+        manifest = self._manifest(ident)
+        manifest.update(_facts_fields(facts))
+        path = self.datasets_dir / ident / _MANIFEST
+        try:
+            write_text_atomic(path, json.dumps(manifest, indent=2))
+        except OSError as exc:
+            raise fail(
+                f"Cannot save the dataset's facts in {self.root}: {exc.strerror or exc}.",
+                f"Point {ENV_VAR} at a writable directory.",
+            ) from None
+        self._index_entries()
 
     def _move_into_place(self, tmp: Path, final: Path) -> None:
         try:
@@ -536,6 +663,17 @@ class DatasetStore:
         fsync_dir(self.datasets_dir)
         shutil.rmtree(trash, ignore_errors=True)
         self._index_entries()
+
+
+def _facts_fields(facts: DatasetFacts) -> dict[str, Any]:
+    """Manifest fields for the facts: the facts themselves, and the name and income
+    concept the panel opens with when the planner gave them."""
+    fields: dict[str, Any] = {"facts": facts.to_dict()}
+    if facts.name:
+        fields["name"] = facts.name
+    if facts.income_concept:
+        fields["income_concept"] = facts.income_concept
+    return fields
 
 
 def _problem_record(problem: Any) -> dict[str, Any]:

@@ -18,12 +18,29 @@ import pandas as pd
 import platformdirs
 
 from explorer.data.atomic import clean_leftovers
-from explorer.data.dataset_store import ENV_VAR, SCHEMA_VERSION, DatasetStore, Source, dataset_id
+from explorer.data.dataset_store import (
+    ENV_VAR,
+    SCHEMA_VERSION,
+    UNITS,
+    DatasetFacts,
+    DatasetStore,
+    Source,
+    dataset_id,
+    equal_weight_notice,
+)
 from explorer.data.model import Panel, fail
 from explorer.data.naming import safe_name
 from explorer.data.view_store import ViewStore
 
-__all__ = ["SCHEMA_VERSION", "Workspace", "dataset_id", "safe_name"]
+__all__ = [
+    "SCHEMA_VERSION",
+    "UNITS",
+    "DatasetFacts",
+    "Workspace",
+    "dataset_id",
+    "equal_weight_notice",
+    "safe_name",
+]
 
 
 class Workspace:
@@ -72,9 +89,27 @@ class Workspace:
     def __repr__(self) -> str:
         return f"Workspace({str(self.root)!r})"
 
-    def add(self, panel: Panel, sources: Sequence[Source], options: dict[str, Any]) -> str:
-        """Store a validated panel; see :meth:`DatasetStore.add`."""
-        return self.datasets.add(panel, sources, options)
+    def add(
+        self,
+        panel: Panel,
+        sources: Sequence[Source],
+        options: dict[str, Any],
+        facts: DatasetFacts | None = None,
+    ) -> str:
+        """Store a validated panel with its facts; see :meth:`DatasetStore.add`."""
+        return self.datasets.add(panel, sources, options, facts)
+
+    def facts(self, ident: str) -> DatasetFacts:
+        """The dataset's facts (name, concept, unit, money, source); empty for old ones."""
+        return self.datasets.facts(ident)
+
+    def set_facts(self, ident: str, facts: DatasetFacts) -> None:
+        """Replace the dataset's facts; see :meth:`DatasetStore.set_facts`."""
+        self.datasets.set_facts(ident, facts)
+
+    def options(self, ident: str) -> dict[str, Any]:
+        """The options the dataset was read with, its crosswalk and levels among them."""
+        return self.datasets.options(ident)
 
     def open(self, ident: str) -> Panel:
         """Read a stored dataset back; see :meth:`DatasetStore.open`."""

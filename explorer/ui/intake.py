@@ -18,6 +18,7 @@ from explorer.ui import data, show, state
 
 __all__ = [
     "apply_view_file",
+    "dataset_facts",
     "read_upload",
     "reading_options",
     "report_html",
@@ -53,21 +54,35 @@ def _safe_name(name: str) -> str:
 
 
 @contextmanager
-def _on_disk(*files: Any) -> Iterator[list[Path | None]]:
+def _on_disk(*files: Any) -> Iterator[list[Any]]:
     """The uploads as files in a private temporary folder, removed afterwards.
 
-    The readers work on paths; the folder lives only while the files are read.
+    The readers work on paths; the folder lives only while the files are read. A list
+    of uploads (the parts of one Shapefile) becomes a list of paths.
     """
     with tempfile.TemporaryDirectory(prefix="rift-upload-") as folder:
-        paths: list[Path | None] = []
+        paths: list[Any] = []
         for upload in files:
             if upload is None:
                 paths.append(None)
-                continue
-            path = Path(folder) / _safe_name(upload.name)
-            path.write_bytes(upload.getvalue())
-            paths.append(path)
+            elif isinstance(upload, list):
+                written = [_write(Path(folder), u) for u in upload]
+                paths.append(written[0] if len(written) == 1 else written or None)
+            else:
+                paths.append(_write(Path(folder), upload))
         yield paths
+
+
+def _write(folder: Path, upload: Any) -> Path:
+    path = folder / _safe_name(upload.name)
+    path.write_bytes(upload.getvalue())
+    return path
+
+
+def _as_list(files: Any) -> list[Any]:
+    if files is None:
+        return []
+    return list(files) if isinstance(files, list | tuple) else [files]
 
 
 @st.cache_data(show_spinner=False, max_entries=16)
@@ -84,81 +99,307 @@ def _columns(name: str, file_id: str, scope: str, _content: bytes) -> list[str]:
             return []
 
 
-def reading_options(panel_file: Any, boundary_file: Any) -> dict[str, Any]:
-    """Controls for how to read the files; returns the options for ``load_panel``."""
+@st.cache_data(show_spinner="Looking at the files…", max_entries=16)
+def _preview(key: str, scope: str, _panel: Any, _boundaries: list[Any], choices: str):
+    # Keyed by the uploads' ids and the choices (as JSON), not by the files' bytes.
+    from explorer.data.office import ReadOptions
+    from explorer.data.office.preview import preview_inputs
+
+    chosen = json.loads(choices)
+    reading = ReadOptions.from_dict(chosen.pop("reading"))
+    with _on_disk(_panel, _boundaries or None) as (panel_path, boundary_path):
+        return preview_inputs(panel_path, boundary_path, options=reading, **chosen)
+
+
+def _file_key(*uploads: Any) -> str:
+    return "|".join(f"{u.name}:{getattr(u, 'file_id', '')}:{u.size}" for u in uploads)
+
+
+MEASURES = {
+    "": "Detect from the headers",
+    "mean_income": "Mean income",
+    "population": "Population",
+    "gini": "Gini index (as published)",
+}
+
+
+def _office_choices() -> Any:
+    """The planner's overrides of the office reading: header line, measure, year, totals."""
+    from explorer.data.office import ReadOptions
+
+    st.markdown("**Change the reading** (only where it was misunderstood)")
+    left, middle, right = st.columns(3)
+    header = left.number_input(
+        "Header on line (0: detect)", min_value=0, max_value=10_000, step=1, key="in_header"
+    )
+    measure = middle.selectbox(
+        "The values are", list(MEASURES), format_func=MEASURES.get, key="in_measure"
+    )
+    year = right.number_input(
+        "Year of a one-year table (0: the table has its years)",
+        min_value=0,
+        max_value=2200,
+        step=1,
+        key="in_year",
+    )
+    keep = st.checkbox(
+        "Keep rows recognised as totals as districts", key="in_keep_totals", value=False
+    )
+    return ReadOptions(
+        header_row=int(header) or None,
+        measure=measure or None,
+        year=int(year) or None,
+        keep_aggregates=bool(keep),
+    )
+
+
+def _understood(preview: Any) -> None:
+    """What the readers understood, in words, before anything is used."""
+    if preview.office:
+        st.markdown("**What was understood of the table**")
+        st.markdown("\n".join(f"- {show.plain(line)}" for line in preview.lines))
+    for problem in preview.problems:
+        show.notice(f"{problem.file + ': ' if problem.file else ''}{problem.message}", "warning")
+
+
+def _level_choices(preview: Any) -> dict[str, str] | None:
+    """Proposed levels as checkboxes with group counts, an order and display names."""
+    if not preview.levels:
+        return None
+    st.markdown(
+        "**Higher levels** — columns that put every district in exactly one group. "
+        "Tick the ones to use, give each a name and an order (1 = outermost)."
+    )
+    chosen = []
+    for i, candidate in enumerate(preview.levels):
+        tick, name, order = st.columns([3, 3, 1])
+        used = tick.checkbox(
+            show.plain(
+                f"{candidate.column}: {candidate.groups} groups (from the {candidate.source})"
+            ),
+            value=True,
+            key=f"in_level_{candidate.column}",
+        )
+        shown = name.text_input(
+            "Name shown", value=_readable(candidate.column), key=f"in_level_name_{candidate.column}"
+        )
+        rank = order.number_input(
+            "Order",
+            min_value=1,
+            max_value=20,
+            value=i + 1,
+            key=f"in_level_order_{candidate.column}",
+        )
+        if used:
+            chosen.append((int(rank), i, candidate.column, shown.strip() or candidate.column))
+    return {column: shown for _, _, column, shown in sorted(chosen)}
+
+
+CODE_WORDS = {"cd", "code", "id", "nm", "name", "txt"}
+
+
+def _readable(column: str) -> str:
+    """A first guess at a display name, words instead of a code: ``ZONE_CD`` -> Zone,
+    ``SUB_REGION`` -> Sub region. The planner edits it."""
+    words = column.replace("_", " ").replace("-", " ").split()
+    while len(words) > 1 and words[-1].lower() in CODE_WORDS:
+        words.pop()
+    text = " ".join(words)
+    if column.isupper() or "_" in column:
+        text = text.capitalize()
+    return text or column
+
+
+def _name_choices(preview: Any, known: dict[str, str]) -> dict[str, str]:
+    """Suggested name matches the planner accepts; returns the crosswalk panel -> boundary id."""
+    names = preview.names
+    accepted = {p: b for p, b in known.items() if names is None or p in names.panel_only}
+    if names is None or not names.suggestions:
+        return accepted
+    st.markdown("**Districts whose names differ between the files**")
+    for panel_name, options in names.suggestions.items():
+        labels = [b for b, _ in options]
+        use = st.checkbox(
+            show.plain(f"'{panel_name}' in the panel is '{labels[0]}' in the boundaries"),
+            value=known.get(panel_name) == labels[0],
+            key=f"in_name_{panel_name}",
+        )
+        if use:
+            accepted[panel_name] = labels[0]
+        else:
+            accepted.pop(panel_name, None)
+    return accepted
+
+
+def _crs_choice(preview: Any) -> str | None:
+    """The coordinate system of a boundary file that names none, from the likely ones."""
+    if not preview.crs_missing:
+        return None
+    st.markdown("**The boundary file names no coordinate system**")
+    options = [c.code for c in preview.crs_candidates] + ["other"]
+    labels = {c.code: f"{c.code} — {c.label} ({c.reason})" for c in preview.crs_candidates}
+    labels["other"] = "Another system (type its EPSG code below)"
+    chosen = st.selectbox("Coordinate system", options, format_func=labels.get, key="in_crs_choice")
+    if "zz" in chosen or chosen == "other":
+        typed = st.text_input(
+            "EPSG code (for UTM: 326 and the zone in the north, 327 in the south, e.g. EPSG:32633)",
+            key="in_crs",
+        )
+        return typed.strip() or None
+    return chosen
+
+
+def reading_options(
+    panel_file: Any, boundary_files: Any = None, population_file: Any = None
+) -> dict[str, Any]:
+    """Controls for how to read the files, with a preview of what was understood.
+
+    Returns the keyword options for ``load_panel`` (the population file is added when
+    the files are read).
+    """
+    boundary_files = _as_list(boundary_files)
     options: dict[str, Any] = {}
     with st.expander("How to read the files", expanded=False):
         kind = st.selectbox("Kind of data", list(KINDS), format_func=KINDS.get, key="in_kind")
         options["kind"] = kind or None
         if panel_file.name.lower().endswith(".xlsx"):
             options["sheet"] = st.text_input("Sheet (empty: the first)", key="in_sheet") or None
-        columns = _columns(
-            panel_file.name,
-            str(getattr(panel_file, "file_id", "")),
-            data.session_scope(),
-            panel_file.getvalue(),
+        _column_choices(panel_file, options)
+        if boundary_files:
+            _boundary_text_choices(boundary_files, options)
+        reading = _office_choices()
+    options["options"] = reading
+    choices = {
+        "reading": reading.to_dict(),
+        "sheet": options.get("sheet"),
+        "column_map": options.get("column_map"),
+        "boundary_id": options.get("boundary_id"),
+        "layer": options.get("layer"),
+        "crs": st.session_state.get("intake_crs_chosen"),
+    }
+    preview = _preview(
+        _file_key(panel_file, *boundary_files),
+        data.session_scope(),
+        panel_file,
+        boundary_files,
+        json.dumps(choices, sort_keys=True, default=str),
+    )
+    _understood(preview)
+    options["crs"] = _crs_choice(preview)
+    st.session_state["intake_crs_chosen"] = options["crs"]
+    crosswalk = _name_choices(preview, _known_crosswalk())
+    options["crosswalk"] = crosswalk or None
+    options["levels"] = _level_choices(preview)
+    if population_file is not None:
+        show.caption(
+            f"Populations will be joined from {population_file.name} on district and year."
         )
-        if columns:
-            st.markdown("**Which column holds what** (leave as is if the names already match)")
-            mapping = {}
-            grid = st.columns(4)
-            for i, target in enumerate(TARGETS):
-                choice = grid[i % 4].selectbox(target, [AS_IS, *columns], key=f"in_map_{target}")
-                if choice != AS_IS and choice != target:
-                    mapping[target] = choice
-            options["column_map"] = mapping or None
-        if boundary_file is not None:
-            if boundary_file.name.lower().endswith(".gpkg"):
-                options["layer"] = st.text_input("Layer (empty: the first)", key="in_layer") or None
-            options["boundary_id"] = (
-                st.text_input(
-                    "Boundary attribute holding the district id (empty: detect)",
-                    key="in_boundary_id",
-                )
-                or None
-            )
-            options["crs"] = (
-                st.text_input(
-                    "Coordinate system if the file has none (e.g. EPSG:3035)", key="in_crs"
-                )
-                or None
-            )
     return options
 
 
-def read_upload(panel_file: Any, boundary_file: Any, options: dict[str, Any]):
+def _column_choices(panel_file: Any, options: dict[str, Any]) -> None:
+    columns = _columns(
+        panel_file.name,
+        str(getattr(panel_file, "file_id", "")),
+        data.session_scope(),
+        panel_file.getvalue(),
+    )
+    if not columns:
+        return
+    st.markdown("**Which column holds what** (leave as is if the names already match)")
+    mapping = {}
+    grid = st.columns(4)
+    for i, target in enumerate(TARGETS):
+        choice = grid[i % 4].selectbox(target, [AS_IS, *columns], key=f"in_map_{target}")
+        if choice != AS_IS and choice != target:
+            mapping[target] = choice
+    options["column_map"] = mapping or None
+
+
+def _boundary_text_choices(boundary_files: list[Any], options: dict[str, Any]) -> None:
+    if any(f.name.lower().endswith(".gpkg") for f in boundary_files):
+        options["layer"] = st.text_input("Layer (empty: the first)", key="in_layer") or None
+    options["boundary_id"] = (
+        st.text_input(
+            "Boundary attribute holding the district id (empty: detect)", key="in_boundary_id"
+        )
+        or None
+    )
+
+
+def _known_crosswalk() -> dict[str, str]:
+    """Name matches accepted before: this session's, then those stored with datasets."""
+    known: dict[str, str] = {}
+    try:
+        workspace = data.workspace()
+        for ident in workspace.list()["id"]:
+            walk = workspace.options(str(ident)).get("crosswalk")
+            if isinstance(walk, dict):
+                known.update({str(k): str(v) for k, v in walk.items()})
+    except DataError:
+        pass
+    known.update(st.session_state.get("intake_crosswalk") or {})
+    return known
+
+
+def _stored_options(options: dict[str, Any], population_file: Any) -> dict[str, Any]:
+    """The options as plain values for the dataset's manifest."""
+    stored = {k: v for k, v in options.items() if v is not None and k != "options"}
+    reading = options.get("options")
+    if reading is not None:
+        stored["reading"] = reading.to_dict()
+    if population_file is not None:
+        stored["population"] = population_file.name
+    return stored
+
+
+def read_upload(
+    panel_file: Any,
+    boundary_files: Any,
+    options: dict[str, Any],
+    population_file: Any = None,
+):
     """Read and validate the uploaded files; raises DataError with every problem."""
     from explorer import data as readers
 
+    boundary_files = _as_list(boundary_files)
+    st.session_state["intake_crosswalk"] = options.get("crosswalk") or {}
     with st.status("Reading and checking the files…", expanded=True) as status:
-        with _on_disk(panel_file, boundary_file) as (panel_path, boundary_path):
+        with _on_disk(panel_file, boundary_files or None, population_file) as paths:
+            panel_path, boundary_path, population_path = paths
             show.caption(f"Reading {panel_file.name}…")
             try:
-                loaded = readers.load_panel(panel_path, boundary_path, **options)
+                loaded = readers.load_panel(
+                    panel_path, boundary_path, population=population_path, **options
+                )
             except DataError:
                 status.update(label="The files have problems", state="error")
                 raise
             except Exception as error:  # a reader failure must still read as a data problem
                 status.update(label="The files could not be read", state="error")
-                from explorer.data.model import Problem
-
-                raise DataError(
-                    (
-                        Problem(
-                            message=f"the file could not be read ({type(error).__name__})",
-                            fix="check that the file is a CSV, Excel, Parquet or boundary "
-                            "file of the kind its name says",
-                            file=panel_file.name,
-                        ),
-                    )
-                ) from error
+                raise _unreadable(panel_file.name, error) from error
         status.update(label=f"Read {loaded.data.shape[0]:,} rows", state="complete")
+    uploads = [panel_file, *boundary_files] + ([population_file] if population_file else [])
     st.session_state.setdefault("rift_upload_sources", {})[loaded.fingerprint] = (
-        [(panel_file.name, panel_file.getvalue())]
-        + ([(boundary_file.name, boundary_file.getvalue())] if boundary_file else []),
-        {k: v for k, v in options.items() if v is not None},
+        [(u.name, u.getvalue()) for u in uploads],
+        _stored_options(options, population_file),
     )
     return loaded
+
+
+def _unreadable(name: str, error: Exception) -> DataError:
+    from explorer.data.model import Problem
+
+    return DataError(
+        (
+            Problem(
+                message=f"the file could not be read ({type(error).__name__})",
+                fix="check that the file is a CSV, Excel, Parquet or boundary "
+                "file of the kind its name says",
+                file=name,
+            ),
+        )
+    )
 
 
 def summary(panel: Any, dataset_id: str) -> None:
@@ -194,16 +435,22 @@ def summary(panel: Any, dataset_id: str) -> None:
                 "reason": "Why it was left out",
             },
         )
+    from explorer.data.workspace import equal_weight_notice
+
+    notice = equal_weight_notice(panel)
+    if notice:
+        st.info(notice + " Bring the populations in with the population table above.")
     sources, options = st.session_state.get("rift_upload_sources", {}).get(
         panel.fingerprint, ([], {})
     )
+    facts = dataset_facts(panel)
     if st.button(
         "Save to the shared workspace",
         key="intake_save",
         help="Makes this dataset available to everyone using this workspace.",
     ):
         try:
-            saved = data.workspace().add(panel, sources, options)
+            saved = data.workspace().add(panel, sources, options, facts)
         except DataError as error:
             show.problems(error, heading="The dataset could not be saved")
         else:
@@ -211,6 +458,45 @@ def summary(panel: Any, dataset_id: str) -> None:
             state.update(dataset=saved)
             st.session_state["intake_last"] = None
             st.rerun()
+
+
+UNIT_LABELS = {
+    "": "Not stated",
+    "person": "Per person",
+    "household": "Per household",
+    "per capita": "Per capita (household income divided by its members)",
+}
+
+
+def dataset_facts(panel: Any):
+    """The facts the planner gives or confirms before saving: name, concept, unit, money,
+    source. Shown in captions, the report and the view file."""
+    from explorer.data.workspace import DatasetFacts
+
+    st.markdown("**About this dataset** (shown with every figure made from it)")
+    left, right = st.columns(2)
+    name = left.text_input("Name", value=panel.name, key="facts_name")
+    concept = right.text_input(
+        "Income concept (e.g. disposable household income)",
+        value=panel.income_concept,
+        key="facts_concept",
+    )
+    unit = left.selectbox(
+        "Income per", list(UNIT_LABELS), format_func=UNIT_LABELS.get, key="facts_unit"
+    )
+    currency = right.text_input("Currency", key="facts_currency")
+    price_base = left.text_input(
+        "Price base (e.g. current prices, 2015 prices)", key="facts_prices"
+    )
+    source = right.text_input("Source", key="facts_source")
+    return DatasetFacts(
+        name=name.strip(),
+        income_concept=concept.strip(),
+        unit=unit,
+        currency=currency.strip(),
+        price_base=price_base.strip(),
+        source=source.strip(),
+    )
 
 
 SUMMARY_ITEMS = {

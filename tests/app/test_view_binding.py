@@ -22,6 +22,7 @@ NOT_VIEW_SETTINGS = {
     "atlas_map": "a click on the map opens that district's sheet (the view's districts)",
     "intake_panel": "a file on the planner's own machine; a link cannot carry a file",
     "intake_boundaries": "a file on the planner's own machine; a link cannot carry a file",
+    "intake_population": "a file on the planner's own machine; a link cannot carry a file",
     "out_view_in": "a view file to apply; what it holds becomes the view",
     "out_view_name": "the name a view is saved under, not part of what is looked at",
     "intake_stored": "picks a stored dataset to open; the dataset then is the view's dataset",

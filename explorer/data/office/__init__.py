@@ -121,6 +121,8 @@ class OfficeTable:
         The options that reproduce this reading.
     published : Published
         Whether the table holds published indices, and their scales.
+    lines : tuple of int
+        The file line of each row of ``table`` (a table read from one sheet), else empty.
     """
 
     table: pd.DataFrame
@@ -131,6 +133,7 @@ class OfficeTable:
     aggregates: pd.DataFrame
     options: ReadOptions
     published: Published = field(default_factory=lambda: Published(False, ()))
+    lines: tuple[int, ...] = ()
 
     def summary(self) -> list[str]:
         """What was understood, one sentence a line, for a preview before the table is used."""
@@ -160,7 +163,7 @@ def _skipped_notes(frame: Frame, sheet: str | None, file: str) -> tuple[list, li
             "above",
             frame.above,
             "above the header (titles, notes)",
-            "Give header_row if the header is elsewhere.",
+            "Give the line of the header if it is elsewhere.",
         ),
         ("among", frame.between, "among the data without values", ""),
         ("below", frame.below, "below the data (sources, footnotes)", ""),
@@ -245,7 +248,7 @@ def _aggregate_notes(aggregates: pd.DataFrame, keep: bool, file: str) -> list[Pr
     return [
         Problem(
             f"{len(rows)} row(s) are totals of other rows: {shown}{more}. {tail}",
-            "" if keep else "Use keep_aggregates to keep them as districts.",
+            "" if keep else "Choose to keep total rows if they are districts after all.",
             file=file,
             severity="warning",
         )
@@ -358,6 +361,7 @@ def read_office_table(
     headers = {k: v for t in tidies for k, v in t.headers.items()}
     percent = {c for t in tidies for c in t.percent}
     out = kept.drop(columns="line").reset_index(drop=True)
+    lines = tuple(int(n) for n in kept["line"]) if len(readings) == 1 else ()
     return OfficeTable(
         out,
         layout,
@@ -367,4 +371,5 @@ def read_office_table(
         aggregates,
         detected,
         recognise_published(out, headers, percent),
+        lines,
     )

@@ -146,7 +146,7 @@ def find_frame(grid: Grid, decimal: str, header_row: int | None, file: str) -> F
     if h is None:
         raise fail(
             "no header line was found above the data.",
-            "Add a line naming the columns (district, years or measures), or give header_row.",
+            "Add a line naming the columns (district, years or measures), or give the header line.",
             file=file,
             row=lines[start][0],
         )

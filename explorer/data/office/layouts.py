@@ -317,7 +317,7 @@ def _by_columns(
     if year_col is None and year is None:
         raise fail(
             "the table has no year column and no years across its columns.",
-            "Say which year the table is for (year=..., --year 1990 on the command line).",
+            "Say which year the table is for: it is never guessed.",
             file=notes.file,
         )
     values = [j for j in range(len(header)) if j not in labels and j != year_col]
