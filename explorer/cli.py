@@ -431,6 +431,8 @@ def summary_lines(summary: dict) -> list[str]:
 def run_check(args: argparse.Namespace) -> int:
     """Validate and print a summary (or every problem)."""
     panel = _load(args)
+    for line in reading_lines(args):
+        print(f"read as: {line}")
     for line in summary_lines(panel.describe()):
         print(line)
     for problem in panel.warnings:
@@ -472,6 +474,24 @@ def run_check(args: argparse.Namespace) -> int:
         dataset = workspace.add(panel, sources, options)
         print(f"saved as dataset {dataset} in {workspace.root}")
     return EXIT_BAD_INPUT if set_aside else EXIT_OK
+
+
+def reading_lines(args: argparse.Namespace) -> list[str]:
+    """What was understood of a table read as an office publishes it (layout, header line,
+    measures); nothing for a tidy table or the demo."""
+    from explorer.data.load import read_panel_table
+
+    if args.panel == DEMO:
+        return []
+    try:
+        read = read_panel_table(
+            args.panel, sheet=args.sheet, column_map=args.map, options=_read_options(args)
+        )
+    except DataError:  # the panel was read already; this is only its account
+        return []
+    if read.reading is None:
+        return []
+    return read.reading.summary()[:2]
 
 
 def _crosswalk_pairs(path: str | None) -> dict[str, str] | None:

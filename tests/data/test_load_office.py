@@ -137,6 +137,8 @@ def test_check_names_each_set_aside_district_year_and_exits_two(capsys):
     assert "set aside: district Brindle Cove, year 2001" in err
     assert "2 of 15 district-year(s) set aside" in err
     assert "13 (87%) of the panel is usable" in out
+    assert "read as: Layout: one line per district, years across the columns." in out
+    assert "read as: Header on line 4; measures: mean_income." in out
 
 
 def test_check_of_a_clean_office_table_exits_zero(tmp_path, capsys):
