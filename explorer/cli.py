@@ -652,7 +652,11 @@ def run_report(args: argparse.Namespace) -> int:
                 )
             ]
         )
-    html = figures.report_for_view(view, data_dir=args.data)
+    from explorer.data import catalog
+
+    panel = catalog.open_dataset(view.dataset, args.data)
+    _report_set_aside(panel)
+    html = figures.report_html(view, panel)
     out.parent.mkdir(parents=True, exist_ok=True)
     temporary = out.with_name(f".{out.name}.part")
     temporary.write_text(html, encoding="utf-8")

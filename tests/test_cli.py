@@ -376,3 +376,33 @@ def test_formula_cells_are_quoted_in_csv_out_and_on_stdout_but_raw_in_parquet(tm
         assert back["region"].tolist() == ["'=HYPERLINK(1)", "'@SUM(A1)", "Orlen"]
         assert back["value"].tolist() == [-0.5, 0.25, 1.0]
     pd.testing.assert_frame_equal(pd.read_parquet(tmp_path / "t.parquet"), table)
+
+
+def test_report_names_every_district_year_set_aside_on_stderr(tmp_path, capsys):
+    """Nothing is dropped silently: the report's dataset has one district-year whose shares
+    sum to about 1.35, and `rift report` names it with its reason and counts it."""
+    from explorer import views
+    from explorer.data.workspace import Workspace
+
+    panel_path, boundary_path = readers.demo_paths("brackets")
+    frame = pd.read_csv(panel_path)
+    hit = (frame["region"] == "CAL03") & (frame["year"] == 2015)
+    frame.loc[hit, "share_3"] = 0.4
+    damaged = tmp_path / "deciles.csv"
+    frame.to_csv(damaged, index=False)
+    panel = readers.load_panel(damaged, boundary_path)
+    ident = Workspace(tmp_path / "ws").add(panel, [damaged, boundary_path], {})
+    view_file = tmp_path / "view.json"
+    view_file.write_text(views.ViewState(dataset=ident).to_json(), encoding="utf-8")
+    code, _, err = run(
+        capsys,
+        "report",
+        str(view_file),
+        "--out",
+        str(tmp_path / "r.html"),
+        "--data",
+        str(tmp_path / "ws"),
+    )
+    assert code == 0, err
+    assert "set aside: district CAL03, year 2015:" in err
+    assert f"1 of {46 * 18} district-year(s) set aside" in err

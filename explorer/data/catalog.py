@@ -43,8 +43,9 @@ def open_stored(dataset_id: str, data_dir: str | Path | None = None) -> Panel:
             [
                 Problem(
                     f"the view's dataset {dataset_id!r} is not in the workspace",
-                    fix="name the workspace that holds it with --data DIR, or save the "
-                    "dataset there from the app's Intake page first",
+                    fix="open the workspace folder that holds it (on the command line: "
+                    "--data DIR; for the app: the folder it was started with), or save the "
+                    "dataset there from the Intake page first",
                 )
             ]
         )
