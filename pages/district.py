@@ -11,6 +11,7 @@ from explorer.present import charts, vocabulary
 opened = ui.open_view()
 view, panel = opened.view, opened.panel
 st.title("District sheet")
+ui.caption(vocabulary.describe_view(view, panel))
 
 district_names = names(panel)
 labels = dict(zip(district_names["region"], district_names["name"], strict=True))

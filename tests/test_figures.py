@@ -176,3 +176,21 @@ def test_convergence_slope_matches_a_least_squares_fit_of_the_points(means):
     slope = np.polyfit(points["log_initial"], points["growth"], 1)[0]
     assert trend.beta.result.beta == pytest.approx(slope, rel=1e-9)
     assert trend.sentence.startswith("β = ")
+
+
+def test_a_group_filter_keeps_exactly_the_districts_of_the_chosen_counties(demo):
+    # common practice: a filter keeps every district of the chosen groups and no other
+    level = demo.levels[-1]
+    chosen = sorted(demo.hierarchy[level].unique())[:2]
+    cut = figures.narrow(demo, chosen)
+    expected = set(demo.hierarchy.loc[demo.hierarchy[level].isin(chosen), "region"])
+    assert set(cut.regions) == expected and 0 < len(expected) < len(demo.regions)
+    assert set(cut.boundaries["region"]) == expected
+    assert cut.fingerprint != demo.fingerprint
+    assert figures.narrow(demo, ()) is demo
+    view = figures.settle(ViewState(counties=tuple(chosen)), cut)
+    shown = figures.atlas(cut, view, PlainCompute(cut))
+    assert set(shown.ranking["region"]) == expected
+    assert f"only the districts of the {vocabulary.groups_word(level)}" in vocabulary.caption(
+        view, cut
+    )
