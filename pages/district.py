@@ -26,6 +26,7 @@ ui.control(
     format_func=lambda region: f"{labels.get(region, region)} ({region})",
     to_view=lambda region: (region,),
     from_view=lambda chosen: chosen[0] if chosen else regions[0],
+    help=vocabulary.FIND_HELP,
 )
 view = ui.current_view()
 sheet = figures.district(panel, view, opened.compute)

@@ -27,6 +27,7 @@ __all__ = [
     "COLUMN_LABELS",
     "DECOMPOSABLE",
     "DEMO_DATASETS",
+    "FIND_HELP",
     "FIT_COLUMNS",
     "INDEX_COLUMNS",
     "INDEX_LABELS",
@@ -193,6 +194,8 @@ CLASS_HELP = (
     "values inside each class as close together as possible, so gaps in the data become "
     "class boundaries."
 )
+
+FIND_HELP = "Type part of a district's name or its code to find it in the list."
 
 LAYER_LABELS = {"index": "Index", "clusters": "Local clusters"}
 LAYER_HELP = (
