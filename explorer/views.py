@@ -11,7 +11,7 @@ Link keys (short, so links stay readable):
 key        field                   form
 ========== ======================= ================================================
 ``d``      ``dataset``             dataset id
-``pg``     ``page``                atlas, timelines, breakdown, district, intake
+``pg``     ``page``                map, timelines, breakdown, district, intake
 ``y``      ``year``                4-digit year
 ``y0``     ``year_from``           4-digit year
 ``y1``     ``year_to``             4-digit year
@@ -30,7 +30,7 @@ key        field                   form
 ========== ======================= ================================================
 
 Fields at their default are left out of a link. A view file is JSON:
-``{"rift_view": 1, "dataset": "demo", "page": "atlas", ...}`` with the field names above.
+``{"rift_view": 1, "dataset": "demo", "page": "map", ...}`` with the field names above.
 """
 
 from __future__ import annotations
@@ -270,6 +270,16 @@ def _method(raw: Any, known: Known) -> str:
     return _choice(raw, allowed, "Lorenz method")
 
 
+#: Page keys of earlier versions -> today's, so old links and view files still open.
+_OLD_PAGES = {"atlas": "map"}
+
+
+def _page(raw: Any) -> str:
+    if isinstance(raw, str) and raw.strip().lower() in _OLD_PAGES:
+        return _OLD_PAGES[raw.strip().lower()]
+    return _choice(raw, PAGES, "page")
+
+
 def _dataset(raw: Any, known: Known) -> str:
     value = _text(raw).strip()
     if not _DATASET_RE.fullmatch(value):
@@ -350,7 +360,7 @@ def _labels(allowed_of: str, what: str):
 
 _PARSERS = {
     "dataset": _dataset,
-    "page": lambda raw, known: _choice(raw, PAGES, "page"),
+    "page": lambda raw, known: _page(raw),
     "year": _year,
     "year_from": _year,
     "year_to": _year,
@@ -383,9 +393,9 @@ class ViewState:
     dataset : str
         Dataset id in the workspace (``"demo"`` for the invented scenario).
     page : str
-        ``atlas``, ``timelines``, ``breakdown``, ``district`` or ``intake``.
+        ``map``, ``timelines``, ``breakdown``, ``district`` or ``intake``.
     year : int or None
-        Year shown on the Atlas and District sheet; ``None`` = the latest.
+        Year shown on the Map and District sheet; ``None`` = the latest.
     year_from, year_to : int or None
         Year range of Timelines and of the change decomposition; ``None`` = the ends.
     index : str
@@ -421,7 +431,7 @@ class ViewState:
     """
 
     dataset: str = "demo"
-    page: str = "atlas"
+    page: str = "map"
     year: int | None = None
     year_from: int | None = None
     year_to: int | None = None

@@ -1,4 +1,4 @@
-"""Atlas: the districts coloured by the chosen index, year and Lorenz method."""
+"""Map: the districts coloured by the chosen index, year and Lorenz method."""
 
 import pandas as pd
 import streamlit as st
@@ -9,7 +9,7 @@ from explorer.present import vocabulary
 
 opened = ui.open_view()
 view, panel = opened.view, opened.panel
-st.title("Atlas")
+st.title(vocabulary.PAGES["map"].title)
 ui.caption(vocabulary.describe_view(view, panel))
 
 if panel.kind == "means":

@@ -9,6 +9,7 @@ from explorer.present import vocabulary
 opened = ui.open_view()
 view, panel = opened.view, opened.panel
 st.title("Breakdown")
+ui.caption(vocabulary.describe_view(view, panel).rsplit(" · ", 1)[0] + " · every year")
 st.caption(
     "The province's inequality split into differences between groups (their mean incomes) "
     "and inequality inside them, for every year."

@@ -11,6 +11,7 @@ from explorer.present import charts, vocabulary
 opened = ui.open_view()
 view, panel = opened.view, opened.panel
 st.title("District sheet")
+ui.caption(vocabulary.describe_view(view, panel))
 
 district_names = names(panel)
 labels = dict(zip(district_names["region"], district_names["name"], strict=True))
@@ -25,6 +26,7 @@ ui.control(
     format_func=lambda region: f"{labels.get(region, region)} ({region})",
     to_view=lambda region: (region,),
     from_view=lambda chosen: chosen[0] if chosen else regions[0],
+    help=vocabulary.FIND_HELP,
 )
 view = ui.current_view()
 sheet = figures.district(panel, view, opened.compute)

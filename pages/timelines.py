@@ -25,6 +25,7 @@ with left:
         from_view=list,
         max_selections=8,
         placeholder="Choose up to 8 districts",
+        help=vocabulary.FIND_HELP,
     )
 if county_level(panel) is not None:  # no counties in the data: no control
     with right:

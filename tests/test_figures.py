@@ -176,3 +176,45 @@ def test_convergence_slope_matches_a_least_squares_fit_of_the_points(means):
     slope = np.polyfit(points["log_initial"], points["growth"], 1)[0]
     assert trend.beta.result.beta == pytest.approx(slope, rel=1e-9)
     assert trend.sentence.startswith("β = ")
+
+
+def test_a_group_filter_keeps_exactly_the_districts_of_the_chosen_counties(demo):
+    # common practice: a filter keeps every district of the chosen groups and no other
+    level = demo.levels[-1]
+    chosen = sorted(demo.hierarchy[level].unique())[:2]
+    cut = figures.narrow(demo, chosen)
+    expected = set(demo.hierarchy.loc[demo.hierarchy[level].isin(chosen), "region"])
+    assert set(cut.regions) == expected and 0 < len(expected) < len(demo.regions)
+    assert set(cut.boundaries["region"]) == expected
+    assert cut.fingerprint != demo.fingerprint
+    assert figures.narrow(demo, ()) is demo
+    view = figures.settle(ViewState(counties=tuple(chosen)), cut)
+    shown = figures.atlas(cut, view, PlainCompute(cut))
+    assert set(shown.ranking["region"]) == expected
+    assert f"only the districts of the {vocabulary.groups_word(level)}" in vocabulary.caption(
+        view, cut
+    )
+
+
+def test_the_district_sheet_names_every_unusable_curve_and_the_method_used(demo):
+    # The fit table's "valid" (a Lorenz curve is increasing and convex from (0,0) to (1,1):
+    # Gastwirth 1971, Econometrica 39: 1037-1039) decides which curves are said unusable.
+    from explorer.figures.district import NOT_VALID, curve_names
+
+    compute = PlainCompute(demo)
+    methods = ("pchip", "gq", "beta", "quadratic", "lognormal")
+    fits = compute.fits(methods + ("auto",))
+    unusable = 0
+    for region, year in [(str(demo.regions[0]), 2008), (str(demo.regions[-1]), 2025)]:
+        curves = compute.lorenz_curves(region, year, methods)
+        names = curve_names(curves, "beta")
+        rows = fits[(fits["region"].astype(str) == region) & (fits["year"] == year)]
+        for method in methods:
+            said = set(names[curves["method"] == method])
+            valid = bool(rows.loc[rows["method"] == method, "valid"].iloc[0])
+            assert len(said) == 1
+            assert (NOT_VALID in said.pop()) is (not valid)
+            unusable += not valid
+        assert all("used for the figures" in n for n in names[curves["method"] == "beta"])
+        assert not any("used for the figures" in n for n in names[curves["method"] != "beta"])
+    assert unusable, "the check needs at least one curve the fit table marks unusable"

@@ -185,7 +185,8 @@ def test_long_notice_lists_are_capped():
 
 def test_case_and_spaces_in_choice_values_are_forgiven():
     view, notices = from_query({"pg": " Atlas ", "cl": "BREAKS"})
-    assert (view.page, view.classes, notices) == ("atlas", "breaks", [])
+    # "Atlas" is the map page's earlier key: old links still open the map.
+    assert (view.page, view.classes, notices) == ("map", "breaks", [])
 
 
 @pytest.mark.parametrize(
@@ -275,9 +276,17 @@ def test_duplicate_districts_are_kept_once_in_order():
 
 def test_page_names_are_our_own():
     assert [ViewState(page=p).page_name for p in views.PAGES] == [
-        "Atlas",
+        "Map",
         "Timelines",
         "Breakdown",
         "District sheet",
         "Intake",
     ]
+
+
+def test_links_and_view_files_with_the_map_pages_earlier_key_still_open_the_map():
+    # The map page was called "atlas" before; links and view files made then still open it.
+    assert from_query({"pg": "atlas"}) == (ViewState(page="map"), [])
+    body = {"rift_view": 1, "page": "atlas", "year": 2012}
+    assert from_json(json.dumps(body)) == (ViewState(page="map", year=2012), [])
+    assert ViewState(page="map").to_query() == {}

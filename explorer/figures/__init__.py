@@ -17,7 +17,7 @@ from explorer.figures.breakdown import (
 from explorer.figures.compute import Compute, PlainCompute
 from explorer.figures.district import DistrictFigures, district
 from explorer.figures.report import ReportSections, report_for_view, report_html, sections
-from explorer.figures.settle import settle
+from explorer.figures.settle import narrow, settle
 from explorer.figures.spatial import ClusterLayer, SpatialResult, cluster_layer, for_panel
 from explorer.figures.timelines import Convergence, TimelineFigures, convergence, timelines
 
@@ -43,6 +43,7 @@ __all__ = [
     "report_for_view",
     "report_html",
     "sections",
+    "narrow",
     "settle",
     "split_index",
     "timelines",

@@ -1,4 +1,4 @@
-"""The Atlas page's figures: the map layer, its classes, the ranking and the headline."""
+"""The Map page's figures: the map layer, its classes, the ranking and the headline."""
 
 from __future__ import annotations
 
@@ -26,7 +26,7 @@ RANK_COLUMNS = ["rank", "name", "region", "county", "value", "lower", "upper", "
 
 @dataclass(frozen=True)
 class AtlasFigures:
-    """Everything the Atlas page shows for one view (``layer`` empty: nothing to show).
+    """Everything the Map page shows for one view (``layer`` empty: nothing to show).
 
     ``notices`` are warnings the page shows above the map (districts without a figure, or
     without a value for the cluster layer, by name).

@@ -21,7 +21,14 @@ from explorer.figures.tables import (
 from explorer.present import charts, vocabulary
 from explorer.views import ViewState
 
-__all__ = ["DistrictFigures", "district", "district_heading", "method_word"]
+__all__ = [
+    "NOT_VALID",
+    "DistrictFigures",
+    "curve_names",
+    "district",
+    "district_heading",
+    "method_word",
+]
 
 _LORENZ_HOW = {
     "brackets": "Dots: the published shares; lines: each curve rebuilt from them; grey band: "
@@ -70,6 +77,33 @@ def district_heading(panel: Panel, region: str, year: int) -> tuple[str, str]:
     return str(info["name"]), f"{info['name']} ({region}){county} · {year}"
 
 
+#: Said in the legend of a curve the fit table marks unusable (it is also drawn dashed).
+NOT_VALID = "not a valid Lorenz curve"
+
+
+def _chosen(view: ViewState, compute: Compute, region: str) -> str:
+    """The Lorenz method the view's figures use for this district-year (``auto``: its pick)."""
+    if view.method != "auto":
+        return view.method
+    fits = compute.fits(("auto",))
+    row = fits[(fits["region"].astype(str) == region) & (fits["year"] == view.year)]
+    return str(row["used"].iloc[0]) if len(row) else ""
+
+
+def curve_names(curves: pd.DataFrame, chosen: str) -> pd.Series:
+    """Legend names of the curves: the chosen method marked, unusable curves said so."""
+    valid = curves["valid"] if "valid" in curves else pd.Series(True, index=curves.index)
+    names = []
+    for method, ok in zip(curves["method"], valid, strict=True):
+        name = vocabulary.method_label(method)
+        if method == chosen:
+            name += " · used for the figures"
+        if not ok:
+            name += f" · {NOT_VALID}"
+        names.append(name)
+    return pd.Series(names, index=curves.index)
+
+
 def _lorenz(panel, view, compute, region, name):
     points = lorenz_points(panel, region, view.year)
     curves = band = shown = None
@@ -78,7 +112,7 @@ def _lorenz(panel, view, compute, region, name):
         curves = compute.lorenz_curves(region, view.year, methods)
         band = lorenz_band(curves)
         shown = curves[~curves["method"].isin(("linear", "upper"))]
-        shown = shown.assign(method=shown["method"].map(vocabulary.method_label))
+        shown = shown.assign(method=curve_names(shown, _chosen(view, compute, region)))
     how = _LORENZ_HOW.get(panel.kind, "")
     profile = charts.lorenz_profile(
         points,
@@ -88,7 +122,7 @@ def _lorenz(panel, view, compute, region, name):
         caption=vocabulary.wrap(f"{how} {vocabulary.caption(view, panel)}", width=70),
     )
     # Below the curve the method names have room; beside it they squeeze the curve.
-    return profile.configure_legend(orient="bottom", columns=2, labelLimit=260)
+    return profile.configure_legend(orient="bottom", columns=1, labelLimit=420)
 
 
 def district(panel: Panel, view: ViewState, compute: Compute) -> DistrictFigures:

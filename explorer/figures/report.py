@@ -85,7 +85,7 @@ def _panel_info(view: ViewState, panel: Panel) -> dict[str, Any]:
 
 
 def sections(view: ViewState, panel: Panel, compute: Compute | None = None) -> ReportSections:
-    """The report's sections: the Atlas, Timelines, Breakdown and District figures of a view."""
+    """The report's sections: the Map, Timelines, Breakdown and District figures of a view."""
     view = settle(view, panel)
     compute = compute or PlainCompute(panel)
     tables: dict[str, pd.DataFrame] = {}

@@ -2,12 +2,14 @@
 
 from __future__ import annotations
 
+import dataclasses
+import hashlib
 from typing import Any
 
 from explorer.data.model import Panel
 from explorer.views import ViewState
 
-__all__ = ["settle"]
+__all__ = ["narrow", "settle"]
 
 
 def settle(view: ViewState, panel: Panel) -> ViewState:
@@ -35,3 +37,35 @@ def settle(view: ViewState, panel: Panel) -> ViewState:
     if view.level is not None and view.level not in panel.levels:
         changes["level"] = None
     return view.replace(**changes) if changes else view
+
+
+def narrow(panel: Panel, counties: tuple[str, ...] | list[str]) -> Panel:
+    """The panel cut down to the districts of the chosen groups of its innermost level.
+
+    Every page then works on those districts only: the map shows (and zooms to) them, the
+    rankings, timelines and the breakdown cover them alone. Groups the panel does not have
+    are ignored; with none left, or no level, the panel is returned as it is. The cut panel
+    has its own fingerprint, so cached figures of the whole panel are never reused for it.
+    """
+    if not counties or not panel.levels:
+        return panel
+    level = panel.levels[-1]
+    keep = panel.hierarchy[panel.hierarchy[level].astype(str).isin(set(map(str, counties)))]
+    regions = set(keep["region"].astype(str))
+    if not regions:
+        return panel
+    boundaries = panel.boundaries
+    if boundaries is not None:
+        boundaries = boundaries[boundaries["region"].astype(str).isin(regions)]
+    excluded = panel.excluded
+    if excluded is not None and len(excluded):
+        excluded = excluded[excluded["region"].astype(str).isin(regions)]
+    stamp = "\n".join([panel.fingerprint, level, *sorted(map(str, counties))]).encode()
+    return dataclasses.replace(
+        panel,
+        data=panel.data[panel.data["region"].astype(str).isin(regions)].reset_index(drop=True),
+        hierarchy=keep.reset_index(drop=True),
+        boundaries=boundaries,
+        excluded=excluded,
+        fingerprint=hashlib.sha256(stamp).hexdigest()[:16],
+    )

@@ -897,6 +897,10 @@ def lorenz_profile(
             alt.Chart(_records(curves))
             .mark_line(strokeWidth=1.8)
             .encode(
+                # A curve its fit marks unusable is dashed (and says so in the legend).
+                strokeDash=alt.condition(
+                    "datum.valid === false", alt.value([5, 3]), alt.value([1, 0])
+                ),
                 x=x,
                 y=alt.Y("L:Q", title=y_title, scale=alt.Scale(domain=[0, 1])),
                 color=alt.Color(

@@ -28,6 +28,7 @@ __all__ = [
     "COLUMN_LABELS",
     "DECOMPOSABLE",
     "DEMO_DATASETS",
+    "FIND_HELP",
     "FIT_COLUMNS",
     "INDEX_COLUMNS",
     "INDEX_LABELS",
@@ -48,6 +49,7 @@ __all__ = [
     "dataset_name",
     "describe_view",
     "figure",
+    "filter_text",
     "groups_word",
     "index_label",
     "method_label",
@@ -158,7 +160,8 @@ class Page:
 
 #: Page key -> page; the first one is served at "/".
 PAGES: dict[str, Page] = {
-    "atlas": Page("Atlas", ":material/map:", "atlas.py"),
+    # "map" was called "atlas" before; views.py still reads the old key from links and files.
+    "map": Page("Map", ":material/map:", "atlas.py"),
     "timelines": Page("Timelines", ":material/timeline:", "timelines.py"),
     "breakdown": Page("Breakdown", ":material/stacked_bar_chart:", "breakdown.py"),
     "district": Page("District sheet", ":material/description:", "district.py"),
@@ -195,6 +198,8 @@ CLASS_HELP = (
     "values inside each class as close together as possible, so gaps in the data become "
     "class boundaries."
 )
+
+FIND_HELP = "Type part of a district's name or its code to find it in the list."
 
 LAYER_LABELS = {"index": "Index", "clusters": "Local clusters"}
 LAYER_HELP = (
@@ -355,11 +360,14 @@ def value_label(view: Any, panel: Any) -> str:
     """What the map's colour means, with its units."""
     if panel.kind == "means":
         return "Mean income (currency units)"
-    label = index_label(view.index).split(" (")[0]
+    full = index_label(view.index)
+    label = full.split(" (")[0]
     if view.index.endswith("_share"):
         return f"{label} (share)"
     if view.index in ("palma", "s80_s20"):
-        return f"{label} (ratio)"
+        return full  # the name already says what is divided by what
+    if view.index.startswith("atkinson_"):  # its ε belongs to the name
+        return f"{full[:-1]}; 0 = equal)"
     return f"{label} (0 = equal)"
 
 
@@ -379,14 +387,27 @@ def caption(view: Any, panel: Any, *, every_year: bool = False) -> str:
         how = "computed from weighted unit records"
     else:
         how = "district mean incomes"
-    concept = f" Income: {panel.income_concept}." if getattr(panel, "income_concept", "") else ""
+    concept = getattr(panel, "income_concept", "") or ""
+    concept = f" Income: {concept.rstrip('.')}." if concept else ""
     when = "" if every_year else f", {view.year}"
-    return f"Data: {name}{when}; {how}.{concept}"
+    return f"Data: {name}{filter_text(view, panel)}{when}; {how}.{concept}"
+
+
+def filter_text(view: Any, panel: Any) -> str:
+    """ ", only the districts of A and B" when the view's group filter is on, else ""."""
+    chosen = tuple(getattr(view, "counties", ()) or ())
+    if not chosen:
+        return ""
+    levels = tuple(getattr(panel, "levels", ()) or ())
+    word = groups_word(levels[-1], plural=len(chosen) > 1) if levels else "groups"
+    names = ", ".join(chosen[:-1]) + (" and " if len(chosen) > 1 else "") + chosen[-1]
+    return f", only the districts of the {word} {names}"
 
 
 def describe_view(view: Any, panel: Any) -> str:
-    """One line: dataset, index, year."""
-    return f"{dataset_name(view, panel)} · {value_label(view, panel)} · {view.year}"
+    """One line: dataset (and its filter, when on), index, year."""
+    shown = dataset_name(view, panel) + filter_text(view, panel)
+    return f"{shown} · {value_label(view, panel)} · {view.year}"
 
 
 # --- numbers ---------------------------------------------------------------------------------

@@ -627,7 +627,7 @@ def apply_view_file(content: bytes) -> None:
     new_view, notices = views.from_json(text, known=choices)
     st.session_state[state.VIEW] = new_view
     st.session_state[state.NOTICES] = list(notices)
-    st.switch_page(state.page_path(getattr(new_view, "page", "atlas") or "atlas"))
+    st.switch_page(state.page_path(getattr(new_view, "page", "map") or "map"))
 
 
 def report_html(opened: state.OpenView) -> bytes:

@@ -17,7 +17,8 @@ from typing import Any
 import streamlit as st
 
 from explorer import resources, views
-from explorer.figures import settle
+from explorer.figures import narrow, settle
+from explorer.present import vocabulary
 from explorer.present.vocabulary import (
     DECOMPOSABLE,
     INDEX_LABELS,
@@ -98,6 +99,8 @@ def start(catalog: Sequence[data.Dataset]):
     view = st.session_state[VIEW]
     panel, opened = _open_or_demo(view.dataset, st.session_state.setdefault(NOTICES, []))
     view = settle(dataclasses.replace(view, dataset=opened), panel)
+    # Chosen districts outside the group filter are let go: no page shows them.
+    view = settle(view, narrow(panel, view.counties))
     st.session_state[VIEW] = view
     st.session_state[PANEL] = panel
     return view, panel
@@ -250,6 +253,21 @@ def sidebar(catalog: Sequence[data.Dataset], panel: Any) -> None:
                 if panel.kind == "units"
                 else "District means only: the figures are inequality between districts."
             )
+        if panel.levels:
+            groups = _counties(panel)
+            word = vocabulary.groups_word(panel.levels[-1])
+            control(
+                "counties",
+                st.multiselect,
+                f"Show only these {word}",
+                groups,
+                to_view=tuple,
+                from_view=list,
+                placeholder=f"All {word}",
+                help=f"Every page then covers only the districts of the chosen {word}: "
+                "the map zooms to them, and rankings, timelines and the breakdown leave "
+                "the others out. Empty: the whole province.",
+            )
         years = [int(y) for y in panel.years]
         control("year", st.select_slider if len(years) > 1 else st.selectbox, "Year", years)
 
@@ -266,7 +284,7 @@ class OpenView:
 def open_view() -> OpenView:
     """The view, its panel and the cached computations on that panel, for this run."""
     view = current_view()
-    shown = panel()
+    shown = narrow(panel(), view.counties)
     return OpenView(view, shown, CachedCompute(shown, data.scope_of(view.dataset)))
 
 

@@ -6,7 +6,7 @@ import pytest
 from app_helpers import page, run, view
 
 PAGE_TITLES = {
-    "atlas": "Atlas",
+    "atlas": "Map",
     "timelines": "Timelines",
     "breakdown": "Breakdown",
     "district": "District sheet",

@@ -12,7 +12,7 @@ from browser_helpers import ROOT, settle, shot
 pytestmark = pytest.mark.browser
 
 PAGES = {
-    "": "Atlas",
+    "": "Map",
     "timelines": "Timelines",
     "breakdown": "Breakdown",
     "district": "District sheet",

@@ -62,3 +62,32 @@ def test_figures_are_written_as_a_planner_reads_them(value, money, shown):
 def test_a_ranking_says_what_rank_one_means():
     assert "highest mean income" in vocabulary.ranking_title("means")
     assert "most unequal" in vocabulary.ranking_title("brackets")
+
+
+@pytest.mark.parametrize(
+    ("index", "expected"),
+    [
+        ("palma", "Palma ratio (top 10 % / bottom 40 %)"),
+        ("atkinson_0.5", "Atkinson (ε = 0.5; 0 = equal)"),
+        ("atkinson_2", "Atkinson (ε = 2; 0 = equal)"),
+        ("gini", "Gini coefficient (0 = equal)"),
+    ],
+)
+def test_value_labels_keep_what_tells_an_index_apart_and_say_no_unit_twice(index, expected):
+    from types import SimpleNamespace
+
+    from explorer.views import ViewState
+
+    label = vocabulary.value_label(ViewState(index=index), SimpleNamespace(kind="brackets"))
+    assert label == expected
+    assert "(ratio)" not in label and ".." not in label
+
+
+@pytest.mark.parametrize(
+    ("level", "plural"),
+    [("SUB_REGION", "sub regions"), ("county", "counties"), ("Ward", "wards")],
+)
+def test_level_names_from_a_file_read_as_words(level, plural):
+    # common practice: a column name is not shown as it is spelled in the file
+    assert vocabulary.groups_word(level) == plural
+    assert vocabulary.part_label("between", level) == f"Between {plural}"
