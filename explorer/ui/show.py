@@ -39,7 +39,11 @@ LOG = logging.getLogger("rift")
 # Every ASCII punctuation character may be backslash-escaped in CommonMark; these are the
 # ones that start Markdown, HTML, Streamlit's colour and icon directives (":red[...]",
 # ":material/...:"), emoji shortcodes, LaTeX ("$") and GitHub-style autolinks ("www.").
-_MARKUP = re.compile(r"([\\`*_{}\[\]()#+\-.!|<>~$:&=^\"'@/])")
+_MARKUP = re.compile(r"([\\`*_{}\[\]!|<>~$:&^])")
+# Characters that start a block (heading, list, quote, rule) only where a line begins; a
+# shown text is one line, so only its first characters need them escaped. Escaping them
+# everywhere would put backslashes into the labels that screen readers read out.
+_BLOCK_START = re.compile(r"^([#+\-=>]|\d+(?=[.)]))")
 
 
 #: U+2060, invisible; it splits an address so that it is not made into a link.
@@ -64,7 +68,10 @@ def plain(text: Any) -> str:
     # GitHub-style Markdown links bare addresses even when escaped ("http\\://x" is still a
     # link); an invisible word joiner inside "://", "www." and "@name" stops that.
     one_line = _AUTOLINK.sub(WORD_JOINER, one_line)
-    return _MARKUP.sub(r"\\\1", one_line)
+    escaped = _MARKUP.sub(r"\\\1", one_line)
+    return _BLOCK_START.sub(
+        lambda m: "\\" + m.group(1) if not m.group(1).isdigit() else m.group(1) + "\\", escaped
+    )
 
 
 def markdown(template: str, *values: Any) -> None:

@@ -112,4 +112,16 @@ def test_the_escape_shows_every_character_as_typed():
     for text in (IMAGE, HTML, LINK, ":red[x] :material/home: $x$ www.a.b a_b*c*"):
         escaped = plain(text)
         assert re.sub(r"\\(.)", r"\1", escaped).replace(WORD_JOINER, "") == text
-        assert not re.search(r"(?<!\\)[\[\]()<>!*_$:]", escaped), escaped
+        # Parentheses and quotes stay as they are: without an unescaped "]" before it, "(" opens
+        # no link (CommonMark 0.29, section 6.3), and screen readers read labels unescaped.
+        assert not re.search(r"(?<!\\)[\[\]<>!*_$:]", escaped), escaped
+
+
+def test_block_markers_are_escaped_only_where_the_text_begins():
+    # CommonMark 0.29, sections 4.2 (ATX headings), 5.1 (block quotes), 5.2 (list items):
+    # these markers act only at the start of a line, and a shown text is one line.
+    for text in ("# Title", "- item", "+ item", "> quote", "1. first", "2) second"):
+        escaped = plain(text)
+        assert "\\" in escaped[:3], escaped
+        assert re.sub(r"\\(.)", r"\1", escaped) == text
+    assert plain("St. Mary-on-Sea (north)") == "St. Mary-on-Sea (north)"
