@@ -198,21 +198,31 @@ def test_duckdb_progress_counts_every_record(generated, tmp_path):
     assert done == sorted(done) and done[-1] == len(generated) and len(done) > 2
 
 
+# The peak resident memory of this process's own address space (VmHWM). Not getrusage's
+# ru_maxrss: Linux carries that over from the parent across exec, so a child started by a
+# large test process would report the parent's peak and no growth at all.
 _CHILD = textwrap.dedent(
     """
-    import resource, sys, json
-    import numpy as np
+    import sys, json
     from explorer.stats import engines
     from explorer.stats.engines import duckdb_engine, memory
     import duckdb, pyarrow
+
+    def peak_kb():
+        with open("/proc/self/status") as status:
+            for line in status:
+                if line.startswith("VmHWM:"):
+                    return int(line.split()[1])
+        raise RuntimeError("no VmHWM in /proc/self/status")
+
     path, engine = sys.argv[1], sys.argv[2]
-    before = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
+    before = peak_kb()
     if engine == "duckdb":
         table = engines.compute_units(path, "duckdb", ["gini"], batch_rows=50_000,
                                       memory_limit="150MB")
     else:
         table = engines.compute_units(path, "memory", ["gini"])
-    after = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
+    after = peak_kb()
     print(json.dumps({"growth_kb": after - before, "groups": len(table)}))
     """
 )
