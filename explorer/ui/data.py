@@ -95,7 +95,9 @@ def catalog() -> list[Dataset]:
     except Exception:  # a broken workspace must not hide the demo and the uploads
         listing = pd.DataFrame(columns=["id", "name"])
     for row in listing.itertuples(index=False):
-        entries.append(Dataset(str(row.id), f"{row.name} (saved)", "workspace"))
+        ident = str(row.id)
+        label = " · ".join([str(row.name), str(row.kind), str(row.created)[:10], ident[:6]])
+        entries.append(Dataset(ident, f"{label} (saved)", "workspace"))
     for dataset_id, panel in uploads().items():
         entries.append(Dataset(dataset_id, f"{panel.name or dataset_id} (this session)", "upload"))
     return entries

@@ -521,3 +521,15 @@ def test_leftovers_of_dead_writers_are_cleaned_and_never_listed(tmp_path, panels
     Workspace(tmp_path)
     assert not stale_dir.exists() and not stale_view.exists() and not trash.exists()
     assert live.exists()
+
+
+def test_three_datasets_of_one_name_stay_apart_by_id(tmp_path, panels):
+    """Same-named datasets are listed separately and each id opens its own data."""
+    ws = Workspace(tmp_path / "ws")
+    same = [dataclasses.replace(p, name="deciles") for p in panels[:3]]
+    ids = [ws.add(p, [(f"in{i}.csv", f"rows {i}".encode())], {}) for i, p in enumerate(same)]
+    listing = ws.list()
+    assert len(set(ids)) == 3 and set(listing["id"]) == set(ids)
+    assert set(listing["name"]) == {"deciles"}
+    for ident, panel in zip(ids, same, strict=True):
+        assert_same_panel(ws.open(ident), panel)
