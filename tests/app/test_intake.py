@@ -75,7 +75,11 @@ def test_saving_an_upload_puts_it_in_the_workspace_for_everyone(app):
     other.query_params["d"] = saved
     run(other)
     assert view(other).dataset == saved
-    assert "panel (saved)" in other.selectbox(key="ctl_dataset").options
+    # The entry names the dataset and what tells it apart: kind, date saved, start of its id.
+    entries = other.selectbox(key="ctl_dataset").options
+    assert any(
+        e.startswith("panel · ") and saved[:6] in e and e.endswith(" (saved)") for e in entries
+    ), entries
 
 
 def test_column_choices_map_a_files_own_names_onto_the_panel(app):
