@@ -260,8 +260,15 @@ def test_a_view_file_saved_on_intake_reopens_its_page_and_year(server, context, 
     page.goto(f"{server}/intake?y=2019")
     settle(page)
     page.get_by_role("tab", name="Take results out").click()
-    page.locator('[data-testid="stFileUploader"] input[type="file"]').last.set_input_files(saved)
-    page.get_by_role("button", name="Apply the view file").click()
+    # The view-file uploader by its own label: the Intake page holds other uploaders too.
+    uploader = page.locator('[data-testid="stFileUploader"]').filter(has_text="Open a view file")
+    uploader.locator('input[type="file"]').set_input_files(saved)
+    # The upload reruns the page; the button appears once the file is in.
+    uploader.get_by_text("view.json").wait_for(timeout=120_000)
+    settle(page, timeout=120_000)
+    apply = page.get_by_role("button", name="Apply the view file")
+    apply.wait_for(state="visible", timeout=120_000)
+    apply.click()
     page.wait_for_url(re.compile(r"/timelines\?"), timeout=60_000)
     settle(page)
     assert page.locator("h1").first.inner_text().strip() == "Timelines"
