@@ -43,8 +43,11 @@ __all__ = [
     "DatasetFacts",
     "DatasetStore",
     "Source",
+    "DEMO_FACTS",
     "dataset_id",
     "equal_weight_notice",
+    "facts_of",
+    "with_facts",
 ]
 
 SCHEMA_VERSION = 1
@@ -121,6 +124,38 @@ class DatasetFacts:
         if self.source:
             line = f"{line}. Source: {self.source}" if line else f"Source: {self.source}"
         return line
+
+
+#: The demo province's facts, as its README states them (invented, like the province).
+DEMO_FACTS = DatasetFacts(
+    income_concept="equivalised disposable income",
+    unit="person",
+    currency="Kellvaran crowns (invented demo currency)",
+    price_base="constant prices",
+    source="invented demo province of Kellvaran (generated, not real data)",
+)
+
+
+def with_facts(panel: Panel, facts: DatasetFacts) -> Panel:
+    """The same panel with its facts attached, for captions, the report and the view file.
+
+    The panel is frozen; the facts ride along as an attribute so that every page, command
+    and export reads them from the panel it already has.
+    """
+    object.__setattr__(panel, "facts", facts)
+    return panel
+
+
+def facts_of(panel: Any) -> DatasetFacts:
+    """The facts of a panel: attached ones, the demo's, or its name and concept alone."""
+    attached = getattr(panel, "facts", None)
+    if isinstance(attached, DatasetFacts):
+        return attached
+    name = str(getattr(panel, "name", "") or "")
+    if name.startswith("demo "):
+        return dataclasses.replace(DEMO_FACTS, name=name)
+    concept = str(getattr(panel, "income_concept", "") or "")
+    return DatasetFacts(name=name, income_concept=concept)
 
 
 def equal_weight_notice(panel: Panel) -> str | None:
@@ -512,8 +547,11 @@ class DatasetStore:
             "excluded": frames["excluded"],
         }
         names = {f.name for f in dataclasses.fields(Panel)}
+        facts = DatasetFacts.from_dict(manifest.get("facts"))
+        if not facts.name:
+            facts = dataclasses.replace(facts, name=str(manifest["name"] or ""))
         try:
-            return Panel(**{k: v for k, v in values.items() if k in names})
+            return with_facts(Panel(**{k: v for k, v in values.items() if k in names}), facts)
         except DataError:
             raise
         except (TypeError, ValueError) as exc:

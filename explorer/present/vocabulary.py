@@ -387,8 +387,10 @@ def caption(view: Any, panel: Any, *, every_year: bool = False) -> str:
         how = "computed from weighted unit records"
     else:
         how = "district mean incomes"
-    concept = getattr(panel, "income_concept", "") or ""
-    concept = f" Income: {concept.rstrip('.')}." if concept else ""
+    from explorer.data.dataset_store import facts_of  # the dataset's facts, as saved
+
+    given = facts_of(panel).caption().rstrip(".")
+    concept = f" Income: {given}." if given else ""
     when = "" if every_year else f", {view.year}"
     return f"Data: {name}{filter_text(view, panel)}{when}; {how}.{concept}"
 

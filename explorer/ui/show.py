@@ -20,6 +20,7 @@ __all__ = [
     "caution_texts",
     "cautions",
     "downloads",
+    "equal_weight_offer",
     "guard",
     "markdown",
     "metric",
@@ -30,6 +31,7 @@ __all__ = [
     "planner_table",
     "problem_table",
     "problems",
+    "set_aside_notice",
     "table",
     "table_bytes",
 ]
@@ -334,3 +336,36 @@ def planner_table(
                 config[column] = st.column_config.Column(title)
             order.append(column)
     return out, {"column_config": config, "column_order": order}
+
+
+def set_aside_title(panel: Any) -> str | None:
+    """The title of the set-aside notice ("3 district-years set aside ..."), or None."""
+    excluded = getattr(panel, "excluded", None)
+    if excluded is None or not len(excluded):
+        return None
+    count = len(excluded)
+    noun = "district-year" if count == 1 else "district-years"
+    return f"{count} {noun} set aside and not used in any figure here"
+
+
+def set_aside_notice(panel: Any) -> None:
+    """One collapsed notice listing every district-year set aside, with its reason."""
+    title = set_aside_title(panel)
+    if title is None:
+        return
+    with st.expander(title, expanded=False):
+        table(panel.excluded.reset_index(drop=True), "set_aside_notice")
+
+
+def equal_weight_offer(panel: Any) -> None:
+    """Say that each district counts equally (no populations) and point to Intake."""
+    from explorer.data.dataset_store import equal_weight_notice
+
+    text = equal_weight_notice(panel)
+    if text is None:
+        return
+    notice(
+        f"{text} Open the Intake page and add a table under "
+        "'Populations (optional)' to weight districts by their size.",
+        "warning",
+    )

@@ -283,8 +283,13 @@ class OpenView:
 
 def open_view() -> OpenView:
     """The view, its panel and the cached computations on that panel, for this run."""
+    from explorer.data.dataset_store import facts_of, with_facts
+
     view = current_view()
-    shown = narrow(panel(), view.counties)
+    whole = panel()
+    shown = with_facts(narrow(whole, view.counties), facts_of(whole))
+    show.set_aside_notice(whole)
+    show.equal_weight_offer(whole)
     return OpenView(view, shown, CachedCompute(shown, data.scope_of(view.dataset)))
 
 
