@@ -46,6 +46,8 @@ from urllib.parse import quote, unquote, urlencode
 from explorer.present import vocabulary
 
 __all__ = [
+    "FACTS_ENTRY",
+    "view_file_text",
     "CLASS_SCHEMES",
     "DECOMPOSABLE",
     "LORENZ_METHODS",
@@ -663,7 +665,7 @@ def from_json(
             )
         values: dict[str, Any] = {}
         for key, raw in body.items():
-            if key == "rift_view":
+            if key in ("rift_view", FACTS_ENTRY):  # the facts are for the reader only
                 continue
             if key not in QUERY_KEYS:
                 notices.append(f"Ignored the unknown view-file setting {_shown(key)}.")
@@ -679,3 +681,20 @@ def from_json(
         )
         view = ViewState()
     return view, _capped(notices)
+
+
+#: The view-file entry with the dataset's facts, written for the reader, skipped on reading.
+FACTS_ENTRY = "dataset_facts"
+
+
+def view_file_text(view: ViewState, facts: Mapping[str, str] | None = None) -> str:
+    """A view file's text with the dataset's facts (name, concept, unit, money, source).
+
+    The facts tell a reader of the file what data it was made on; reading the file back
+    ignores them, since the dataset id already names the data.
+    """
+    body = view.to_dict()
+    given = {k: v for k, v in (facts or {}).items() if v}
+    if given:
+        body[FACTS_ENTRY] = given
+    return json.dumps(body, ensure_ascii=False, indent=2)

@@ -74,11 +74,18 @@ def _district_section(panel, view, compute, tables, built) -> None:
 
 
 def _panel_info(view: ViewState, panel: Panel) -> dict[str, Any]:
+    from explorer.data.dataset_store import facts_of
+
+    facts = facts_of(panel)
     return {
         "name": vocabulary.dataset_name(view, panel),
         "fingerprint": panel.fingerprint,
         "kind": panel.kind,
-        "income_concept": panel.income_concept or "not stated",
+        "income_concept": facts.income_concept or panel.income_concept or "not stated",
+        "unit": facts.unit or "not stated",
+        "currency": facts.currency or "not stated",
+        "price_base": facts.price_base or "not stated",
+        "source": facts.source or "not stated",
         "districts": len(panel.regions),
         "years": f"{panel.years[0]}–{panel.years[-1]}",
     }
@@ -120,7 +127,14 @@ def report_html(view: ViewState, panel: Panel, compute: Compute | None = None) -
         charts=parts.charts,
         notes=parts.notes,
         cautions=parts.cautions,
+        facts_line=_facts_line(panel),
     )
+
+
+def _facts_line(panel: Panel) -> str:
+    from explorer.data.dataset_store import facts_of
+
+    return facts_of(panel).caption()
 
 
 def report_for_view(view: ViewState, data_dir: str | Path | None = None) -> str:

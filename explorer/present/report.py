@@ -90,14 +90,15 @@ def _table(name: str, frame: pd.DataFrame) -> str:
     return f"<h3>{_e(name)}</h3>{body}{note}"
 
 
-def _figure(name: str, chart: alt.TopLevelMixin) -> str:
+def _figure(name: str, chart: alt.TopLevelMixin, facts_line: str = "") -> str:
     try:
         svg = chart_builders.to_svg(chart)
     except Exception as error:  # noqa: BLE001 - one bad chart must not lose the report
         svg = f"<p>This chart could not be drawn ({_e(type(error).__name__)}).</p>"
     if svg.startswith("<?xml"):
         svg = svg.split("?>", 1)[1]
-    return f"<figure><figcaption>{_e(name)}</figcaption>{svg}</figure>"
+    said = f" — {facts_line}" if facts_line else ""
+    return f"<figure><figcaption>{_e(name + said)}</figcaption>{svg}</figure>"
 
 
 def build_report(
@@ -109,6 +110,7 @@ def build_report(
     notes: Sequence[str],
     cautions: Sequence[str],
     generated: datetime | None = None,
+    facts_line: str = "",
 ) -> str:
     """The view as one self-contained HTML document.
 
@@ -130,6 +132,9 @@ def build_report(
         Cautions to print before the figures (see :mod:`explorer.present.cautions`).
     generated : datetime, optional
         Generation time; now (UTC) by default.
+    facts_line : str, optional
+        The dataset's facts in one line (concept, unit, money, source), shown under the
+        title and in every figure's caption.
 
     Returns
     -------
@@ -150,6 +155,7 @@ def build_report(
         f"<h1>{_e(name)}: {_e(view.page_name)}</h1>",
         f"<p class='meta'>Generated {_e(when)} · data fingerprint "
         f"<code>{_e(fingerprint)}</code></p>",
+        f"<p class='facts'>{_e(facts_line)}</p>" if facts_line else "",
         "<h2>Read this first</h2>",
         _list(list(cautions), "cautions"),
         "<h2>The data</h2>",
@@ -157,7 +163,7 @@ def build_report(
     ]
     if charts:
         parts.append("<h2>Charts</h2>")
-        parts.extend(_figure(title, chart) for title, chart in charts.items())
+        parts.extend(_figure(title, chart, facts_line) for title, chart in charts.items())
     if tables:
         parts.append("<h2>Tables</h2>")
         parts.extend(_table(title, frame) for title, frame in tables.items())

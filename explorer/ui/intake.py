@@ -12,6 +12,8 @@ from typing import Any
 import pandas as pd
 import streamlit as st
 
+from explorer import views
+from explorer.data.dataset_store import facts_of
 from explorer.data.model import DataError
 from explorer.present import vocabulary
 from explorer.ui import data, show, state
@@ -591,7 +593,7 @@ def results_out(opened: state.OpenView) -> None:
     left, right = st.columns(2)
     left.download_button(
         "View file (JSON)",
-        view.to_json().encode("utf-8"),
+        views.view_file_text(view, facts_of(panel).to_dict()).encode("utf-8"),
         file_name=f"view-{show.slug(view.dataset)}.json",
         mime="application/json",
         key="out_view",
