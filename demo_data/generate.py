@@ -40,6 +40,8 @@ SEED = 20_080_125
 PROVINCE = "Kellvaran"
 YEARS = np.arange(2008, 2026)
 SAMPLE_YEARS = (2010, 2017, 2024)
+#: Survey years of the published figures (an office publishes every few years).
+PUBLISHED_YEARS = (2009, 2012, 2015, 2018, 2021, 2024)
 GRID = 1e-5  # coordinates are kept on a 5-decimal grid so shared borders match exactly
 
 # Province outline: a star-shaped (hence simple) polygon around this centre, in degrees.
@@ -412,6 +414,27 @@ def write_files(out: Path) -> None:
         out / "households.csv", ["region", "year", "county", "income", "weight"], household_rows
     )
 
+    # An office's table of published figures for the survey years: the Gini and the top
+    # decile's share of each lognormal district in percent, one decimal, and the median.
+    # Closed forms of the lognormal (Aitchison & Brown 1957, *The Lognormal
+    # Distribution*, ch. 2): Gini 2Φ(σ/√2) − 1; top 10 % share 1 − Φ(Φ⁻¹(0.9) − σ);
+    # median μ·exp(−σ²/2). No random draws, so the other files are unchanged.
+    published_rows = []
+    z90 = float(ndtri(0.9))
+    for i, d in enumerate(districts):
+        for year in PUBLISHED_YEARS:
+            j = int(np.flatnonzero(YEARS == year)[0])
+            sigma, mean = panel["sigma"][i, j], panel["mean_income"][i, j]
+            gini = 100 * (2 * ndtr(sigma / np.sqrt(2)) - 1)
+            top = 100 * (1 - ndtr(z90 - sigma))
+            median = mean * np.exp(-(sigma**2) / 2)
+            published_rows.append(f"{d.region},{year},{gini:.1f},{top:.1f},{median:.0f}")
+    _write_csv(
+        out / "published.csv",
+        ["region", "year", "gini", "top10_share", "median_income"],
+        published_rows,
+    )
+
     features = []
     for d in districts:
         geometry = mapping(d.geometry)
@@ -445,6 +468,7 @@ def _readme(districts: list[District], panel: dict[str, np.ndarray]) -> str:
         f"| {name} | {code} | {counts[name]} | {role} |" for code, name, role, _ in COUNTIES
     )
     sample_years = ", ".join(str(y) for y in SAMPLE_YEARS)
+    published_years = ", ".join(str(y) for y in PUBLISHED_YEARS)
     lorenz = np.cumsum(decile_shares(panel["sigma"].ravel()), axis=1)
     gini = (1 - (2 * lorenz.sum(1) - 1) / 10).reshape(panel["sigma"].shape)
     low, high = (
@@ -507,6 +531,9 @@ rules and statistics.
   district-year): region, year, county, income, weight (persons each record represents).
   Drawn from the same distributions as the deciles.
 - `means.csv`: region, year, county, mean_income, population, every year.
+- `published.csv`: figures as an office would publish them for {published_years}: region,
+  year, gini and top10_share (percent, one decimal) and median_income, computed from each
+  district-year's lognormal distribution by its closed forms.
 - `districts.geojson`: district polygons in longitude/latitude (EPSG:4326, RFC 7946,
   exterior rings counter-clockwise), properties region, name, county. The mainland
   districts tile the province without gaps or overlaps.

@@ -46,7 +46,7 @@ def _panel_arguments(
         )
     parser.add_argument(
         "--kind",
-        choices=("brackets", "units", "means"),
+        choices=("brackets", "units", "means", "published"),
         help="what the panel holds, when detection from its columns is not wanted "
         "(with 'demo': which of the demo files)",
     )

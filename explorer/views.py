@@ -85,6 +85,8 @@ _NAMED_INDICES = (
 )
 _INDEX_RE = re.compile(
     r"(?:gini|theil_t|mld|cv|palma|s80_s20|top10_share|bottom40_share"
+    # figures of district means, and published figures shown as given
+    r"|mean_income|mean_ratio|mean_growth|poverty_rate|median_income|population"
     r"|ge_-?\d{1,2}(?:\.\d{1,3})?|atkinson_\d{1,2}(?:\.\d{1,3})?)"
 )
 #: Indices the Breakdown page can split exactly (GE family; the Gini with its overlap).
@@ -400,8 +402,10 @@ class ViewState:
         Year shown on the Map and District sheet; ``None`` = the latest.
     year_from, year_to : int or None
         Year range of Timelines and of the change decomposition; ``None`` = the ends.
+        ``year_from`` is also the first year of the growth of district means.
     index : str
-        Index key shown.
+        Index key shown (for district means ``mean_income``, ``mean_ratio`` or
+        ``mean_growth``; for published figures the figure's key, e.g. ``poverty_rate``).
     method : str
         Lorenz method for grouped data (``auto`` picks the best valid fit).
     districts : tuple of str

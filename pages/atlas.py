@@ -12,12 +12,8 @@ view, panel = opened.view, opened.panel
 st.title(vocabulary.PAGES["map"].title)
 ui.caption(vocabulary.describe_view(view, panel))
 
-if panel.kind == "means":
-    st.info(
-        "This dataset has one mean income per district, so there is no inequality inside "
-        "districts to map. The map shows district mean incomes; the Breakdown page splits "
-        "the inequality between districts into counties."
-    )
+if panel.kind in vocabulary.KIND_NOTES:
+    st.info(vocabulary.KIND_NOTES[panel.kind])
 
 left, middle, right = st.columns([2, 1, 1])
 with left:
@@ -46,9 +42,17 @@ with middle:
 with right:
     if on_index:
         ui.control("k", st.slider, "Number of classes", min_value=3, max_value=9)
-means_only = panel.kind == "means"
-# District means have no bounds, and the clusters layer draws no outline: no control then.
-if not means_only and on_index:
+bounded = panel.kind in ("brackets", "units")
+if ui.current_view().index == "mean_growth" and len(panel.years) > 1:
+    ui.control(
+        "year_from",
+        st.selectbox,
+        "Growth since",
+        [int(y) for y in panel.years[:-1]],
+        help="The first year of the average yearly growth (also where Timelines starts).",
+    )
+# Means and published figures have no bounds, and the clusters layer draws no outline.
+if bounded and on_index:
     ui.control(
         vocabulary.INTERVAL_FIELD,
         st.toggle,
@@ -86,22 +90,19 @@ ui.cautions(panel, ranking=True, wide_intervals=shown.wide_count)
 with st.expander(shown.ranking_title, expanded=False):
     ui.caption(shown.ranking_caution)
     ranked_rows = shown.ranking[RANK_COLUMNS].rename(columns=vocabulary.COLUMN_LABELS)
-    value_format = "%,.0f" if means_only else "%.4f"
+    value_format = vocabulary.table_format(panel, view.index)
     shown_ranked, options = ui.planner_table(
         ranked_rows,
-        {
-            **{label: label for label in ranked_rows.columns},
-            "Value": "Mean income" if means_only else shown.value_label,
-        },
+        {**{label: label for label in ranked_rows.columns}, "Value": shown.value_label},
         formats={"Value": value_format, "Lower bound": value_format, "Upper bound": value_format},
     )
-    if means_only:
+    if not bounded:
         options["column_order"] = [
             c for c in options["column_order"] if c not in ("Lower bound", "Upper bound")
         ]
     ui.table(shown_ranked, "atlas_ranking", **options)
 ui.downloads(
-    f"atlas-{'mean-income' if means_only else view.index}-{view.year}",
+    f"atlas-{view.index.replace('_', '-')}-{view.year}",
     key="atlas",
     table=pd.DataFrame(shown.ranking),
     chart=shown.chart,

@@ -15,6 +15,14 @@ st.caption(
     "and inequality inside them, for every year."
 )
 
+if panel.kind == "published":
+    st.info(
+        "Published figures cannot be split into parts: the split needs the incomes "
+        "behind each district's figure, which the source did not publish."
+    )
+    ui.cautions(panel, ranking=False)
+    st.stop()
+
 index_used, instead = figures.split_index(view)
 left, right = st.columns(2)
 with left:

@@ -34,13 +34,42 @@ ui.markdown("**{}**", sheet.heading)
 
 if panel.kind == "means":
     st.info("District means only: no Lorenz curve or inequality inside the district.")
+    for column, (label, value) in zip(st.columns(3), sheet.facts, strict=False):
+        ui.metric(column, label, value)
     st.altair_chart(sheet.means_chart, key="district_means_chart")
     shown_means, options = ui.planner_table(
-        sheet.means,
-        {"year": "Year", "mean_income": "Mean income", "population": "Population"},
-        formats={"mean_income": "%,.0f", "population": "%,.0f"},
+        sheet.means[["year", "mean_income", "population", "ratio", "rank", "growth"]],
+        {
+            "year": "Year",
+            "mean_income": "Mean income",
+            "population": "Population",
+            "ratio": "Ratio to the province mean",
+            "rank": "Rank (1 = highest mean)",
+            "growth": "Growth since the year before (% a year)",
+        },
+        formats={
+            "mean_income": "%,.0f",
+            "population": "%,.0f",
+            "ratio": "%.3f",
+            "rank": "%d",
+            "growth": "%.2f",
+        },
     )
     ui.table(shown_means, "district_means", **options)
+    st.altair_chart(sheet.rank_chart, key="district_ranks")
+    ui.downloads(f"district-{sheet.region}", key="district", table=sheet.means)
+elif panel.kind == "published":
+    st.info(vocabulary.KIND_NOTES["published"])
+    shown_figures, options = ui.planner_table(
+        sheet.published,
+        {"figure": "Figure", "value": "Value", "scale": "Scale", "rank": "Rank among districts"},
+    )
+    ui.markdown("**Published figures, {}**", str(view.year))
+    ui.table(shown_figures, "district_published", **options)
+    st.altair_chart(sheet.means_chart, key="district_published_chart")
+    if sheet.rank_chart is not None:
+        st.altair_chart(sheet.rank_chart, key="district_ranks")
+    ui.downloads(f"district-{sheet.region}-{view.year}", key="district", table=sheet.published)
 else:
     no_bound = (
         "Turn on 'Sampling intervals' in the sidebar for an interval."

@@ -33,19 +33,22 @@ if county_level(panel) is not None:  # no counties in the data: no control
 view = ui.current_view()
 
 shown = figures.timelines(panel, view, opened.compute)
-if shown.series is None:
-    ui.notice(shown.notices[0])
-else:
-    st.altair_chart(shown.chart, key="timelines_chart")
-    if shown.highlighted is not None:
-        ui.table(shown.highlighted, "timelines_table", hide_index=False)
-    ui.downloads(f"timelines-{view.index}", key="timelines", table=shown.series, chart=shown.chart)
-    for notice in shown.notices:
-        ui.caption(notice)
+st.altair_chart(shown.chart, key="timelines_chart")
+if shown.highlighted is not None:
+    ui.table(shown.highlighted, "timelines_table", hide_index=False)
+ui.downloads(f"timelines-{view.index}", key="timelines", table=shown.series, chart=shown.chart)
+for notice in shown.notices:
+    ui.caption(notice)
 
 st.subheader("Are the districts drawing together?")
 trend = shown.convergence
-st.altair_chart(trend.chart, key="convergence_chart")
-st.markdown(trend.sentence)
-ui.downloads("convergence", key="convergence", table=trend.sigma, chart=trend.chart)
+if trend is None:
+    st.caption(
+        "Convergence compares district mean incomes over time; published figures carry "
+        "none, so it is not shown."
+    )
+else:
+    st.altair_chart(trend.chart, key="convergence_chart")
+    st.markdown(trend.sentence)
+    ui.downloads("convergence", key="convergence", table=trend.sigma, chart=trend.chart)
 ui.cautions(panel, ranking=False)

@@ -21,8 +21,18 @@ __all__ = [
 ]
 
 #: Built-in dataset id -> kind of demo data (their names in the list: present.vocabulary).
-DEMO_IDS: dict[str, str] = {"demo": "brackets", "demo-households": "units", "demo-means": "means"}
-DEMO_FILES = {"brackets": "deciles.csv", "units": "households.csv", "means": "means.csv"}
+DEMO_IDS: dict[str, str] = {
+    "demo": "brackets",
+    "demo-households": "units",
+    "demo-means": "means",
+    "demo-published": "published",
+}
+DEMO_FILES = {
+    "brackets": "deciles.csv",
+    "units": "households.csv",
+    "means": "means.csv",
+    "published": "published.csv",
+}
 DEMO_BOUNDARIES = "districts.geojson"
 DEMO_INCOME_CONCEPT = "equivalised disposable income per person (demo currency units)"
 

@@ -19,7 +19,7 @@ import numpy as np
 import pandas as pd
 
 from explorer.data.ids import id_strings, match_ids
-from explorer.data.model import KIND_COLUMNS
+from explorer.data.model import KIND_COLUMNS, PUBLISHED_MEASURES
 
 __all__ = [
     "LevelCandidate",
@@ -34,6 +34,7 @@ _NUMBER = re.compile(r"^[+-]?(\d+([.,]\d*)?|[.,]\d+)([eE][+-]?\d+)?%?$")
 # The panel's own columns are data, never levels.
 _NOT_LEVELS = {
     *(column for columns in KIND_COLUMNS.values() for column in columns),
+    *PUBLISHED_MEASURES,
     "name",
     "income_concept",
     "geometry",

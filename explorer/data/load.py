@@ -123,7 +123,15 @@ def read_panel_table(
             raise plain_error from None
         raise
     frame = reading.table.reset_index(drop=True)
-    frame.attrs = {"problems": list(reading.notes)}
+    frame.attrs = {
+        "problems": list(reading.notes),
+        # scales the file wrote (a % in a header or cell) outrank scales read off values
+        "scales": {
+            c.column: c.scale
+            for c in reading.published.columns
+            if c.scale == "percent" and ("% sign" in c.evidence or "says percent" in c.evidence)
+        },
+    }
     return PanelTable(frame, reading, dict(enumerate(reading.lines)))
 
 

@@ -17,6 +17,8 @@ import pandas as pd
 __all__ = [
     "KINDS",
     "KIND_COLUMNS",
+    "PUBLISHED_MEASURES",
+    "PUBLISHED_SIGNS",
     "DataError",
     "Panel",
     "Problem",
@@ -25,7 +27,13 @@ __all__ = [
     "problems_table",
 ]
 
-KINDS = ("brackets", "units", "means")
+KINDS = ("brackets", "units", "means", "published")
+
+#: Figures a statistics office publishes per district-year and Rift shows as given (the
+#: ``published`` kind), in the order they are listed. Any of the first four in a table's
+#: columns marks it as published figures; mean income and population then ride along.
+PUBLISHED_SIGNS = ("gini", "poverty_rate", "median_income", "top10_share")
+PUBLISHED_MEASURES = (*PUBLISHED_SIGNS, "mean_income", "population")
 LISTED = 8  # how many lines or ids a message names before "and N more"
 
 #: The columns of ``Panel.data`` for each kind, in order (the contract of DEVELOPERS.md).
@@ -41,6 +49,9 @@ KIND_COLUMNS: dict[str, tuple[str, ...]] = {
     ),
     "units": ("region", "year", "income", "weight"),
     "means": ("region", "year", "mean_income", "population"),
+    # One row per district, year and published figure; ``scale`` is percent, proportion
+    # or level (money, people) as detected or declared, the value as the office wrote it.
+    "published": ("region", "year", "measure", "value", "scale"),
 }
 
 
@@ -154,12 +165,12 @@ class Panel:
 
     Attributes
     ----------
-    kind : {"brackets", "units", "means"}
+    kind : {"brackets", "units", "means", "published"}
     data : DataFrame
         Long tidy table sorted by region, year (then bracket or income); columns by kind:
         brackets ``region, year, bracket, pop_share, income_share, population,
         mean_income``; units ``region, year, income, weight``; means ``region, year,
-        mean_income, population``.
+        mean_income, population``; published ``region, year, measure, value, scale``.
     levels : tuple of str
         Higher-level columns (e.g. ``("county",)``), outermost first.
     hierarchy : DataFrame

@@ -28,13 +28,24 @@ from explorer.data.checks import Findings, Layout, Log, Rows, numbers, value_lis
 from explorer.data.ids import IdMatch, id_strings
 from explorer.data.levels import LevelChoice, district_values, propose, read_choice
 from explorer.data.matching import attach_boundaries, boundary_ids, report_clashes
-from explorer.data.model import KINDS, LISTED, DataError, Panel, Problem, _listing, fingerprint
+from explorer.data.model import (
+    KINDS,
+    LISTED,
+    PUBLISHED_MEASURES,
+    PUBLISHED_SIGNS,
+    DataError,
+    Panel,
+    Problem,
+    _listing,
+    fingerprint,
+)
 from explorer.data.values import (
     CONVEX_TOL,
     SHARE_EXACT,
     SHARE_RESCALE,
     bracket_values,
     mean_values,
+    published_values,
     unit_values,
 )
 
@@ -48,11 +59,15 @@ def detect_kind(columns: Iterable[str]) -> str | None:
     """The panel kind its columns imply, or None.
 
     brackets: ``pop_share`` + ``income_share`` (long) or ``share_1 … share_k`` (wide);
-    units: ``income``; means: ``mean_income`` without brackets (the data model's rule).
+    published figures: a published index (``gini``, ``poverty_rate``, ``median_income``,
+    ``top10_share``) without shares; units: ``income``; means: ``mean_income`` without
+    brackets (the data model's rule).
     """
     cols = set(columns)
     if {"pop_share", "income_share"} <= cols or any(_SHARE_COLUMN.match(c) for c in cols):
         return "brackets"
+    if cols & set(PUBLISHED_SIGNS):
+        return "published"
     if "income" in cols:
         return "units"
     if "mean_income" in cols:
@@ -95,7 +110,9 @@ def detect_layout(columns: Sequence[str], kind: str | None, log: Log) -> Layout:
         log.add(
             f"cannot tell what kind of panel this is from its columns ({_listing(list(columns))})",
             "brackets need pop_share and income_share (or share_1 … share_k), unit records "
-            "need income, district means need mean_income; rename columns with a column map",
+            "need income, district means need mean_income, published figures one of "
+            + ", ".join(PUBLISHED_SIGNS)
+            + "; rename columns with a column map",
             row=1,
         )
         log.raise_if_failed()
@@ -109,6 +126,13 @@ def detect_layout(columns: Sequence[str], kind: str | None, log: Log) -> Layout:
         "units": ["income"],
         "means": ["mean_income"],
     }.get(kind, [])
+    if kind == "published" and not set(columns) & set(PUBLISHED_MEASURES):
+        log.add(
+            "published figures need at least one column of figures (columns present: "
+            f"{_listing(list(columns), 20)})",
+            "name a column " + ", ".join(PUBLISHED_MEASURES) + " or give a column map",
+            row=1,
+        )
     if wide:
         numbers_ = [int(c.split("_")[1]) for c in share_cols]
         gaps = sorted(set(range(1, max(numbers_) + 1)) - set(numbers_))
@@ -237,11 +261,11 @@ def _tidy(values: pd.DataFrame, rows: Rows, kind: str, good: np.ndarray) -> pd.D
     """The contract's long table: kept district-years, sorted by region, year, then within."""
     data = values[good[values["_gid"].to_numpy()]]
     # group ids already run in (region, year) order: one lexsort gives the contract's order
-    within = {"brackets": "bracket", "units": "income"}.get(kind)
+    within = {"brackets": "bracket", "units": "income", "published": "_order"}.get(kind)
     secondary = data[within].to_numpy() if within else np.zeros(len(data))
     data = data.iloc[np.lexsort((secondary, data["_gid"].to_numpy()))]
     src = data["_src"].to_numpy()
-    data = data.drop(columns=["_gid", "_src"]).reset_index(drop=True)
+    data = data.drop(columns=["_gid", "_src", "_order"], errors="ignore").reset_index(drop=True)
     data.insert(0, "year", rows.year[src])
     data.insert(0, "region", pd.Series(rows.names[rows.code[src]], dtype=str))
     return data
@@ -486,7 +510,7 @@ def validate(
     rows = _district_years(table, region, year, line)
 
     found = Findings(log)
-    values = _values(rows, layout, found, allow_negative)
+    values = _values(rows, layout, found, allow_negative, frame.attrs.get("scales"))
     excluded = _set_aside(rows, layout, found)
     good = np.ones(rows.n_groups, dtype=bool)
     good[found.fails.first()["gid"].to_numpy(dtype=np.int64)] = False
@@ -514,11 +538,15 @@ def validate(
     )
 
 
-def _values(rows: Rows, layout: Layout, found: Findings, allow_negative: bool) -> pd.DataFrame:
+def _values(
+    rows: Rows, layout: Layout, found: Findings, allow_negative: bool, scales=None
+) -> pd.DataFrame:
     if layout.kind == "brackets":
         return bracket_values(rows, layout, found)
     if layout.kind == "units":
         return unit_values(rows, found, allow_negative)
+    if layout.kind == "published":
+        return published_values(rows, found, scales)
     return mean_values(rows, found)
 
 

@@ -12,7 +12,7 @@ import numpy as np
 import pandas as pd
 
 from explorer.data.checks import Cells, Findings, Layout, Rows, value_list
-from explorer.data.model import _listing
+from explorer.data.model import PUBLISHED_MEASURES, _listing
 
 __all__ = [
     "CONVEX_TOL",
@@ -20,6 +20,8 @@ __all__ = [
     "SHARE_RESCALE",
     "bracket_values",
     "mean_values",
+    "published_scale",
+    "published_values",
     "unit_values",
 ]
 
@@ -338,3 +340,94 @@ def mean_values(rows: Rows, found: Findings) -> pd.DataFrame:
             "_src": np.arange(len(rows.table)),
         }
     )
+
+
+#: Published figures that are a part of the whole (written as percent or as proportion).
+_RATIO_MEASURES = ("gini", "poverty_rate", "top10_share")
+
+
+def published_scale(measure: str, values: np.ndarray) -> tuple[str, str]:
+    """The scale a published figure is written on, and why we think so.
+
+    Ratios of the whole are ``proportion`` when the column's median lies in [0, 1],
+    ``percent`` when it lies in (1, 100]; amounts (incomes, people) are ``level``.
+    """
+    if measure not in _RATIO_MEASURES:
+        return "level", "an amount, not a part of a whole"
+    finite = values[np.isfinite(values)]
+    if not finite.size:
+        return "unknown", "the column holds no values"
+    # Decided by the bulk of the column, so one mistyped value is set aside rather than
+    # making the whole column unreadable.
+    middle = float(np.median(finite))
+    if middle <= 1:
+        return "proportion", "the values lie between 0 and 1"
+    if middle <= 100:
+        return "percent", "the values lie between 1 and 100"
+    return "unknown", "values above 100 cannot be a percent or a proportion"
+
+
+def published_values(rows: Rows, found: Findings, scales=None) -> pd.DataFrame:
+    """The published figures of each district-year, one row per figure, checked.
+
+    A blank cell means the office published no such figure for that district-year (it is
+    noted, never invented); text, negative or out-of-scale values set the district-year
+    aside as for the other kinds. ``scales`` (measure -> scale) are those the reader saw
+    written in the file (a ``%`` in a header or cell); otherwise they come from the values.
+    """
+    _duplicate_rows(rows, found)
+    scales = dict(scales or {})
+    parts = []
+    source = np.arange(len(rows.table))
+    for order, measure in enumerate(PUBLISHED_MEASURES):
+        if measure not in rows.table.columns:
+            continue
+        cells = Cells.of(rows.table, measure, rows)
+        cells.check(found.fails, name=measure)
+        finite = np.isfinite(cells.values) & ~cells.text
+        scale, why = published_scale(measure, cells.values)
+        scale = scales.get(measure, scale)
+        if scale == "unknown":
+            found.notes.append(
+                (f"the scale of {measure} could not be told ({why}); it is shown as written", measure)
+            )
+        limit = {"percent": 100.0, "proportion": 1.0}.get(scale)
+        if limit is not None:
+            found.fails.rows(
+                finite & (cells.values > limit),
+                rows.gid,
+                rows.line,
+                measure,
+                f"{measure} is {{value!r}}, above {limit:g} on a {scale} scale",
+                cells.values,
+            )
+        blank = cells.missing.sum()
+        if blank:
+            found.notes.append(
+                (
+                    f"{int(blank)} district-year(s) have no {measure} figure (blank cells); "
+                    "they are shown as missing, not estimated",
+                    measure,
+                )
+            )
+        parts.append(
+            pd.DataFrame(
+                {
+                    "measure": measure,
+                    "value": cells.values[finite],
+                    "scale": scale,
+                    "_order": order,
+                    "_gid": rows.gid[finite],
+                    "_src": source[finite],
+                }
+            )
+        )
+    table = pd.concat(parts, ignore_index=True)
+    empty = np.setdiff1d(np.arange(rows.n_groups), table["_gid"].to_numpy())
+    found.fails.groups(
+        empty,
+        rows.first_line[empty],
+        "region",
+        ["no published figure is given for this district-year"] * len(empty),
+    )
+    return table

@@ -9,6 +9,7 @@ from typing import Any
 import pandas as pd
 
 from explorer.data.model import Panel
+from explorer.figures import series
 from explorer.figures.compute import Compute
 from explorer.figures.spatial import ClusterLayer, cluster_layer
 from explorer.figures.tables import map_values, ranking, why_missing, wide
@@ -66,19 +67,17 @@ def _classes(values: pd.Series, view: ViewState, money: bool) -> charts.Classifi
     return classification
 
 
-def _headline(ranked: pd.DataFrame, money: bool) -> tuple[tuple[str, str], ...]:
+def _headline(ranked: pd.DataFrame, money: bool, digits: int) -> tuple[tuple[str, str], ...]:
     if ranked.empty:
         return ()
+
+    def shown(value):
+        return vocabulary.figure(value, money=money, digits=digits)
+
     return (
-        (
-            f"Highest: {ranked['name'].iloc[0]}",
-            vocabulary.figure(ranked["value"].iloc[0], money=money),
-        ),
-        (
-            f"Lowest: {ranked['name'].iloc[-1]}",
-            vocabulary.figure(ranked["value"].iloc[-1], money=money),
-        ),
-        ("Median of districts", vocabulary.figure(ranked["value"].median(), money=money)),
+        (f"Highest: {ranked['name'].iloc[0]}", shown(ranked["value"].iloc[0])),
+        (f"Lowest: {ranked['name'].iloc[-1]}", shown(ranked["value"].iloc[-1])),
+        ("Median of districts", shown(ranked["value"].median())),
     )
 
 
@@ -111,11 +110,10 @@ def _cluster_chart(panel, view, layer, features, compute):
 
 
 def _index_chart(panel, view, layer, classification, mark_wide, compute):
-    means_only = panel.kind == "means"
     note = (
         " Dashed outline: bounds wider than "
         f"{vocabulary.WIDE_SHARE:.0%} of the value (the figure is uncertain there)."
-        if mark_wide and not means_only
+        if mark_wide
         else ""
     )
     label = vocabulary.value_label(view, panel)
@@ -142,16 +140,17 @@ def atlas(
     ``layer`` and ``mark_wide`` default to the view's own ``layer`` and ``show_intervals``.
     """
     layer = view.layer if layer is None else layer
-    money = panel.kind == "means"
-    mark_wide = bool(view.show_intervals if mark_wide is None else mark_wide) and not money
-    table = None if money else compute.indices(view.method)
+    money = series.is_money(panel, view.index)
+    bounded = panel.kind in ("brackets", "units")
+    mark_wide = bool(view.show_intervals if mark_wide is None else mark_wide) and bounded
+    table = series.values(panel, compute, view.index, view.method, view.year_from)
     values = map_values(panel, table, view.year, view.index)
     label = vocabulary.value_label(view, panel)
     ranked = ranking(values)
     common = dict(
         value_label=label,
         money=money,
-        ranking_title=vocabulary.ranking_title(panel.kind),
+        ranking_title=vocabulary.ranking_title(panel.kind, view.index),
         ranking_caution=vocabulary.ranking_caution(panel.kind),
         wide_count=int(wide(values).sum()) if len(values) else 0,
     )
@@ -193,7 +192,7 @@ def atlas(
         features=features,
         clusters=found,
         ranking=ranked,
-        headline=_headline(ranked, money),
+        headline=_headline(ranked, money, vocabulary.digits_of(panel, view.index)),
         remark=remark,
         **common,
     )

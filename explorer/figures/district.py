@@ -9,6 +9,7 @@ import numpy as np
 import pandas as pd
 
 from explorer.data.model import Panel
+from explorer.figures import series
 from explorer.figures.compute import Compute
 from explorer.figures.tables import (
     county_level,
@@ -48,7 +49,11 @@ def method_word(key: str) -> str:
 class DistrictFigures:
     """Everything the District sheet shows for one district in the view's year.
 
-    For means-only data ``means`` and ``means_chart`` are set and the index parts are None.
+    For means-only data ``means`` (year, mean, population, ratio to the province, rank,
+    growth on the year before) and ``means_chart`` are set, with ``facts`` (the mean, rank
+    and growth of the view's year as label, value pairs). For published figures
+    ``published`` lists the district's figures of the year with their rank and scale, and
+    ``means_chart`` draws the view's figure over time. The index parts are then None.
     """
 
     region: str
@@ -63,6 +68,8 @@ class DistrictFigures:
     has_bounds: bool = False
     fits: pd.DataFrame | None = None
     rank_chart: Any = None
+    facts: tuple[tuple[str, str], ...] = ()
+    published: pd.DataFrame | None = None
 
 
 def district_heading(panel: Panel, region: str, year: int) -> tuple[str, str]:
@@ -130,14 +137,9 @@ def district(panel: Panel, view: ViewState, compute: Compute) -> DistrictFigures
     region = view.districts[0] if view.districts else str(panel.regions[0])
     name, heading = district_heading(panel, region, view.year)
     if panel.kind == "means":
-        means = district_means(panel)
-        own = means[means["region"].astype(str) == region]
-        chart = charts.mean_income_over_time(
-            own,
-            title=f"Mean income, {name}",
-            caption=vocabulary.wrap(vocabulary.caption(view, panel)),
-        )
-        return DistrictFigures(region, name, heading, means=own, means_chart=chart)
+        return _means_sheet(panel, view, region, name, heading)
+    if panel.kind == "published":
+        return _published_sheet(panel, view, compute, region, name, heading)
     table = compute.indices(view.method)
     own = table[(table["region"].astype(str) == region) & (table["year"] == view.year)]
     headline = own[own["index"] == view.index]
@@ -165,4 +167,107 @@ def district(panel: Panel, view: ViewState, compute: Compute) -> DistrictFigures
         has_bounds=bool(np.isfinite(own[["lower", "upper"]].to_numpy(dtype=float)).any()),
         fits=fits,
         rank_chart=charts.rank_over_time(ranks(table, view.index, panel), highlight=(region,)),
+    )
+
+
+def _rank_words(rank: Any, count: int) -> str:
+    return "—" if pd.isna(rank) else f"{int(rank)} of {count}"
+
+
+def _means_sheet(panel, view, region, name, heading) -> DistrictFigures:
+    """Mean, its ratio to the province, rank and growth of one district over the years."""
+    means = district_means(panel).assign(region=lambda t: t["region"].astype(str))
+    ratio = series.means_figure(panel, "mean_ratio")[["region", "year", "value"]]
+    means = means.merge(ratio.rename(columns={"value": "ratio"}), on=["region", "year"])
+    means["rank"] = means.groupby("year")["mean_income"].rank(ascending=False, method="min")
+    means = means.sort_values(["region", "year"])
+    previous = means.groupby("region")["mean_income"].shift()
+    gap = means["year"] - means.groupby("region")["year"].shift()
+    means["growth"] = 100.0 * ((means["mean_income"] / previous) ** (1.0 / gap) - 1.0)
+    own = means[means["region"] == region].reset_index(drop=True)
+    count = means.groupby("year")["region"].nunique()
+    this = own[own["year"] == view.year]
+    growth = series.means_figure(panel, "mean_growth", view.year_from)
+    grown = growth[(growth["region"] == region) & (growth["year"] == view.year)]["value"]
+    facts = ()
+    if len(this):
+        row = this.iloc[0]
+        facts = (
+            (f"Mean income, {view.year}", vocabulary.figure(row["mean_income"], money=True)),
+            ("Rank (1 = highest mean)", _rank_words(row["rank"], int(count[view.year]))),
+            (
+                f"Growth since {view.year_from} (% a year)",
+                vocabulary.figure(grown.iloc[0] if len(grown) else np.nan, digits=2),
+            ),
+        )
+    chart = charts.mean_income_over_time(
+        own,
+        title=f"Mean income, {name}",
+        caption=vocabulary.wrap(vocabulary.caption(view, panel, every_year=True)),
+    )
+    ranked = means.assign(value=means["mean_income"], index="mean_income")
+    rank_chart = charts.rank_over_time(
+        ranked.merge(names(panel)[["region", "name"]], on="region", how="left"),
+        highlight=(region,),
+        caption="1 = highest mean income. Neighbouring ranks often differ by little.",
+        rank_title="Rank (1 = highest mean income)",
+    )
+    return DistrictFigures(
+        region, name, heading, means=own, means_chart=chart, rank_chart=rank_chart, facts=facts
+    )
+
+
+def _published_sheet(panel, view, compute, region, name, heading) -> DistrictFigures:
+    """The district's published figures of the year, each with its rank among districts."""
+    table = compute.indices(view.method)
+    year = table[table["year"] == view.year].copy()
+    year["rank"] = year.groupby("index")["value"].rank(ascending=False, method="min")
+    year["of"] = year.groupby("index")["value"].transform("count")
+    own = year[year["region"].astype(str) == region]
+    scales = panel.data.drop_duplicates("measure").set_index("measure")["scale"]
+    published = pd.DataFrame(
+        {
+            "figure": [vocabulary.index_label(k) for k in own["index"]],
+            "value": [
+                vocabulary.figure(
+                    v,
+                    money=series.is_money(panel, k),
+                    digits=vocabulary.digits_of(panel, k),
+                )
+                for k, v in zip(own["index"], own["value"], strict=True)
+            ],
+            "scale": [vocabulary.SCALE_NAMES.get(scales.get(k, ""), "") for k in own["index"]],
+            "rank": [_rank_words(r, int(n)) for r, n in zip(own["rank"], own["of"], strict=True)],
+        }
+    )
+    headline = own[own["index"] == view.index]
+    lines = table[table["index"] == view.index].assign(
+        region=lambda t: t["region"].astype(str)
+    )
+    lines = lines.merge(names(panel), on="region", how="left")
+    label = vocabulary.value_label(view, panel)
+    chart = charts.trajectories(
+        lines,
+        index=view.index,
+        label=label,
+        highlight=(region,),
+        title=f"{label}, {name} among the districts",
+        caption=vocabulary.wrap(vocabulary.caption(view, panel, every_year=True), width=90),
+    )
+    rank_rows = ranks(table, view.index, panel)
+    return DistrictFigures(
+        region,
+        name,
+        heading,
+        means_chart=chart,
+        headline=headline.iloc[0] if len(headline) else None,
+        rank_chart=charts.rank_over_time(
+            rank_rows,
+            highlight=(region,),
+            caption=f"1 = highest {vocabulary.index_label(view.index).lower()}, as published.",
+            rank_title="Rank (1 = highest figure)",
+        )
+        if len(rank_rows)
+        else None,
+        published=published,
     )

@@ -100,10 +100,16 @@ def sections(view: ViewState, panel: Panel, compute: Compute | None = None) -> R
     notes = [vocabulary.caption(view, panel)]
     found = atlas(panel, view, compute)
     _map_section(found, tables, built)
-    if panel.kind != "means":
-        built["Over time"] = timelines(panel, view, compute).chart
-    changed = _breakdown_section(panel, view, compute, tables, built, notes)
-    if panel.kind != "means" and view.districts:
+    built["Over time"] = timelines(panel, view, compute).chart
+    changed = False
+    if panel.kind == "published":
+        notes.append(
+            "Published figures are shown as given: they cannot be split into within and "
+            "between parts, since the incomes behind them were not published."
+        )
+    else:
+        changed = _breakdown_section(panel, view, compute, tables, built, notes)
+    if panel.kind in ("brackets", "units") and view.districts:
         _district_section(panel, view, compute, tables, built)
     if len(panel.excluded):
         tables["District-years set aside, with the reason"] = panel.excluded

@@ -7,6 +7,7 @@ import hashlib
 from typing import Any
 
 from explorer.data.model import Panel
+from explorer.figures.series import figure_keys
 from explorer.views import ViewState
 
 __all__ = ["narrow", "settle"]
@@ -18,7 +19,8 @@ def settle(view: ViewState, panel: Panel) -> ViewState:
     Empty or unknown years become the panel's latest year (``year``, ``year_to``) and its
     first year (``year_from``); districts the panel does not hold are dropped; a Lorenz
     method other than ``auto`` is reset for data that are not grouped shares; a grouping
-    level the panel lacks is cleared.
+    level the panel lacks is cleared; an index the panel cannot show becomes one it can
+    (:func:`explorer.figures.series.figure_keys`).
     """
     years = [int(y) for y in panel.years]
     changes: dict[str, Any] = {}
@@ -36,6 +38,10 @@ def settle(view: ViewState, panel: Panel) -> ViewState:
         changes["method"] = "auto"
     if view.level is not None and view.level not in panel.levels:
         changes["level"] = None
+    offered = figure_keys(panel)
+    if offered and view.index not in offered:
+        # gini stays where the panel has it (published Ginis); else the first figure offered
+        changes["index"] = "gini" if "gini" in offered else offered[0]
     return view.replace(**changes) if changes else view
 
 

@@ -14,6 +14,7 @@ import pandas as pd
 
 from explorer.data.model import DataError, Panel, Problem
 from explorer.figures.compute import MAP_PERMUTATIONS, Compute, clusters
+from explorer.figures.series import MEANS_FIGURES, means_figure
 from explorer.figures.tables import district_means, names
 from explorer.stats import indices, spatial
 
@@ -139,7 +140,11 @@ def variable(
         raise DataError(
             [Problem(f"year {chosen} is not in the panel", fix=f"choose one of {list(years)}")]
         )
-    if index == "mean_income":
+    if panel.kind == "means" and index in MEANS_FIGURES:
+        rows = means_figure(panel, index)
+        rows = rows[rows["year"] == chosen]
+        return rows.set_index("region")["value"].astype(float), chosen
+    if index == "mean_income" and panel.kind != "published":
         means = district_means(panel)
         rows = means[means["year"] == chosen]
         return rows.set_index("region")["mean_income"].astype(float), chosen
@@ -148,7 +153,18 @@ def variable(
             [
                 Problem(
                     "a means-only panel has no index per district",
-                    fix="use --index mean_income, or a panel of brackets or units",
+                    fix="use --index mean_income, mean_ratio or mean_growth, or a panel of "
+                    "brackets or units",
+                )
+            ]
+        )
+    if panel.kind == "published" and index not in set(panel.data["measure"]):
+        raise DataError(
+            [
+                Problem(
+                    f"the published figures hold no {index!r}",
+                    fix="use --index "
+                    + " or ".join(dict.fromkeys(panel.data["measure"].astype(str))),
                 )
             ]
         )

@@ -202,10 +202,10 @@ def district_means(panel) -> pd.DataFrame:
 def map_values(panel: Any, table: pd.DataFrame | None, year: int, index: str) -> pd.DataFrame:
     """One row per district for the map: region, name, county, value, lower, upper, wide.
 
-    ``table`` is the index table of the panel (unused for means-only panels, whose map
-    shows the district mean income).
+    ``table`` holds the figures of every district-year (the index table, or the rows of
+    :func:`explorer.figures.series.values`); without one, the district mean income.
     """
-    if panel.kind == "means" or table is None:
+    if table is None:
         means = district_means(panel)
         rows = means[means["year"] == year].rename(columns={"mean_income": "value"})
         rows = rows.assign(lower=np.nan, upper=np.nan, note="")

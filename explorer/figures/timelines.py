@@ -9,6 +9,7 @@ import numpy as np
 import pandas as pd
 
 from explorer.data.model import Panel
+from explorer.figures import series
 from explorer.figures.compute import Compute
 from explorer.figures.tables import district_means, names
 from explorer.present import charts, vocabulary
@@ -26,9 +27,8 @@ __all__ = [
 
 
 def district_series(panel: Panel, view: ViewState, compute: Compute) -> pd.DataFrame:
-    """The view's index for every district and year, with names and counties."""
-    table = compute.indices(view.method)
-    rows = table[table["index"] == view.index]
+    """The view's figure for every district and year, with names and counties."""
+    rows = series.values(panel, compute, view.index, view.method, view.year_from)
     rows = rows.assign(region=rows["region"].astype(str))
     return rows.merge(names(panel), on="region", how="left").reset_index(drop=True)
 
@@ -36,8 +36,11 @@ def district_series(panel: Panel, view: ViewState, compute: Compute) -> pd.DataF
 def province_series(
     panel: Panel, view: ViewState, compute: Compute, index: str | None = None
 ) -> pd.DataFrame | None:
-    """year, value of the whole province (pooled), where the index decomposes."""
+    """year, value of the whole province (pooled), where the index decomposes; for district
+    means the province's mean, ratio or growth (:func:`explorer.figures.series.province`)."""
     index = index or view.index
+    if panel.kind in ("means", "published"):
+        return series.province(panel, index, view.year_from)
     if index not in vocabulary.DECOMPOSABLE:
         return None
     parts = compute.breakdown(tuple(panel.levels), index, view.method)
@@ -123,13 +126,14 @@ def convergence(panel: Panel) -> Convergence:
 
 @dataclass(frozen=True)
 class TimelineFigures:
-    """The Timelines page: district series (None for means-only data) and convergence."""
+    """The Timelines page: district series, the province line and convergence (None for
+    published figures, which carry no district means to compare)."""
 
     series: pd.DataFrame | None
     province: pd.DataFrame | None
     chart: Any
     highlighted: pd.DataFrame | None
-    convergence: Convergence
+    convergence: Convergence | None
     notices: tuple[str, ...]
 
 
@@ -139,32 +143,40 @@ def timelines(
     """The Timelines figures of ``view`` (one panel per county if ``by_county``, which
     defaults to the view's own ``by_county``)."""
     by_county = view.by_county if by_county is None else by_county
-    trend = convergence(panel)
-    if panel.kind == "means":
-        notice = (
-            "District means only: there is no inequality inside districts to follow. Below: "
-            "whether the district means draw together over time."
-        )
-        return TimelineFigures(None, None, None, None, trend, (notice,))
-    series = district_series(panel, view, compute)
+    trend = None if panel.kind == "published" else convergence(panel)
+    lines = district_series(panel, view, compute)
     province = province_series(panel, view, compute)
+    label = vocabulary.value_label(view, panel)
+    province_words = {
+        "means": " Dashed black: the province (its mean income, weighted by population where "
+        "every district has one).",
+    }.get(panel.kind, " Dashed black: the whole province.")
     chart = charts.trajectories(
-        series,
+        lines,
         index=view.index,
+        label=label,
         highlight=view.districts,
         province=province,
         by_county=by_county,
-        title=f"{vocabulary.value_label(view, panel)} by district over time",
+        title=f"{label} by district over time",
         caption=vocabulary.wrap(
             vocabulary.caption(view, panel, every_year=True)
-            + (" Dashed black: the whole province." if province is not None else "")
+            + (province_words if province is not None else "")
         ),
     )
     highlighted = None
     if view.districts:
-        shown = series[series["region"].isin(view.districts)]
-        highlighted = shown.pivot_table(index="year", columns="name", values="value").round(4)
-    notices = ()
+        shown = lines[lines["region"].isin(view.districts)]
+        digits = vocabulary.digits_of(panel, view.index)
+        highlighted = shown.pivot_table(index="year", columns="name", values="value").round(
+            max(digits, 1) if digits else 0
+        )
+    notices: tuple[str, ...] = ()
     if province is None:
-        notices = ("No province line for this index: it is not computed for the pooled province.",)
-    return TimelineFigures(series, province, chart, highlighted, trend, notices)
+        notices = (
+            "No province line: the source's own province figure is not among the published "
+            "figures, and it is not recomputed from districts."
+            if panel.kind == "published"
+            else "No province line for this index: it is not computed for the pooled province.",
+        )
+    return TimelineFigures(lines, province, chart, highlighted, trend, notices)

@@ -31,6 +31,11 @@ CAUTIONS: dict[str, str] = {
         "Only district means are available: the figures describe inequality between "
         "districts, not inside them."
     ),
+    "published": (
+        "These figures are shown as the source published them: their definitions, survey "
+        "years, price base and margins of error are the source's. Check its notes before "
+        "comparing districts or years; Rift cannot bound, recompute or split them."
+    ),
     "funds": (
         "An index alone should not decide an allocation of funds. Rankings and classes "
         "here describe the data; follow your office's own allocation rules and the "
@@ -63,7 +68,7 @@ def for_view(
 
     Parameters
     ----------
-    kind : {"brackets", "units", "means"}
+    kind : {"brackets", "units", "means", "published"}
         The panel's kind.
     ranking : bool
         Whether the view ranks or classes districts (map, rank chart, sorted table).
@@ -88,6 +93,8 @@ def for_view(
         chosen.append(CAUTIONS["samples"])
     elif kind == "means":
         chosen.append(CAUTIONS["means"])
+    elif kind == "published":
+        chosen.append(CAUTIONS["published"])
     if wide_intervals > 0:
         chosen.append(_wide(int(wide_intervals)))
     chosen.append(CAUTIONS["concept"])

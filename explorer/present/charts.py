@@ -515,6 +515,7 @@ def trajectories(
     by_county: bool = False,
     title: str | None = None,
     caption: str | None = None,
+    label: str | None = None,
 ) -> alt.Chart:
     """One line per district over the years, chosen districts emphasised.
 
@@ -532,12 +533,14 @@ def trajectories(
     by_county : bool
         Small multiples, one panel per county (needs a ``county`` column).
     title, caption : str, optional
+    label : str, optional
+        The value axis's title; by default the index's.
 
     Returns
     -------
     alt.Chart or alt.FacetChart
     """
-    label = index_label(index)
+    label = label or index_label(index)
     rows = table[table["index"] == index] if "index" in table.columns else table
     rows = _records(rows)
     if "name" not in rows.columns:
@@ -611,6 +614,7 @@ def rank_over_time(
     highlight: Iterable[str] = (),
     title: str = "Rank of each district over time",
     caption: str = "1 = most unequal. Ranks move on small differences; read them with the intervals.",
+    rank_title: str = "Rank (1 = most unequal)",
 ) -> alt.Chart:
     """Districts' ranks by year (1 on top); the district under the pointer stands out.
 
@@ -621,6 +625,8 @@ def rank_over_time(
     highlight : iterable of str
         District ids drawn in colour.
     title, caption : str
+    rank_title : str
+        The rank axis's title, saying what rank 1 is.
 
     Returns
     -------
@@ -634,7 +640,7 @@ def rank_over_time(
     tips = [
         alt.Tooltip("name:N", title="District"),
         alt.Tooltip("year:O", title="Year"),
-        alt.Tooltip("rank:Q", title="Rank (1 = most unequal)"),
+        alt.Tooltip("rank:Q", title=rank_title),
     ]
     if "value" in data.columns:
         tips.append(alt.Tooltip("value:Q", title="Value", format=".3f"))
@@ -644,7 +650,7 @@ def rank_over_time(
         .mark_line(point=True)
         .encode(
             x=_YEAR_X,
-            y=alt.Y("rank:Q", title="Rank (1 = most unequal)", scale=alt.Scale(reverse=True)),
+            y=alt.Y("rank:Q", title=rank_title, scale=alt.Scale(reverse=True)),
             detail="region:N",
             color=alt.when(hover)
             .then(alt.value("#000000"))

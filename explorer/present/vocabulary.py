@@ -29,16 +29,20 @@ __all__ = [
     "DECOMPOSABLE",
     "DEMO_DATASETS",
     "FIND_HELP",
+    "FIGURE_LABELS",
     "FIT_COLUMNS",
     "INDEX_COLUMNS",
     "INDEX_LABELS",
     "INTERVAL_FIELD",
+    "KIND_NOTES",
     "LAYER_HELP",
     "LAYER_LABELS",
     "LORENZ_METHODS",
     "METHOD_LABELS",
     "PAGES",
     "PART_COLUMNS",
+    "SCALE_NAMES",
+    "SCALE_WORDS",
     "PART_TEXT",
     "PART_WORDS",
     "WIDE_SHARE",
@@ -48,15 +52,19 @@ __all__ = [
     "caption",
     "dataset_name",
     "describe_view",
+    "digits_of",
     "figure",
+    "figure_label",
     "filter_text",
     "groups_word",
     "index_label",
     "method_label",
     "money",
     "part_label",
+    "published_scale",
     "ranking_caution",
     "ranking_title",
+    "table_format",
     "tidy_zero",
     "value_label",
     "wrap",
@@ -82,6 +90,31 @@ _INDEX_WORDS = {
 #: ``explorer.stats.indices.DEFAULT_INDICES`` without a name here fails at import.
 INDEX_LABELS: dict[str, str] = {key: _INDEX_WORDS[key] for key in indices.DEFAULT_INDICES}
 
+#: Figures other than computed indices: those of district means and published figures.
+FIGURE_LABELS: dict[str, str] = {
+    "mean_income": "Mean income",
+    "mean_ratio": "Mean income ÷ province mean",
+    "mean_growth": "Growth of mean income (% a year)",
+    "poverty_rate": "Poverty rate",
+    "median_income": "Median income",
+    "population": "Population",
+}
+#: How a published figure's scale is said in a label.
+SCALE_WORDS = {
+    "percent": "%",
+    "proportion": "0–1",
+    "level": "",
+    "unknown": "scale as written",
+}
+
+#: A published figure's scale in a table.
+SCALE_NAMES = {
+    "percent": "percent",
+    "proportion": "proportion (0–1)",
+    "level": "amount",
+    "unknown": "as written (scale not told)",
+}
+
 #: Axis titles with the units a chart's reader needs.
 AXIS_LABELS: dict[str, str] = {
     "gini": "Gini coefficient (0 = equal, 1 = one holds all)",
@@ -92,6 +125,12 @@ AXIS_LABELS: dict[str, str] = {
     "s80_s20": "S80/S20 ratio (top 20 % ÷ bottom 20 %)",
     "top10_share": "Income share of the top 10 % (0–1)",
     "bottom40_share": "Income share of the bottom 40 % (0–1)",
+    "mean_income": "Mean income (currency units)",
+    "mean_ratio": "Mean income ÷ province mean (1 = the province)",
+    "mean_growth": "Average growth of mean income (% a year)",
+    "poverty_rate": "Poverty rate",
+    "median_income": "Median income (currency units)",
+    "population": "Population (people)",
 }
 
 #: Indices that split exactly into within and between parts (the Gini with its overlap).
@@ -110,8 +149,23 @@ def _family_label(key: str, named: dict[str, str], ge_unit: str = "", atk_unit: 
 
 
 def index_label(key: str) -> str:
-    """A planner's name for an index key."""
-    return _family_label(key, INDEX_LABELS)
+    """A planner's name for an index key (or a figure of district means or published)."""
+    return _family_label(key, {**FIGURE_LABELS, **INDEX_LABELS})
+
+
+def figure_label(key: str, panel: Any) -> str:
+    """A figure's name on this panel: published figures say so (``Gini coefficient, as
+    published``), the others are named as the index table names them."""
+    name = index_label(key)
+    return f"{name}, as published" if getattr(panel, "kind", "") == "published" else name
+
+
+def published_scale(panel: Any, key: str) -> str:
+    """The scale of a published figure (``percent``, ``proportion``, ``level``), or ""."""
+    if getattr(panel, "kind", "") != "published":
+        return ""
+    rows = panel.data.loc[panel.data["measure"] == key, "scale"]
+    return str(rows.iloc[0]) if len(rows) else ""
 
 
 def axis_label(key: str) -> str:
@@ -173,6 +227,7 @@ _DEMO_NAMES = {
     "demo": "Demo: decile shares",
     "demo-households": "Demo: household sample",
     "demo-means": "Demo: district means",
+    "demo-published": "Demo: published figures",
 }
 DEMO_DATASETS: dict[str, tuple[str, str]] = {
     dataset: (_DEMO_NAMES[dataset], kind) for dataset, kind in DEMO_IDS.items()
@@ -250,15 +305,26 @@ INDEX_COLUMNS = {
 }
 
 
-def ranking_title(kind: str) -> str:
+def ranking_title(kind: str, key: str = "") -> str:
     """The heading of a district ranking: what rank 1 means for this kind of data."""
+    if kind == "published":
+        return f"Districts ranked (1 = highest {index_label(key).lower() or 'figure'}, as published)"
     if kind == "means":
-        return "Districts ranked (1 = highest mean income)"
+        return {
+            "mean_ratio": "Districts ranked (1 = furthest above the province mean)",
+            "mean_growth": "Districts ranked (1 = fastest growth)",
+        }.get(key, "Districts ranked (1 = highest mean income)")
     return "Districts ranked (1 = most unequal)"
 
 
 def ranking_caution(kind: str) -> str:
     """The sentence under a ranking: read a rank with its figures, not as a verdict."""
+    if kind == "published":
+        return (
+            "Figures as the source published them, without bounds: neighbouring ranks may "
+            "differ by less than the source's own margin of error. Read a rank with the "
+            "figures beside it and the source's notes, not as a verdict."
+        )
     if kind == "means":
         return (
             "Neighbouring ranks often differ by little: read a rank with the figures beside "
@@ -359,7 +425,15 @@ def wrap(text: str, width: int = CAPTION_CHARS) -> list[str]:
 def value_label(view: Any, panel: Any) -> str:
     """What the map's colour means, with its units."""
     if panel.kind == "means":
-        return "Mean income (currency units)"
+        if view.index == "mean_growth":
+            return f"Average growth of mean income since {view.year_from} (% a year)"
+        return AXIS_LABELS.get(view.index, AXIS_LABELS["mean_income"])
+    if panel.kind == "published":
+        unit = SCALE_WORDS.get(published_scale(panel, view.index), "")
+        if view.index == "median_income" or view.index == "mean_income":
+            unit = "currency units"
+        label = figure_label(view.index, panel)
+        return f"{label} ({unit})" if unit else label
     full = index_label(view.index)
     label = full.split(" (")[0]
     if view.index.endswith("_share"):
@@ -385,8 +459,12 @@ def caption(view: Any, panel: Any, *, every_year: bool = False) -> str:
         how = f"Lorenz curves rebuilt from income shares: {method_label(view.method).lower()}"
     elif panel.kind == "units":
         how = "computed from weighted unit records"
+    elif panel.kind == "published":
+        how = "figures as the source published them, not recomputed or bounded"
     else:
         how = "district mean incomes"
+        if getattr(view, "index", "") == "mean_ratio":
+            how += "; the province mean weights districts by population where every one has it"
     from explorer.data.dataset_store import facts_of  # the dataset's facts, as saved
 
     given = facts_of(panel).caption().rstrip(".")
@@ -447,6 +525,34 @@ def figure(value: Any, *, money: bool = False, digits: int = 3) -> str:
     if abs(number) < 0.5 * 10.0**-digits:
         number = 0.0
     return f"{number:.{digits}f}"
+
+
+def digits_of(panel: Any, key: str) -> int:
+    """Decimals a figure is shown with: whole units for money and people, one decimal for
+    percents (as offices print them), two for yearly growth, three otherwise."""
+    if key in ("mean_income", "median_income", "population"):
+        return 0
+    if key == "mean_growth" or published_scale(panel, key) == "percent":
+        return 1 if key != "mean_growth" else 2
+    return 3
+
+
+def table_format(panel: Any, key: str) -> str:
+    """The column format of a figure in a table (as :func:`digits_of` says)."""
+    digits = digits_of(panel, key)
+    return "%,.0f" if digits == 0 else f"%.{digits if digits != 3 else 4}f"
+
+
+#: Said once at the top of the Map for data that are not grouped shares or unit records.
+KIND_NOTES = {
+    "means": "This dataset has one mean income per district, so there is no inequality "
+    "inside districts to map. The map shows district mean incomes, their ratio to the "
+    "province's mean or their growth; the Breakdown page splits the inequality between "
+    "districts into their groups.",
+    "published": "These are figures as the source published them, one per district and "
+    "year: they are mapped, ranked and followed over time as given, never recomputed, "
+    "bounded or split into parts.",
+}
 
 
 def money(low: float, high: float) -> str:

@@ -257,6 +257,32 @@ def _means(panel, indices, ci) -> pd.DataFrame:
     )
 
 
+def _published(panel: Panel, indices: str | Sequence[str]) -> pd.DataFrame:
+    """Published figures in the index table's form, as given: never recomputed or bounded.
+
+    The default asks for every figure the table holds; named keys keep those present.
+    """
+    data = panel.data
+    asked = (indices,) if isinstance(indices, str) else tuple(indices)
+    if asked != tuple(DEFAULT_INDICES):
+        data = data[data["measure"].isin(asked)]
+    nan = np.full(len(data), np.nan)
+    table = pd.DataFrame(
+        {
+            "region": data["region"].to_numpy(),
+            "year": data["year"].to_numpy(),
+            "index": data["measure"].to_numpy(),
+            "value": data["value"].to_numpy(dtype=float),
+            "lower": nan,
+            "upper": nan,
+            "method": "published",
+            "note": ("as published, " + data["scale"].astype(str)).to_numpy(dtype=object),
+        }
+    )
+    table.attrs.update(kind="published", ci=None, level=None)
+    return table
+
+
 # ---------------------------------------------------------------------------- public
 
 
@@ -302,6 +328,8 @@ def compute(
     Gastwirth, J. L. (1972). The estimation of the Lorenz curve and Gini index.
     *Review of Economics and Statistics* 54: 306–316 (the bounds).
     """
+    if panel.kind == "published":
+        return _published(panel, indices)
     methods, indices = _check_arguments(methods, indices, ci, reps, level)
     kind = panel.kind
     if len(panel.data) == 0:

@@ -36,6 +36,7 @@ KINDS = {
     "brackets": "Income shares by population group",
     "units": "Household or person records",
     "means": "One mean income per district",
+    "published": "Figures the source published (a Gini, a poverty rate, a median income)",
 }
 # Our column names a file's columns can be mapped onto.
 TARGETS = (
@@ -47,6 +48,10 @@ TARGETS = (
     "weight",
     "mean_income",
     "population",
+    "gini",
+    "poverty_rate",
+    "median_income",
+    "top10_share",
 )
 AS_IS = "(as in the file)"
 

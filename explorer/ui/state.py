@@ -21,12 +21,11 @@ from explorer.figures import narrow, settle
 from explorer.present import vocabulary
 from explorer.present.vocabulary import (
     DECOMPOSABLE,
-    INDEX_LABELS,
     METHOD_LABELS,
     PAGES,
-    index_label,
     method_label,
 )
+from explorer.figures.series import figure_keys
 from explorer.ui import data, show
 from explorer.ui.cache import CachedCompute
 
@@ -46,6 +45,14 @@ __all__ = [
 ]
 
 VIEW = "rift_view"
+#: The sidebar's figure control, named for what the data can show.
+FIGURE_CONTROL = {"means": "Figure of district means", "published": "Published figure"}
+FIGURE_HELP = {
+    "means": "One mean income per district: the mean itself, its ratio to the province's "
+    "mean, or its average yearly growth since a first year.",
+    "published": "The figures the source published for each district, shown as given: "
+    "they cannot be recomputed, bounded or split into parts here.",
+}
 NOTICES = "rift_notices"
 PANEL = "rift_panel"
 
@@ -59,7 +66,7 @@ def known(panel: Any, catalog: Sequence[data.Dataset]) -> dict[str, Any]:
             districts=tuple(str(r) for r in panel.regions),
             levels=tuple(panel.levels),
             counties=tuple(_counties(panel)),
-            indices=tuple(INDEX_LABELS),
+            indices=figure_keys(panel),
             methods=tuple(METHOD_LABELS) if panel.kind == "brackets" else ("auto",),
             decomposition_indices=DECOMPOSABLE,
         )
@@ -219,15 +226,10 @@ def sidebar(catalog: Sequence[data.Dataset], panel: Any) -> None:
         control(
             "index",
             st.selectbox,
-            "Inequality index",
-            list(INDEX_LABELS),
-            format_func=index_label,
-            # One mean per district has no inequality inside districts to measure; the
-            # index still measures the inequality between districts on the Breakdown page.
-            help="District means only: the map and the sheets show mean incomes; this "
-            "index measures the inequality between districts on the Breakdown page."
-            if panel.kind == "means"
-            else None,
+            FIGURE_CONTROL.get(panel.kind, "Inequality index"),
+            list(figure_keys(panel)),
+            format_func=lambda key: vocabulary.figure_label(key, panel),
+            help=FIGURE_HELP.get(panel.kind),
         )
         if panel.kind == "brackets":
             control(
@@ -247,11 +249,12 @@ def sidebar(catalog: Sequence[data.Dataset], panel: Any) -> None:
                 help="Resamples the households 199 times to show how much each district's "
                 "figure could move with another sample. Takes a little while the first time.",
             )
+        elif panel.kind == "published":
+            st.caption("Published figures: shown as the source gave them, never recomputed.")
         else:
             st.caption(
-                "Unit records: indices come straight from the records."
-                if panel.kind == "units"
-                else "District means only: the figures are inequality between districts."
+                "District means only: no inequality inside districts can be measured; the "
+                "Breakdown page splits the inequality between districts."
             )
         if panel.levels:
             groups = _counties(panel)

@@ -32,7 +32,14 @@ LAYOUTS = {
 LISTED = 5
 RESERVED = {"line", "region", "year"}
 #: Column names of the panel contract, which a long table keeps as they are.
-CONTRACT = {c for columns in KIND_COLUMNS.values() for c in columns} - {"region", "year"}
+CONTRACT = {c for columns in KIND_COLUMNS.values() for c in columns} - {
+    "region",
+    "year",
+    # the published kind's long columns are made by validation, never read from a file
+    "measure",
+    "value",
+    "scale",
+}
 
 
 @dataclass(frozen=True)

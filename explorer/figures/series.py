@@ -1,0 +1,149 @@
+"""One series of values per district-year, whatever the kind of data: what the Map, the
+Timelines and the District sheet draw.
+
+Grouped shares and unit records give an index per district-year (the index table). District
+means give three money figures: the mean itself, its ratio to the province's mean, and its
+growth since a first year. Published figures are shown as the office gave them.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from explorer.data.model import PUBLISHED_MEASURES, Panel
+from explorer.figures.tables import district_means
+
+__all__ = [
+    "MEANS_FIGURES",
+    "figure_keys",
+    "is_money",
+    "means_figure",
+    "province",
+    "province_mean",
+    "values",
+]
+
+#: What a means-only panel can show per district-year.
+MEANS_FIGURES = ("mean_income", "mean_ratio", "mean_growth")
+#: Figures that are amounts (money, people): whole units with thousands separators.
+_MONEY = ("mean_income", "median_income", "population")
+
+
+def figure_keys(panel: Panel) -> tuple[str, ...]:
+    """The figures a panel can show per district-year, in the order the sidebar lists them."""
+    from explorer.present.vocabulary import INDEX_LABELS
+
+    if panel.kind == "means":
+        return MEANS_FIGURES
+    if panel.kind == "published":
+        held = set(panel.data["measure"])
+        return tuple(m for m in PUBLISHED_MEASURES if m in held)
+    return tuple(INDEX_LABELS)
+
+
+def is_money(panel: Panel, key: str) -> bool:
+    """Whether ``key`` is an amount (money, people) on this panel: whole units, separators."""
+    return key in _MONEY and panel.kind in ("means", "published")
+
+
+def province_mean(means: pd.DataFrame) -> pd.DataFrame:
+    """year, value, weighted: the province's mean income each year.
+
+    Weighted by population where every district of the year has one, else the plain mean of
+    the district means (each district counts equally), which ``weighted`` says.
+    """
+    rows = means[np.isfinite(means["mean_income"])]
+    pop = rows["population"].to_numpy(dtype=float) if "population" in rows else None
+    out = []
+    for year, group in rows.groupby("year", sort=True):
+        mean = group["mean_income"].to_numpy(dtype=float)
+        weights = None if pop is None else group["population"].to_numpy(dtype=float)
+        weighted = weights is not None and bool(np.all(np.isfinite(weights) & (weights > 0)))
+        value = float(np.average(mean, weights=weights if weighted else None))
+        out.append({"year": int(year), "value": value, "weighted": weighted})
+    return pd.DataFrame(out, columns=["year", "value", "weighted"])
+
+
+def means_figure(panel: Panel, key: str, since: int | None = None) -> pd.DataFrame:
+    """region, year, value, lower, upper, note of a means figure for every district-year.
+
+    ``mean_income``: the district mean. ``mean_ratio``: the district mean over the
+    province's mean of the same year (:func:`province_mean`). ``mean_growth``: the average
+    yearly growth of the district mean since ``since`` (default: the first year), in percent,
+    compounded: 100 · ((m_t / m_since)^(1 / (t − since)) − 1) (common practice); blank for
+    ``since`` itself and earlier years.
+    """
+    means = district_means(panel)
+    means = means.assign(region=means["region"].astype(str))
+    value = means["mean_income"].to_numpy(dtype=float)
+    note = np.full(len(means), "", dtype=object)
+    if key == "mean_ratio":
+        province = province_mean(means).set_index("year")["value"]
+        value = value / means["year"].map(province).to_numpy(dtype=float)
+    elif key == "mean_growth":
+        first = int(min(panel.years)) if since is None else int(since)
+        base = means[means["year"] == first].set_index("region")["mean_income"]
+        start = means["region"].map(base).to_numpy(dtype=float)
+        span = (means["year"] - first).to_numpy(dtype=float)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            value = np.where(span > 0, 100.0 * ((value / start) ** (1.0 / span) - 1.0), np.nan)
+        note = np.where(
+            span <= 0,
+            f"growth is measured from {first} on",
+            np.where(np.isnan(start), f"no mean income in {first}", ""),
+        ).astype(object)
+    elif key != "mean_income":
+        raise KeyError(f"{key!r} is not a figure of district means; use one of {MEANS_FIGURES}")
+    nan = np.full(len(means), np.nan)
+    return pd.DataFrame(
+        {
+            "region": means["region"].to_numpy(),
+            "year": means["year"].to_numpy(),
+            "index": key,
+            "value": value,
+            "lower": nan,
+            "upper": nan,
+            "method": "means",
+            "note": note,
+        }
+    )
+
+
+def province(panel: Panel, key: str, since: int | None = None) -> pd.DataFrame | None:
+    """year, value of the province for a figure of district means; None otherwise.
+
+    The province's mean income (:func:`province_mean`); its ratio to itself, 1; its yearly
+    growth since ``since``. Published figures have no province line: the office's own
+    province figure is not among them, and it is not recomputed from districts.
+    """
+    if panel.kind != "means" or key not in MEANS_FIGURES:
+        return None
+    line = province_mean(district_means(panel))[["year", "value"]]
+    if key == "mean_ratio":
+        return line.assign(value=1.0)
+    if key == "mean_growth":
+        first = int(min(panel.years)) if since is None else int(since)
+        base = line.loc[line["year"] == first, "value"]
+        if base.empty:
+            return None
+        span = (line["year"] - first).to_numpy(dtype=float)
+        ratio = line["value"].to_numpy(dtype=float) / float(base.iloc[0])
+        with np.errstate(divide="ignore", invalid="ignore"):
+            grown = np.where(span > 0, 100.0 * (ratio ** (1.0 / span) - 1.0), np.nan)
+        return line.assign(value=grown).dropna().reset_index(drop=True)
+    return line
+
+
+def values(panel: Panel, compute: Any, key: str, method: str, since: int | None = None):
+    """The index table's rows of ``key`` for every district-year (see the module docstring).
+
+    ``compute`` is the page's :class:`~explorer.figures.compute.Compute`; for district means
+    the figures come straight from the panel.
+    """
+    if panel.kind == "means":
+        return means_figure(panel, key, since)
+    table = compute.indices(method)
+    return table[table["index"] == key].reset_index(drop=True)
