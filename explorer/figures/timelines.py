@@ -168,8 +168,9 @@ def timelines(
     if view.districts:
         shown = lines[lines["region"].isin(view.districts)]
         digits = vocabulary.digits_of(panel, view.index)
+        # indices to four decimals as in the tables; money whole, percents as published
         highlighted = shown.pivot_table(index="year", columns="name", values="value").round(
-            max(digits, 1) if digits else 0
+            4 if digits == 3 else digits
         )
     notices: tuple[str, ...] = ()
     if province is None:
