@@ -262,3 +262,77 @@ def test_a_year_given_for_a_table_with_years_is_not_used_and_said_so() -> None:
     reading = read_office_table(PLAIN.encode(), "y.csv", year=1990, measure="population")
     assert sorted(reading.table["year"].unique()) == [2001, 2002, 2003]
     assert any("1990 was given" in p.message for p in reading.notes)
+
+
+def test_bracket_shares_by_group_with_years_across_become_a_bracket_panel(tmp_path) -> None:
+    """One line per district and quintile, years across, shares in percent.
+
+    The lower bound of the Gini from grouped shares is the trapezoid rule over the Lorenz
+    points (Gastwirth 1972, *Review of Economics and Statistics* 54: 306-316), computed
+    here by hand from the file's numbers.
+    """
+    from explorer.data.load import load_panel
+    from explorer.stats import indices
+
+    shares = {
+        ("Ashvale", 2001): [6.0, 12.0, 17.0, 23.0, 42.0],
+        ("Ashvale", 2002): [6.5, 12.5, 17.0, 23.0, 41.0],
+        ("Northland", 2001): [7.0, 13.0, 18.0, 23.0, 39.0],
+        ("Northland", 2002): [7.5, 13.0, 18.0, 22.5, 39.0],
+    }
+    lines = ["Table 7. Income shares by quintile (%)", "District,Quintile,2001,2002"]
+    for district in ("Ashvale", "Northland"):
+        for q in range(5):
+            lines.append(
+                f"{district},Q{q + 1},{shares[(district, 2001)][q]},{shares[(district, 2002)][q]}"
+            )
+    lines.append("Source: invented survey of the test province.")
+    path = tmp_path / "quintiles.csv"
+    path.write_text("\n".join(lines) + "\n", encoding="utf-8")
+    panel = load_panel(path)
+    assert panel.kind == "brackets"
+    assert sorted(panel.data.groupby(["region", "year"]).size().tolist()) == [5, 5, 5, 5]
+    table = indices.compute(panel, indices=("gini",)).set_index(["region", "year"])
+    for key, given in shares.items():
+        share = [s / 100 for s in given]
+        lorenz = [0.0]
+        for s in share:
+            lorenz.append(lorenz[-1] + s)
+        trapezoid = 1 - sum(0.2 * (a + b) for a, b in zip(lorenz[:-1], lorenz[1:], strict=True))
+        assert abs(table.loc[key, "lower"] - trapezoid) < 1e-12
+    assert any("one line per district and quintile" in w.message for w in panel.warnings)
+
+
+def test_a_group_given_twice_for_a_district_is_named(tmp_path) -> None:
+    from explorer.data.load import load_panel
+
+    text = "District,Decile,2001,2002\nAshvale,1,5,5\nAshvale,1,6,6\nAshvale,2,89,89\n"
+    path = tmp_path / "twice.csv"
+    path.write_text(text, encoding="utf-8")
+    with pytest.raises(DataError, match="has group 1 twice for 2001"):
+        load_panel(path)
+
+
+def test_a_workbook_with_a_sheet_per_measure_opens_as_a_panel(tmp_path) -> None:
+    """End to end: the workbook's two sheets become one means panel with populations."""
+    from explorer.data.load import load_panel
+
+    data = _workbook(
+        {
+            "Notes": [["Valdoria Board of Statistics"], ["All figures provisional."]],
+            "Mean income": [
+                ["Income per person, current prices"],
+                ["District", 2001, 2002],
+                ["Ashvale", "12,100", 12800],
+                ["Northland", 20400, "21,000 (r)"],
+            ],
+            "Population": [["District", 2001, 2002], ["Ashvale", 5100, 5200], ["Northland", 7000, 7100]],
+        }
+    )
+    path = tmp_path / "book.xlsx"
+    path.write_bytes(data)
+    panel = load_panel(path)
+    assert panel.kind == "means"
+    got = panel.data.set_index(["region", "year"])[["mean_income", "population"]]
+    assert got.loc[("Northland", 2002)].tolist() == [21000.0, 7100.0]
+    assert got.loc[("Ashvale", 2001)].tolist() == [12100.0, 5100.0]

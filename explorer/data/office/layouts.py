@@ -12,6 +12,7 @@ Layouts (``key``: in words):
 from __future__ import annotations
 
 import math
+import re
 from collections import Counter, defaultdict
 from dataclasses import dataclass
 
@@ -31,6 +32,17 @@ LAYOUTS = {
 }
 LISTED = 5
 RESERVED = {"line", "region", "year"}
+#: A header naming the population group of a line (a quintile, decile, bracket).
+_BRACKET_HEADER = re.compile(
+    r"\b(?:quintile|decile|quartile|ventile|bracket|group|tenth|fifth|quantile|class)s?\b",
+    re.IGNORECASE,
+)
+#: A group's number as offices write it: ``3``, ``Q3``, ``D10``, ``3rd``, ``group 3``.
+_BRACKET_VALUE = re.compile(
+    r"^\s*(?:(?:q|d|s|g|group|bracket|quintile|decile|quartile)\s*)?(\d{1,2})"
+    r"(?:st|nd|rd|th)?(?:\s*(?:quintile|decile|quartile|group|bracket|tenth|fifth))?\s*$",
+    re.IGNORECASE,
+)
 #: Column names of the panel contract, which a long table keeps as they are.
 CONTRACT = {c for columns in KIND_COLUMNS.values() for c in columns} - {
     "region",
@@ -251,6 +263,38 @@ def _measure_names(
     return names
 
 
+def _bracket_column(header: list[str], body: list[tuple[str, ...]], labels: list[int]) -> int | None:
+    """The column numbering each line's population group, when lines are district × group:
+    headed like a group (``Quintile``) and every cell a group number (``3``, ``Q3``)."""
+    for j in [*labels[1:], max(labels) + 1]:
+        if j >= len(header) or not _BRACKET_HEADER.search(header[j]) or header_year(header[j]):
+            continue
+        values = [cells[j] for cells in body if j < len(cells) and cells[j].strip()]
+        if values and all(_BRACKET_VALUE.match(v) for v in values):
+            return j
+    return None
+
+
+def _shares_by_group(table: pd.DataFrame, key: str, file: str) -> pd.DataFrame:
+    """One line per district and year with ``share_1 … share_k`` from one line per group."""
+    groups = table["bracket"].map(lambda v: int(_BRACKET_VALUE.match(v).group(1)))
+    doubled = table.assign(group=groups).duplicated(["region", "year", "group"])
+    if doubled.any():
+        first = table[doubled].iloc[0]
+        raise fail(
+            f"district '{first['region']}' has group {first['bracket']} twice for {first['year']}.",
+            "Give each district one line per population group.",
+            file=file,
+            row=int(first["line"]),
+        )
+    wide = table.assign(group=groups).pivot_table(
+        index=["region", "year"], columns="group", values=key, aggfunc="first", dropna=False
+    )
+    wide.columns = [f"share_{int(g)}" for g in wide.columns]
+    lines = table.groupby(["region", "year"])["line"].min()
+    return wide.join(lines).reset_index()
+
+
 def _years_across(
     frame: Frame,
     header: list[str],
@@ -259,8 +303,9 @@ def _years_across(
     decimal: str,
     measure,
     fallback: str | None,
+    bracket: int | None = None,
 ) -> tuple[pd.DataFrame, list[str], dict[str, str]]:
-    region, others = _region_columns(header, labels)
+    region, others = _region_columns(header, [j for j in labels if j != bracket])
     names = _regions(frame, region, notes)
     blocks = _blocks(header, frame.spanning[1] if frame.spanning else None, labels)
     titles = [" ".join(c) for _, c in frame.above]
@@ -278,6 +323,15 @@ def _years_across(
             f"not read: {', '.join(unread[:LISTED])}.",
             "Read them as a table of their own if they are needed.",
         )
+    if bracket is not None:
+        if len(blocks) > 1:
+            raise fail(
+                "lines by district and population group hold one block of years here, "
+                f"but {len(blocks)} blocks were found.",
+                "Read one measure at a time (one block of year columns per table).",
+                file=notes.file,
+            )
+        measures = ["income_share"]
     records: dict[tuple[int, int], dict[str, object]] = {}
     for (_, columns), key in zip(blocks, measures, strict=True):
         for i, (line, cells) in enumerate(frame.body):
@@ -287,10 +341,24 @@ def _years_across(
                     (i, year), {"line": line, "region": names[i], "year": year}
                 )
                 record[key] = notes.cell(text, header[j] or key, line, decimal, key)
+                if bracket is not None:
+                    record["bracket"] = cells[bracket].strip() if bracket < len(cells) else ""
                 for k in others:
                     record[_slug(header[k])] = strip_marker(cells[k] if k < len(cells) else "")[0]
     titles_used = {m: (b[0] or " ".join(titles)) for m, b in zip(measures, blocks, strict=True)}
-    return pd.DataFrame.from_records(list(records.values())), measures, titles_used
+    table = pd.DataFrame.from_records(list(records.values()))
+    if bracket is None:
+        return table, measures, titles_used
+    wide = _shares_by_group(table, "income_share", notes.file)
+    notes.warn(
+        f"one line per district and {header[bracket].lower() or 'group'}: the values under "
+        f"each year were read as the income shares of the groups 1 to "
+        f"{wide.filter(like='share_').shape[1]}, lowest first.",
+        "Check that group 1 is the poorest; if the file numbers the groups from the top, "
+        "number them from the bottom before reading it.",
+    )
+    shares = [c for c in wide.columns if c.startswith("share_")]
+    return wide, shares, {c: titles_used["income_share"] for c in shares}
 
 
 def _unique(names: list[str], file: str) -> None:
@@ -402,11 +470,14 @@ def tidy_frame(
     body = [cells for _, cells in frame.body]
     labels = _label_columns(header, body, decimal)
     spanning = frame.spanning[1] if frame.spanning else None
+    bracket = _bracket_column(header, body, labels)
+    if bracket is not None and bracket not in labels:
+        labels = [*labels, bracket]
     year_columns = sum(len(c) for _, c in _blocks(header, spanning, labels))
     has_year = any(column_role(h) == "year" for j, h in enumerate(header) if j not in labels)
     if year_columns >= 2 or (year_columns == 1 and not has_year):
         table, measures, headers = _years_across(
-            frame, header, labels, notes, decimal, measure, fallback
+            frame, header, labels, notes, decimal, measure, fallback, bracket
         )
         layout = "years_across"
     else:
