@@ -36,7 +36,7 @@ if panel.kind == "means":
     st.info("District means only: no Lorenz curve or inequality inside the district.")
     for column, (label, value) in zip(st.columns(3), sheet.facts, strict=False):
         ui.metric(column, label, value)
-    st.altair_chart(sheet.means_chart, key="district_means_chart")
+    st.altair_chart(sheet.means_chart, theme=None, width="content", key="district_means_chart")
     shown_means, options = ui.planner_table(
         sheet.means[["year", "mean_income", "population", "ratio", "rank", "growth"]],
         {
@@ -52,8 +52,9 @@ if panel.kind == "means":
             "population": "%,.0f",
             "ratio": "%.3f",
             "rank": "%d",
-            "growth": "%.2f",
         },
+        # the first year has no year before it: a dash, not an empty number
+        words={"growth": lambda r: vocabulary.figure(r["growth"], digits=2)},
     )
     ui.table(shown_means, "district_means", **options)
     st.altair_chart(sheet.rank_chart, key="district_ranks")
@@ -66,7 +67,7 @@ elif panel.kind == "published":
     )
     ui.markdown("**Published figures, {}**", str(view.year))
     ui.table(shown_figures, "district_published", **options)
-    st.altair_chart(sheet.means_chart, key="district_published_chart")
+    st.altair_chart(sheet.means_chart, theme=None, width="content", key="district_published_chart")
     if sheet.rank_chart is not None:
         st.altair_chart(sheet.rank_chart, key="district_ranks")
     ui.downloads(f"district-{sheet.region}-{view.year}", key="district", table=sheet.published)

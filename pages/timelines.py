@@ -33,7 +33,7 @@ if county_level(panel) is not None:  # no counties in the data: no control
 view = ui.current_view()
 
 shown = figures.timelines(panel, view, opened.compute)
-st.altair_chart(shown.chart, key="timelines_chart")
+st.altair_chart(shown.chart, theme=None, width="content", key="timelines_chart")
 if shown.highlighted is not None:
     ui.table(shown.highlighted, "timelines_table", hide_index=False)
 ui.downloads(f"timelines-{view.index}", key="timelines", table=shown.series, chart=shown.chart)

@@ -203,7 +203,7 @@ def _means_sheet(panel, view, region, name, heading) -> DistrictFigures:
     chart = charts.mean_income_over_time(
         own,
         title=f"Mean income, {name}",
-        caption=vocabulary.wrap(vocabulary.caption(view, panel, every_year=True)),
+        caption=vocabulary.wrap(vocabulary.caption(view, panel, every_year=True), width=95),
     )
     ranked = means.assign(value=means["mean_income"], index="mean_income")
     rank_chart = charts.rank_over_time(

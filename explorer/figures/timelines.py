@@ -147,10 +147,7 @@ def timelines(
     lines = district_series(panel, view, compute)
     province = province_series(panel, view, compute)
     label = vocabulary.value_label(view, panel)
-    province_words = {
-        "means": " Dashed black: the province (its mean income, weighted by population where "
-        "every district has one).",
-    }.get(panel.kind, " Dashed black: the whole province.")
+    province_words = " Dashed black: the whole province."
     chart = charts.trajectories(
         lines,
         index=view.index,

@@ -848,7 +848,7 @@ def mean_income_over_time(
                 alt.Tooltip("mean_income:Q", title="Mean income", format=",.0f"),
             ],
         )
-        .properties(title=alt.TitleParams(title, subtitle=caption), height=320)
+        .properties(title=_title(title, caption), width=620, height=320)
     )
 
 

@@ -463,8 +463,8 @@ def caption(view: Any, panel: Any, *, every_year: bool = False) -> str:
         how = "figures as the source published them, not recomputed or bounded"
     else:
         how = "district mean incomes"
-        if getattr(view, "index", "") == "mean_ratio":
-            how += "; the province mean weights districts by population where every one has it"
+        if getattr(view, "index", "") in ("mean_ratio", "mean_growth"):
+            how += "; the province mean weights districts by population"
     from explorer.data.dataset_store import facts_of  # the dataset's facts, as saved
 
     given = facts_of(panel).caption().rstrip(".")

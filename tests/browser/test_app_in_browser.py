@@ -291,3 +291,33 @@ def test_a_panel_with_one_broken_district_year_is_used_and_the_problem_written_o
     assert "district OSS03, year 2020 left out" in text and "How to fix:" in text
     no_errors(page)
     shot(page, "upload-one-broken")
+
+
+@pytest.mark.parametrize(
+    ("dataset", "figure", "words"),
+    [
+        ("demo-published", "median_income", ("Median income, as published", "as published")),
+        ("demo-means", "mean_ratio", ("Mean income ÷ province mean", "province mean")),
+        ("demo-means", "mean_growth", ("Growth since", "growth of mean income since")),
+    ],
+)
+def test_published_figures_and_district_means_on_every_page(
+    server, context, dataset, figure, words
+):
+    page = context.new_page()
+    for path in ("", "timelines", "district", "breakdown"):
+        page.goto(f"{server}/{path}?d={dataset}&ix={figure}&sel=CAL01")
+        settle(page)
+        no_errors(page)
+        # the cautions box closes every analysis page: the run has reached the end
+        page.wait_for_selector(".st-key-cautions_box", timeout=60_000)
+        if path != "breakdown":  # published figures have no chart there, by design
+            page.wait_for_selector(".vega-embed svg, .vega-embed canvas", timeout=60_000)
+        settle(page)
+        shot(page, f"{dataset}-{figure}-{path or 'map'}")
+        if path == "":
+            for word in words:
+                assert page.get_by_text(word, exact=False).count() >= 1, word
+        if path == "district":
+            # the sheet names the district's rank among all the districts
+            assert page.get_by_text(re.compile(r"\d+ of 46")).count() >= 1
