@@ -206,6 +206,20 @@ def build_parser() -> argparse.ArgumentParser:
         default=0.95,
         help="confidence of the sampling intervals, e.g. 0.95",
     )
+    compute.add_argument(
+        "--poverty-line",
+        metavar="LINE",
+        help="also measure poverty (fgt_0, fgt_1, fgt_2, watts, sen_poverty) against this "
+        "line: an amount per person per year (12000) or a share of the median or mean "
+        "(60%%median, 50%%mean)",
+    )
+    compute.add_argument(
+        "--relative-to",
+        choices=("province", "district"),
+        default="province",
+        help="a relative line is a share of the province's median or mean (default) or of "
+        "each district's own",
+    )
     compute.add_argument("--fits", metavar="FILE", help="also write the fit diagnostics here")
     _out_argument(compute)
 
@@ -543,6 +557,21 @@ def run_compute(args: argparse.Namespace) -> int:
         seed=args.seed,
         level=args.confidence,
     )
+    if args.poverty_line is not None:
+        from explorer.stats import poverty_lines, poverty_table
+
+        line = poverty_lines.parse_line(args.poverty_line, scope=args.relative_to)
+        poor = poverty_table.compute(
+            panel,
+            line,
+            methods=methods,
+            ci=args.ci,
+            reps=args.reps,
+            seed=args.seed,
+            level=args.confidence,
+        )
+        print(f"poverty line: {line.label()}", file=sys.stderr)
+        table = pd.concat([table, poor], ignore_index=True)
     if args.fits:
         _write(indices.fits(panel, methods), args.fits, args)
     _write(table, args.out, args)

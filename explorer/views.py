@@ -27,6 +27,8 @@ key        field                   form
 ``ly``     ``layer``               map layer: index or clusters
 ``pc``     ``by_county``           1 or 0 (Timelines: one panel per county)
 ``bs``     ``bootstrap``           1 or 0 (unit records: sampling intervals)
+``pl``     ``poverty_line``        12000 (a year per person), 60%median, 50%mean
+``pr``     ``relative_to``         province or district (whose median or mean)
 ========== ======================= ================================================
 
 Fields at their default are left out of a link. A view file is JSON:
@@ -57,6 +59,7 @@ __all__ = [
     "QUERY_KEYS",
     "VIEW_FILE_VERSION",
     "Known",
+    "canonical_poverty_line",
     "ViewState",
     "from_json",
     "from_query",
@@ -87,6 +90,8 @@ _INDEX_RE = re.compile(
     r"(?:gini|theil_t|mld|cv|palma|s80_s20|top10_share|bottom40_share"
     # figures of district means, and published figures shown as given
     r"|mean_income|mean_ratio|mean_growth|poverty_rate|median_income|population"
+    # poverty measures against the view's poverty line
+    r"|fgt_0|fgt_1|fgt_2|watts|sen_poverty"
     r"|ge_-?\d{1,2}(?:\.\d{1,3})?|atkinson_\d{1,2}(?:\.\d{1,3})?)"
 )
 #: Indices the Breakdown page can split exactly (GE family; the Gini with its overlap).
@@ -114,6 +119,8 @@ QUERY_KEYS = {
     "layer": "ly",
     "by_county": "pc",
     "bootstrap": "bs",
+    "poverty_line": "pl",
+    "relative_to": "pr",
 }
 _FIELD_OF_KEY = {key: name for name, key in QUERY_KEYS.items()}
 _PLAIN = {
@@ -134,6 +141,8 @@ _PLAIN = {
     "layer": "map layer",
     "by_county": "one panel per county",
     "bootstrap": "sampling intervals",
+    "poverty_line": "poverty line",
+    "relative_to": "poverty line relative to",
 }
 
 
@@ -362,6 +371,29 @@ def _labels(allowed_of: str, what: str):
     return parse
 
 
+def _poverty_line(raw: Any, known: Known) -> str:
+    """A poverty line in its canonical short form: ``12000``, ``60%median``, ``50%mean``."""
+    from explorer.data.model import DataError
+    from explorer.stats.poverty_lines import parse_line
+
+    text = _text(raw if not isinstance(raw, int | float) or isinstance(raw, bool) else str(raw))
+    try:
+        line = parse_line(text)
+    except DataError:
+        raise _Bad("is not a poverty line (write e.g. 12000, 60%median or 50%mean)") from None
+    if line.relative:
+        return f"{100 * line.fraction:g}%{line.base}"
+    return f"{line.amount:g}"
+
+
+def canonical_poverty_line(raw: Any) -> str | None:
+    """A poverty line typed by a planner in its canonical form, or None when unreadable."""
+    try:
+        return _poverty_line(raw, Known())
+    except _Bad:
+        return None
+
+
 _PARSERS = {
     "dataset": _dataset,
     "page": lambda raw, known: _page(raw),
@@ -378,6 +410,8 @@ _PARSERS = {
     "layer": lambda raw, known: _choice(raw, MAP_LAYERS, "map layer"),
     "by_county": _flag,
     "bootstrap": _flag,
+    "poverty_line": _poverty_line,
+    "relative_to": lambda raw, known: _choice(raw, ("province", "district"), "choice"),
 }
 _LIST_PARSERS = {
     "districts": _labels("districts", "district"),
@@ -428,6 +462,12 @@ class ViewState:
         Timelines drawn as one panel per county.
     bootstrap : bool
         Sampling intervals (bootstrap) for unit records.
+    poverty_line : str
+        The line of the poverty measures: an amount per person per year (``12000``) or a
+        fraction of a median or mean (``60%median``, common practice, the default).
+    relative_to : str
+        Whose median or mean a relative line is taken of: the ``province``'s (one line for
+        every district) or each ``district``'s own.
 
     Raises
     ------
@@ -453,6 +493,8 @@ class ViewState:
     layer: str = "index"
     by_county: bool = False
     bootstrap: bool = False
+    poverty_line: str = "60%median"
+    relative_to: str = "province"
 
     def __post_init__(self) -> None:
         free = Known()

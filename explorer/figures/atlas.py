@@ -143,7 +143,7 @@ def atlas(
     money = series.is_money(panel, view.index)
     bounded = panel.kind in ("brackets", "units")
     mark_wide = bool(view.show_intervals if mark_wide is None else mark_wide) and bounded
-    table = series.values(panel, compute, view.index, view.method, view.year_from)
+    table = series.values(panel, compute, view.index, view.method, view.year_from, view)
     values = map_values(panel, table, view.year, view.index)
     label = vocabulary.value_label(view, panel)
     ranked = ranking(values)

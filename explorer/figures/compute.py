@@ -41,6 +41,8 @@ class Compute(Protocol):
 
     def lorenz_curves(self, region: str, year: int, methods: Sequence[str]) -> pd.DataFrame: ...
 
+    def poverty(self, line: str, relative_to: str, method: str) -> pd.DataFrame: ...
+
     def clusters(
         self, values: pd.Series, permutations: int = MAP_PERMUTATIONS
     ) -> tuple[pd.DataFrame, Any]: ...
@@ -141,6 +143,14 @@ class PlainCompute:
 
     def lorenz_curves(self, region: str, year: int, methods: Sequence[str]) -> pd.DataFrame:
         return lorenz_curves(self.panel, region, int(year), tuple(methods))
+
+    def poverty(self, line: str, relative_to: str, method: str) -> pd.DataFrame:
+        """The poverty table against ``line`` (:func:`explorer.stats.poverty_table.compute`)."""
+        from explorer.stats import poverty_lines, poverty_table
+
+        method = method if self.panel.kind == "brackets" else "auto"
+        parsed = poverty_lines.parse_line(line, scope=relative_to)
+        return poverty_table.compute(self.panel, parsed, methods=(method,))
 
     def clusters(
         self, values: pd.Series, permutations: int = MAP_PERMUTATIONS

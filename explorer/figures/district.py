@@ -141,6 +141,10 @@ def district(panel: Panel, view: ViewState, compute: Compute) -> DistrictFigures
     if panel.kind == "published":
         return _published_sheet(panel, view, compute, region, name, heading)
     table = compute.indices(view.method)
+    if view.index in series.POVERTY_FIGURES:
+        # the poverty measures against the view's line join the sheet's table of indices
+        poverty = compute.poverty(view.poverty_line, view.relative_to, view.method)
+        table = pd.concat([table, poverty], ignore_index=True)
     own = table[(table["region"].astype(str) == region) & (table["year"] == view.year)]
     headline = own[own["index"] == view.index]
     # One short word per row: the full method is named in the caption and the table.

@@ -17,7 +17,9 @@ from explorer.data.model import PUBLISHED_MEASURES, Panel
 from explorer.figures.tables import district_means
 
 __all__ = [
+    "ADDITIVE_POVERTY",
     "MEANS_FIGURES",
+    "POVERTY_FIGURES",
     "figure_keys",
     "is_money",
     "means_figure",
@@ -28,6 +30,8 @@ __all__ = [
 
 #: What a means-only panel can show per district-year.
 MEANS_FIGURES = ("mean_income", "mean_ratio", "mean_growth")
+#: Poverty measures against the view's line (grouped shares and unit records only).
+POVERTY_FIGURES = ("fgt_0", "fgt_1", "fgt_2", "watts", "sen_poverty")
 #: Figures that are amounts (money, people): whole units with thousands separators.
 _MONEY = ("mean_income", "median_income", "population")
 
@@ -41,6 +45,13 @@ def figure_keys(panel: Panel) -> tuple[str, ...]:
     if panel.kind == "published":
         held = set(panel.data["measure"])
         return tuple(m for m in PUBLISHED_MEASURES if m in held)
+    if panel.kind == "brackets" and "mean_income" in panel.data.columns:
+        # poverty needs the district mean beside the shares: without it no line is met
+        if panel.data["mean_income"].notna().all():
+            return (*INDEX_LABELS, *POVERTY_FIGURES)
+        return tuple(INDEX_LABELS)
+    if panel.kind == "units":
+        return (*INDEX_LABELS, *POVERTY_FIGURES)
     return tuple(INDEX_LABELS)
 
 
@@ -112,13 +123,41 @@ def means_figure(panel: Panel, key: str, since: int | None = None) -> pd.DataFra
     )
 
 
-def province(panel: Panel, key: str, since: int | None = None) -> pd.DataFrame | None:
-    """year, value of the province for a figure of district means; None otherwise.
+#: Poverty measures that add up over districts, weighted by population (Foster, Greer &
+#: Thorbecke 1984, *Econometrica* 52: 761-766, on the FGT family; the Watts index likewise).
+ADDITIVE_POVERTY = ("fgt_0", "fgt_1", "fgt_2", "watts")
+
+
+def _province_poverty(panel: Panel, key: str, compute: Any, view: Any) -> pd.DataFrame | None:
+    """The province's poverty measure: the population-weighted mean of its districts'."""
+    rows = values(panel, compute, key, getattr(view, "method", "auto"), view=view)
+    rows = rows[np.isfinite(rows["value"].to_numpy(dtype=float))]
+    people = district_means(panel)[["region", "year", "population"]]
+    rows = rows.assign(region=rows["region"].astype(str)).merge(
+        people.assign(region=people["region"].astype(str)), on=["region", "year"], how="left"
+    )
+    out = []
+    for year, group in rows.groupby("year", sort=True):
+        weights = group["population"].to_numpy(dtype=float)
+        if not np.all(np.isfinite(weights) & (weights > 0)):
+            return None  # without every population the province is not a sum of districts
+        out.append({"year": int(year), "value": float(np.average(group["value"], weights=weights))})
+    return pd.DataFrame(out, columns=["year", "value"]) if out else None
+
+
+def province(
+    panel: Panel, key: str, since: int | None = None, compute: Any = None, view: Any = None
+) -> pd.DataFrame | None:
+    """year, value of the province for a figure of district means or an additive poverty
+    measure; None otherwise.
 
     The province's mean income (:func:`province_mean`); its ratio to itself, 1; its yearly
-    growth since ``since``. Published figures have no province line: the office's own
-    province figure is not among them, and it is not recomputed from districts.
+    growth since ``since``; its poverty (:data:`ADDITIVE_POVERTY`, with every district's
+    population). Published figures have no province line: the office's own province figure
+    is not among them, and it is not recomputed from districts.
     """
+    if key in ADDITIVE_POVERTY and compute is not None and panel.kind in ("brackets", "units"):
+        return _province_poverty(panel, key, compute, view)
     if panel.kind != "means" or key not in MEANS_FIGURES:
         return None
     line = province_mean(district_means(panel))[["year", "value"]]
@@ -137,13 +176,25 @@ def province(panel: Panel, key: str, since: int | None = None) -> pd.DataFrame |
     return line
 
 
-def values(panel: Panel, compute: Any, key: str, method: str, since: int | None = None):
+def values(
+    panel: Panel,
+    compute: Any,
+    key: str,
+    method: str,
+    since: int | None = None,
+    view: Any = None,
+):
     """The index table's rows of ``key`` for every district-year (see the module docstring).
 
     ``compute`` is the page's :class:`~explorer.figures.compute.Compute`; for district means
-    the figures come straight from the panel.
+    the figures come straight from the panel; poverty measures are taken against the
+    ``view``'s poverty line.
     """
     if panel.kind == "means":
         return means_figure(panel, key, since)
+    if key in POVERTY_FIGURES:
+        line = getattr(view, "poverty_line", "60%median")
+        table = compute.poverty(line, getattr(view, "relative_to", "province"), method)
+        return table[table["index"] == key].reset_index(drop=True)
     table = compute.indices(method)
     return table[table["index"] == key].reset_index(drop=True)

@@ -28,7 +28,7 @@ __all__ = [
 
 def district_series(panel: Panel, view: ViewState, compute: Compute) -> pd.DataFrame:
     """The view's figure for every district and year, with names and counties."""
-    rows = series.values(panel, compute, view.index, view.method, view.year_from)
+    rows = series.values(panel, compute, view.index, view.method, view.year_from, view)
     rows = rows.assign(region=rows["region"].astype(str))
     return rows.merge(names(panel), on="region", how="left").reset_index(drop=True)
 
@@ -39,8 +39,8 @@ def province_series(
     """year, value of the whole province (pooled), where the index decomposes; for district
     means the province's mean, ratio or growth (:func:`explorer.figures.series.province`)."""
     index = index or view.index
-    if panel.kind in ("means", "published"):
-        return series.province(panel, index, view.year_from)
+    if panel.kind in ("means", "published") or index in series.POVERTY_FIGURES:
+        return series.province(panel, index, view.year_from, compute, view)
     if index not in vocabulary.DECOMPOSABLE:
         return None
     parts = compute.breakdown(tuple(panel.levels), index, view.method)

@@ -41,6 +41,7 @@ __all__ = [
     "METHOD_LABELS",
     "PAGES",
     "PART_COLUMNS",
+    "POVERTY_HELP",
     "SCALE_NAMES",
     "SCALE_WORDS",
     "PART_TEXT",
@@ -61,6 +62,7 @@ __all__ = [
     "method_label",
     "money",
     "part_label",
+    "poverty_line_words",
     "published_scale",
     "ranking_caution",
     "ranking_title",
@@ -98,6 +100,21 @@ FIGURE_LABELS: dict[str, str] = {
     "poverty_rate": "Poverty rate",
     "median_income": "Median income",
     "population": "Population",
+    "fgt_0": "Poverty headcount ratio FGT(0)",
+    "fgt_1": "Poverty gap FGT(1)",
+    "fgt_2": "Squared poverty gap FGT(2)",
+    "watts": "Watts poverty index",
+    "sen_poverty": "Sen poverty index",
+}
+#: What each poverty measure says, for help texts (Foster, Greer & Thorbecke 1984; Watts
+#: 1968; Sen 1976).
+POVERTY_HELP = {
+    "fgt_0": "the share of people below the line",
+    "fgt_1": "the average shortfall from the line, as a share of the line, counting the "
+    "non-poor as zero",
+    "fgt_2": "as the gap, with larger shortfalls weighing more (the severity of poverty)",
+    "watts": "the average log shortfall of the poor: sensitive to the poorest",
+    "sen_poverty": "headcount, gap and the inequality among the poor in one number",
 }
 #: How a published figure's scale is said in a label.
 SCALE_WORDS = {
@@ -131,6 +148,11 @@ AXIS_LABELS: dict[str, str] = {
     "poverty_rate": "Poverty rate",
     "median_income": "Median income (currency units)",
     "population": "Population (people)",
+    "fgt_0": "Share of people below the poverty line (0–1)",
+    "fgt_1": "Poverty gap (share of the line, 0–1)",
+    "fgt_2": "Squared poverty gap (0–1)",
+    "watts": "Watts index (0 = no poverty)",
+    "sen_poverty": "Sen poverty index (0–1)",
 }
 
 #: Indices that split exactly into within and between parts (the Gini with its overlap).
@@ -307,6 +329,8 @@ INDEX_COLUMNS = {
 
 def ranking_title(kind: str, key: str = "") -> str:
     """The heading of a district ranking: what rank 1 means for this kind of data."""
+    if key in POVERTY_HELP:
+        return f"Districts ranked (1 = highest {index_label(key).split(' FGT')[0].lower()})"
     if kind == "published":
         return f"Districts ranked (1 = highest {index_label(key).lower() or 'figure'}, as published)"
     if kind == "means":
@@ -428,6 +452,8 @@ def value_label(view: Any, panel: Any) -> str:
         if view.index == "mean_growth":
             return f"Average growth of mean income since {view.year_from} (% a year)"
         return AXIS_LABELS.get(view.index, AXIS_LABELS["mean_income"])
+    if view.index in POVERTY_HELP:
+        return f"{index_label(view.index)}, line {poverty_line_words(view)}"
     if panel.kind == "published":
         unit = SCALE_WORDS.get(published_scale(panel, view.index), "")
         if view.index == "median_income" or view.index == "mean_income":
@@ -443,6 +469,17 @@ def value_label(view: Any, panel: Any) -> str:
     if view.index.startswith("atkinson_"):  # its ε belongs to the name
         return f"{full[:-1]}; 0 = equal)"
     return f"{label} (0 = equal)"
+
+
+def poverty_line_words(view: Any) -> str:
+    """The view's poverty line in words: ``60% of the province median``, ``12,000 a year``."""
+    from explorer.stats.poverty_lines import parse_line
+
+    line = parse_line(getattr(view, "poverty_line", "60%median"))
+    if not line.relative:
+        return f"{line.amount:,.0f} per person a year"
+    whose = "each district's own" if getattr(view, "relative_to", "") == "district" else "the province"
+    return f"{100 * line.fraction:g}% of {whose} {line.base}"
 
 
 def dataset_name(view: Any, panel: Any) -> str:

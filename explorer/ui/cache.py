@@ -59,6 +59,11 @@ def _lorenz_curves(_panel, fingerprint: str, scope: str, region: str, year: int,
     return plain.lorenz_curves(_panel, region, year, methods)
 
 
+@st.cache_data(show_spinner="Measuring poverty in every district and year…", max_entries=32)
+def _poverty(_panel, fingerprint: str, scope: str, line: str, relative_to: str, method: str):
+    return tidy(plain.PlainCompute(_panel).poverty(line, relative_to, method))
+
+
 # cache_data, not cache_resource: an upload's clusters are user data, and cache_resource would
 # hand one shared object to every session.
 @st.cache_data(show_spinner="Testing for spatial clustering (permutations)…", max_entries=32)
@@ -132,6 +137,10 @@ class CachedCompute:
 
     def clusters(self, values: pd.Series, permutations: int = MAP_PERMUTATIONS):
         return _clusters(*self._key(), values, permutations)
+
+    def poverty(self, line: str, relative_to: str, method: str) -> pd.DataFrame:
+        method = method if self.panel.kind == "brackets" else "auto"
+        return _poverty(*self._key(), line, relative_to, method)
 
     def map_features(self, values: pd.DataFrame) -> list[dict[str, Any]]:
         return _map_features(*self._key(), values)

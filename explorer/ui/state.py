@@ -25,7 +25,7 @@ from explorer.present.vocabulary import (
     PAGES,
     method_label,
 )
-from explorer.figures.series import figure_keys
+from explorer.figures.series import POVERTY_FIGURES, figure_keys
 from explorer.ui import data, show
 from explorer.ui.cache import CachedCompute
 
@@ -231,6 +231,8 @@ def sidebar(catalog: Sequence[data.Dataset], panel: Any) -> None:
             format_func=lambda key: vocabulary.figure_label(key, panel),
             help=FIGURE_HELP.get(panel.kind),
         )
+        if current_view().index in POVERTY_FIGURES:
+            _poverty_controls()
         if panel.kind == "brackets":
             control(
                 "method",
@@ -273,6 +275,51 @@ def sidebar(catalog: Sequence[data.Dataset], panel: Any) -> None:
             )
         years = [int(y) for y in panel.years]
         control("year", st.select_slider if len(years) > 1 else st.selectbox, "Year", years)
+
+
+_BAD_LINE = "rift_bad_poverty_line"
+
+
+def _line_or_kept(raw: str) -> str:
+    """The typed poverty line, or the view's own when it cannot be read (said once)."""
+    line = views.canonical_poverty_line(raw)
+    if line is None:
+        st.session_state[_BAD_LINE] = raw
+        return current_view().poverty_line
+    return line
+
+
+def _poverty_controls() -> None:
+    """The poverty line and, for a relative line, whose median or mean it is taken of."""
+    control(
+        "poverty_line",
+        st.text_input,
+        "Poverty line",
+        to_view=_line_or_kept,
+        help="An amount per person per year in the dataset's currency (e.g. 12000), or a "
+        "share of a median or mean: 60%median (common practice) or 50%mean.",
+    )
+    bad = st.session_state.pop(_BAD_LINE, None)
+    if bad is not None:
+        show.notice(
+            f"'{bad}' is not a poverty line; the line stays "
+            f"{vocabulary.poverty_line_words(current_view())}. Write e.g. 12000, 60%median "
+            "or 50%mean.",
+            "warning",
+        )
+    if "%" in current_view().poverty_line:
+        control(
+            "relative_to",
+            st.radio,
+            "Share of whose median or mean",
+            ["province", "district"],
+            format_func={
+                "province": "The province's (one line for all)",
+                "district": "Each district's own",
+            }.get,
+            help="The province's: every district is measured against the same amount. Each "
+            "district's own: poverty relative to local living standards.",
+        )
 
 
 @dataclasses.dataclass(frozen=True)

@@ -60,7 +60,7 @@ def _unbound(at: AppTest) -> list[str]:
     return wrong
 
 
-@pytest.mark.parametrize("dataset", ["demo", "demo-households", "demo-means"])
+@pytest.mark.parametrize("dataset", ["demo", "demo-households", "demo-means", "demo-published"])
 @pytest.mark.parametrize("name", PAGES)
 def test_every_widget_on_every_page_is_bound_to_the_view(app, name, dataset):
     app.query_params["d"] = dataset
@@ -77,20 +77,24 @@ def test_every_widget_on_every_page_is_bound_to_the_view(app, name, dataset):
 
 def _raw_values(at: AppTest) -> list:
     """Every value a control of the view can hold on this panel (to undo a format_func)."""
+    from explorer.figures.series import figure_keys
     from explorer.present import vocabulary
 
     shown = at.session_state["rift_panel"]
     pool: list = [*map(str, shown.regions), *map(int, shown.years)]
     if shown.levels:
         pool.extend(shown.hierarchy[shown.levels[-1]].astype(str).unique())
-    for choices in (vocabulary.INDEX_LABELS, vocabulary.METHOD_LABELS, vocabulary.CLASS_LABELS):
+    for choices in (figure_keys(shown), vocabulary.METHOD_LABELS, vocabulary.CLASS_LABELS):
         pool.extend(choices)
-    return [*pool, *vocabulary.LAYER_LABELS, *vocabulary.DECOMPOSABLE]
+    return [*pool, *vocabulary.LAYER_LABELS, *vocabulary.DECOMPOSABLE, "province", "district"]
 
 
 def _set_other(at: AppTest, widget: Widget) -> None:
     """Set a widget to a value other than its current one, as a planner would."""
     kind = type(widget).__name__
+    if kind == "TextInput":  # the poverty line, the one typed setting
+        widget.set_value("50%mean" if widget.value != "50%mean" else "60%median")
+        return
     if kind == "Toggle":
         widget.set_value(not widget.value)
     elif kind == "Slider":
@@ -143,9 +147,16 @@ def _set_everything(at: AppTest) -> set[str]:
         ("breakdown", "demo"),
         ("district", "demo"),
         ("atlas", "demo-households"),
+        ("atlas", "demo-poverty"),
+        ("district", "demo-households-poverty"),
     ],
 )
 def test_every_control_set_away_from_its_default_comes_back_from_the_link(app, name, dataset):
+    # "-poverty": the view starts on a poverty measure, so its line's controls are drawn
+    poverty = dataset.endswith("-poverty")
+    if poverty:
+        dataset = dataset.removesuffix("-poverty")
+        app.query_params["ix"] = "fgt_1"
     app.query_params["d"] = dataset
     run(app)
     app.switch_page(page(name))
@@ -156,6 +167,8 @@ def test_every_control_set_away_from_its_default_comes_back_from_the_link(app, n
     assert before.replace(page="map") != views.ViewState(dataset=dataset)
     shown = {key: _bound(app)[key].value for key in _bound(app)}
     link = {key: app.query_params[key] for key in app.query_params}
+    if poverty:  # the line and whose median it is were both moved off their defaults
+        assert {"pl", "pr"} <= set(link), link
 
     fresh = AppTest.from_file(app._script_path, default_timeout=120)
     fresh.query_params.update(link)
