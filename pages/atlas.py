@@ -96,10 +96,9 @@ with st.expander(shown.ranking_title, expanded=False):
         {**{label: label for label in ranked_rows.columns}, "Value": shown.value_label},
         formats={"Value": value_format, "Lower bound": value_format, "Upper bound": value_format},
     )
-    if not bounded:
-        options["column_order"] = [
-            c for c in options["column_order"] if c not in ("Lower bound", "Upper bound")
-        ]
+    if not bounded or not shown.ranking["rank_range"].astype(bool).any():
+        hidden = ("Lower bound", "Upper bound", "Possible ranks")
+        options["column_order"] = [c for c in options["column_order"] if c not in hidden]
     ui.table(shown_ranked, "atlas_ranking", **options)
 ui.downloads(
     f"atlas-{view.index.replace('_', '-')}-{view.year}",

@@ -126,3 +126,18 @@ def test_a_view_of_an_index_the_panel_cannot_show_settles_on_one_it_can(
     assert figures.settle(ViewState(index="theil_t"), published_panel).index == "gini"
     brackets = demo_panel("brackets")
     assert figures.settle(ViewState(index="mean_ratio"), brackets).index == "gini"
+
+
+def test_possible_ranks_are_the_ranks_the_bounds_allow():
+    """Best rank: the district at its lower bound, all others at their upper; worst rank the
+    reverse (Goldstein & Spiegelhalter 1996, JRSS A 159: 385-443, on league tables),
+    counted here by brute force over the table."""
+    panel = demo_panel("brackets")
+    view = figures.settle(ViewState(), panel)
+    ranked = figures.atlas(panel, view, PlainCompute(panel)).ranking
+    lower, upper = ranked["lower"].to_numpy(), ranked["upper"].to_numpy()
+    for i, words in enumerate(ranked["rank_range"]):
+        best = 1 + int(np.sum(np.delete(lower, i) > upper[i]))
+        worst = 1 + int(np.sum(np.delete(upper, i) > lower[i]))
+        assert words == (f"{best}" if best == worst else f"{best}–{worst}"), ranked.iloc[i]
+        assert best <= ranked["rank"].iloc[i] <= worst

@@ -22,7 +22,17 @@ __all__ = ["LAYERS", "RANK_COLUMNS", "AtlasFigures", "atlas"]
 LAYERS = ("index", "clusters")
 _MAP_COLUMNS = ["region", "value", "lower", "upper", "klass", "wide"]
 #: The ranking table as the page shows it (the download keeps every column).
-RANK_COLUMNS = ["rank", "name", "region", "county", "value", "lower", "upper", "klass"]
+RANK_COLUMNS = [
+    "rank",
+    "rank_range",
+    "name",
+    "region",
+    "county",
+    "value",
+    "lower",
+    "upper",
+    "klass",
+]
 
 
 @dataclass(frozen=True)

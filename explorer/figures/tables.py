@@ -82,10 +82,29 @@ def why_missing(table: pd.DataFrame) -> str:
 
 
 def ranking(table: pd.DataFrame) -> pd.DataFrame:
-    """Districts by value, most unequal first, with a rank column (ties share a rank)."""
+    """Districts by value, highest first, with a rank (ties share a rank) and the ranks
+    their bounds allow (``rank_range``, e.g. ``3–11``; blank where no district has bounds).
+
+    A district's best rank puts it at its lower bound and every other at its upper bound,
+    its worst rank the reverse (:func:`explorer.stats.ranks.from_bounds`), so the range
+    covers its true rank whenever the bounds hold.
+    """
+    from explorer.stats.ranks import from_bounds
+
     ranked = table[np.isfinite(table["value"])].sort_values("value", ascending=False)
     ranked = ranked.assign(rank=ranked["value"].rank(ascending=False, method="min").astype(int))
-    return ranked.reset_index(drop=True)
+    ranked = ranked.reset_index(drop=True)
+    words = [""] * len(ranked)
+    if {"lower", "upper"} <= set(ranked.columns) and len(ranked):
+        lower = ranked["lower"].to_numpy(dtype=float)
+        upper = ranked["upper"].to_numpy(dtype=float)
+        if np.isfinite(lower).any() or np.isfinite(upper).any():
+            found = from_bounds(ranked["value"], lower, upper, descending=True)
+            words = [
+                f"{int(b)}" if b == w else f"{int(b)}–{int(w)}"
+                for b, w in zip(found.best, found.worst, strict=True)
+            ]
+    return ranked.assign(rank_range=words)
 
 
 def share_table(parts: pd.DataFrame, year: Any) -> pd.DataFrame:

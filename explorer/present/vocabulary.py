@@ -292,6 +292,7 @@ WIDE_SHARE = 0.15
 
 COLUMN_LABELS = {
     "rank": "Rank",
+    "rank_range": "Possible ranks",
     "name": "District",
     "region": "Id",
     "county": "County",
@@ -356,7 +357,9 @@ def ranking_caution(kind: str) -> str:
         )
     return (
         "Neighbouring ranks often differ by less than the bounds: read a rank with its "
-        "bounds, not as a verdict."
+        "bounds, not as a verdict. Possible ranks: every rank a district could hold if each "
+        "district's true value lay anywhere within its bounds or interval (Goldstein & "
+        "Spiegelhalter 1996)."
     )
 
 
