@@ -48,8 +48,13 @@ VIEW = "rift_view"
 #: The sidebar's figure control, named for what the data can show.
 FIGURE_CONTROL = {"means": "Figure of district means", "published": "Published figure"}
 FIGURE_HELP = {
+    "brackets": "Inequality indices, and poverty measures against a line you set "
+    "(FGT(0) the share below it, FGT(1) the average gap, FGT(2) its severity; Watts; Sen).",
+    "units": "Inequality indices, and poverty measures against a line you set "
+    "(FGT(0) the share below it, FGT(1) the average gap, FGT(2) its severity; Watts; Sen).",
     "means": "One mean income per district: the mean itself, its ratio to the province's "
-    "mean, or its average yearly growth since a first year.",
+    "mean, or its average yearly growth since a first year. Poverty cannot be measured "
+    "from means alone: a mean says nothing about how many people fall below a line.",
     "published": "The figures the source published for each district, shown as given: "
     "they cannot be recomputed, bounded or split into parts here.",
 }
