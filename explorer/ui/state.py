@@ -231,7 +231,7 @@ def sidebar(catalog: Sequence[data.Dataset], panel: Any) -> None:
         control(
             "index",
             st.selectbox,
-            FIGURE_CONTROL.get(panel.kind, "Inequality index"),
+            FIGURE_CONTROL.get(panel.kind, "Inequality or poverty measure"),
             list(figure_keys(panel)),
             format_func=lambda key: vocabulary.figure_label(key, panel),
             help=FIGURE_HELP.get(panel.kind),
