@@ -18,16 +18,45 @@ labels = dict(zip(district_names["region"], district_names["name"], strict=True)
 regions = list(labels)
 if not view.districts:
     view = ui.update(districts=(regions[0],))
-ui.control(
-    "districts",
-    st.selectbox,
-    "District",
-    regions,
-    format_func=lambda region: f"{labels.get(region, region)} ({region})",
-    to_view=lambda region: (region,),
-    from_view=lambda chosen: chosen[0] if chosen else regions[0],
-    help=vocabulary.FIND_HELP,
-)
+def _with_first(region: str) -> tuple[str, ...]:
+    """The chosen district first, the compared one kept unless it is the same."""
+    kept = [d for d in ui.current_view().districts[1:2] if d != region]
+    return (region, *kept)
+
+
+def _with_second(region: str) -> tuple[str, ...]:
+    first = ui.current_view().districts[0]
+    return (first,) if not region or region == first else (first, region)
+
+
+pick, against = st.columns(2) if panel.kind in ("brackets", "units") else (st.container(), None)
+with pick:
+    ui.control(
+        "districts",
+        st.selectbox,
+        "District",
+        regions,
+        format_func=lambda region: f"{labels.get(region, region)} ({region})",
+        to_view=_with_first,
+        from_view=lambda chosen: chosen[0] if chosen else regions[0],
+        help=vocabulary.FIND_HELP,
+    )
+if against is not None:
+    with against:
+        ui.control(
+            "districts",
+            st.selectbox,
+            "Compare with",
+            ["", *regions],
+            format_func=lambda region: f"{labels.get(region, region)} ({region})"
+            if region
+            else "No other district",
+            to_view=_with_second,
+            from_view=lambda chosen: chosen[1] if len(chosen) > 1 else "",
+            role="compare",
+            help="A second district: both Lorenz curves on one chart, whether one lies "
+            "above the other even at the bounds, and whether their figures clearly differ.",
+        )
 view = ui.current_view()
 sheet = figures.district(panel, view, opened.compute)
 ui.markdown("**{}**", sheet.heading)
@@ -143,6 +172,17 @@ else:
         )
         ui.table(shown_fits, "district_fits", **options)
     st.altair_chart(sheet.rank_chart, key="district_ranks")
+    pair = figures.compare(panel, view, opened.compute)
+    if pair is not None:
+        st.subheader("Side by side")
+        left, right = st.columns([1, 1])
+        with left:
+            st.altair_chart(pair.chart, theme=None, width="content", key="district_pair")
+        with right:
+            ui.markdown("**Lorenz curves.** {}", pair.lorenz)
+            ui.markdown("**Mean income too (generalised Lorenz).** {}", pair.welfare)
+            if pair.index:
+                ui.markdown("**The chosen measure.** {}", pair.index)
     ui.downloads(
         f"district-{sheet.region}-{view.year}",
         key="district",

@@ -15,7 +15,7 @@ from explorer.figures.breakdown import (
     split_index,
 )
 from explorer.figures.compute import Compute, PlainCompute
-from explorer.figures.district import DistrictFigures, district
+from explorer.figures.district import Comparison, DistrictFigures, compare, district
 from explorer.figures.report import ReportSections, report_for_view, report_html, sections
 from explorer.figures.settle import narrow, settle
 from explorer.figures.spatial import ClusterLayer, SpatialResult, cluster_layer, for_panel
@@ -26,6 +26,7 @@ __all__ = [
     "BreakdownFigures",
     "ChangeFigures",
     "ClusterLayer",
+    "Comparison",
     "Compute",
     "Convergence",
     "DistrictFigures",
@@ -37,6 +38,7 @@ __all__ = [
     "breakdown",
     "change",
     "cluster_layer",
+    "compare",
     "convergence",
     "district",
     "for_panel",

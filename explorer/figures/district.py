@@ -24,6 +24,8 @@ from explorer.views import ViewState
 
 __all__ = [
     "NOT_VALID",
+    "Comparison",
+    "compare",
     "DistrictFigures",
     "curve_names",
     "district",
@@ -274,4 +276,107 @@ def _published_sheet(panel, view, compute, region, name, heading) -> DistrictFig
         if len(rank_rows)
         else None,
         published=published,
+    )
+
+
+@dataclass(frozen=True)
+class Comparison:
+    """Two districts in the view's year: their Lorenz curves, the dominance verdicts and
+    the chosen index of each with its bounds, in sentences."""
+
+    first: str
+    second: str
+    chart: Any
+    lorenz: str
+    welfare: str
+    index: str
+
+
+def _mean_of(panel: Panel, region: str, year: int) -> float:
+    means = district_means(panel)
+    row = means[(means["region"].astype(str) == region) & (means["year"] == year)]
+    return float(row["mean_income"].iloc[0]) if len(row) else float("nan")
+
+
+def _index_sentence(panel, view, compute, pair, names_) -> str:
+    table = series.values(panel, compute, view.index, view.method, view.year_from, view)
+    rows = table[table["year"] == view.year].assign(region=lambda t: t["region"].astype(str))
+    rows = rows.set_index("region")
+    if not all(r in rows.index for r in pair):
+        return ""
+    a, b = (rows.loc[r] for r in pair)
+    label = vocabulary.index_label(view.index)
+    digits = vocabulary.digits_of(panel, view.index)
+
+    def shown(row) -> str:
+        value = vocabulary.figure(row["value"], digits=digits)
+        if np.isfinite(row["lower"]) or np.isfinite(row["upper"]):
+            low = vocabulary.figure(row["lower"], digits=digits)
+            high = vocabulary.figure(row["upper"], digits=digits)
+            return f"{value} ({low} to {high})"
+        return value
+
+    text = f"{label}: {names_[0]} {shown(a)}, {names_[1]} {shown(b)}."
+    bounded = all(np.isfinite([a["lower"], a["upper"], b["lower"], b["upper"]]))
+    if not bounded:
+        return text + " Without bounds on both, the difference cannot be called clear."
+    if a["lower"] > b["upper"] or b["lower"] > a["upper"]:
+        higher = names_[0] if a["value"] > b["value"] else names_[1]
+        return text + f" The ranges do not overlap: {higher} is clearly higher."
+    return text + " The ranges overlap: the difference is not clear."
+
+
+def compare(panel: Panel, view: ViewState, compute: Compute) -> Comparison | None:
+    """The view's first two districts compared (None without a second, or for district
+    means and published figures, which carry no curve).
+
+    References
+    ----------
+    Atkinson, A. B. (1970). On the measurement of inequality. *Journal of Economic Theory*
+    2: 244–263 (Lorenz dominance). Shorrocks, A. F. (1983). Ranking income distributions.
+    *Economica* 50: 3–17 (generalised Lorenz dominance).
+    """
+    from explorer.stats import dominance
+
+    if len(view.districts) < 2 or panel.kind not in ("brackets", "units"):
+        return None
+    pair = (str(view.districts[0]), str(view.districts[1]))
+    label = names(panel).set_index("region")["name"]
+    names_ = tuple(str(label.get(r, r)) for r in pair)
+    curves = [lorenz_points(panel, r, view.year) for r in pair]
+    if any(len(c) < 2 for c in curves):
+        return None
+    points = [(c["p"].to_numpy(), c["L"].to_numpy()) for c in curves]
+    plain = dominance.compare(*points, names=names_)
+    means = tuple(_mean_of(panel, r, view.year) for r in pair)
+    welfare = (
+        dominance.compare(*points, names=names_, means=means).sentence
+        if all(np.isfinite(means))
+        else "Without both mean incomes the generalised Lorenz curves cannot be compared."
+    )
+    shown = pd.concat(
+        [c.assign(name=n) for c, n in zip(curves, names_, strict=True)], ignore_index=True
+    )
+    chart = charts.lorenz_pair(
+        shown,
+        title=f"Lorenz curves, {names_[0]} and {names_[1]}, {view.year}",
+        caption=vocabulary.wrap(vocabulary.caption(view, panel), width=60),
+    )
+
+    def capital(text: str) -> str:
+        if panel.kind == "units":  # sample curves: every record is a point, no bounds
+            text = text.replace(" at every published point", " everywhere")
+            text = text.replace(", even at the bounds", "").replace(
+                "; the bounds also allow curves that do not cross", ""
+            )
+            text += " (from the sample records; their sampling error is not included)"
+        return text[:1].upper() + text[1:] + ("" if text.endswith(".") else ".")
+
+    return Comparison(
+        pair[0],
+        pair[1],
+        chart,
+        capital(plain.sentence),
+        capital(welfare),
+        _index_sentence(panel, view, compute, pair, names_),
     )

@@ -44,6 +44,7 @@ __all__ = [
     "features_for_display",
     "index_label",
     "interval_strip",
+    "lorenz_pair",
     "lorenz_profile",
     "payload_kb",
     "fit_facets",
@@ -849,6 +850,42 @@ def mean_income_over_time(
             ],
         )
         .properties(title=_title(title, caption), width=620, height=320)
+    )
+
+
+def lorenz_pair(
+    points: pd.DataFrame, *, title: str, caption: Sequence[str] | str = ""
+) -> alt.LayerChart:
+    """Two districts' Lorenz points joined by straight lines, with the line of equality.
+
+    Parameters
+    ----------
+    points : DataFrame
+        ``name, p, L``: each district's cumulative population and income shares.
+    title, caption : str
+    """
+    x = alt.X("p:Q", title="Cumulative population share (0–1)", scale=alt.Scale(domain=[0, 1]))
+    y = alt.Y("L:Q", title="Cumulative income share (0–1)", scale=alt.Scale(domain=[0, 1]))
+    equality = pd.DataFrame({"p": [0.0, 1.0], "L": [0.0, 1.0]})
+    diagonal = alt.Chart(equality).mark_line(color="#555555", strokeDash=[4, 3]).encode(x=x, y=y)
+    curves = (
+        alt.Chart(_records(points))
+        .mark_line(point=len(points) <= 60, strokeWidth=2)
+        .encode(
+            x=x,
+            y=y,
+            color=alt.Color(
+                "name:N", title="District", scale=alt.Scale(range=list(OKABE_ITO[:2]))
+            ),
+            tooltip=[
+                alt.Tooltip("name:N", title="District"),
+                alt.Tooltip("p:Q", title="Population share", format=".2f"),
+                alt.Tooltip("L:Q", title="Income share", format=".3f"),
+            ],
+        )
+    )
+    return alt.layer(diagonal, curves).properties(
+        title=_title(title, caption), width=420, height=420
     )
 
 

@@ -172,10 +172,15 @@ def control(
     *args: Any,
     to_view: Callable[[Any], Any] = lambda value: value,
     from_view: Callable[[Any], Any] = lambda value: value,
+    role: str = "",
     **kwargs: Any,
 ) -> Any:
-    """Draw a widget bound to one field of the view (seeded from it, writing back to it)."""
-    key = f"ctl_{field}"
+    """Draw a widget bound to one field of the view (seeded from it, writing back to it).
+
+    ``role`` tells apart two widgets that set parts of one field (the District sheet's
+    district and the district it is compared with): their keys are ``ctl_<field>__<role>``.
+    """
+    key = f"ctl_{field}" + (f"__{role}" if role else "")
     wanted = from_view(getattr(current_view(), field))
     if st.session_state.get(key, _MISSING) != wanted:
         st.session_state[key] = wanted

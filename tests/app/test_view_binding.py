@@ -1,7 +1,7 @@
 """The link is the view: every control on every page is a field of the view and its link.
 
-A control is bound when its key is ``ctl_<field>`` for a field of ``explorer.views.ViewState``
-that has a link key (``explorer.ui.state.control`` draws such controls). What is not a
+A control is bound when its key is ``ctl_<field>`` (or ``ctl_<field>__<role>`` for a second
+control setting part of one field) for a field of ``explorer.views.ViewState`` that has a link key (``explorer.ui.state.control`` draws such controls). What is not a
 setting of the view is listed below with the reason; anything else fails the test.
 """
 
@@ -55,7 +55,8 @@ def _unbound(at: AppTest) -> list[str]:
             continue
         if key.startswith(UPLOAD_PREFIXES):
             continue
-        if not (key.startswith("ctl_") and key[4:] in fields):
+        # ctl_<field>, or ctl_<field>__<role> for a second widget setting part of a field
+        if not (key.startswith("ctl_") and key[4:].split("__")[0] in fields):
             wrong.append(f"{type(widget).__name__} {key or '(no key)'!r}: {widget.label!r}")
     return wrong
 
@@ -86,7 +87,14 @@ def _raw_values(at: AppTest) -> list:
         pool.extend(shown.hierarchy[shown.levels[-1]].astype(str).unique())
     for choices in (figure_keys(shown), vocabulary.METHOD_LABELS, vocabulary.CLASS_LABELS):
         pool.extend(choices)
-    return [*pool, *vocabulary.LAYER_LABELS, *vocabulary.DECOMPOSABLE, "province", "district"]
+    return [
+        *pool,
+        *vocabulary.LAYER_LABELS,
+        *vocabulary.DECOMPOSABLE,
+        "province",
+        "district",
+        "",  # "no other district" of the District sheet's comparison
+    ]
 
 
 def _set_other(at: AppTest, widget: Widget) -> None:
