@@ -109,7 +109,7 @@ else:
     left, right = st.columns(2)
     with left:
         # Vega's own theme: Streamlit's squeezes a square chart whose title and legend take room.
-        st.altair_chart(sheet.profile, theme=None, width="content", key="district_lorenz")
+        st.altair_chart(sheet.profile, theme=None, width="content", height=640, key="district_lorenz")
     with right:
         row = sheet.headline
         if row is not None:

@@ -172,8 +172,22 @@ def district(panel: Panel, view: ViewState, compute: Compute) -> DistrictFigures
         strip=strip,
         has_bounds=bool(np.isfinite(own[["lower", "upper"]].to_numpy(dtype=float)).any()),
         fits=fits,
-        rank_chart=charts.rank_over_time(ranks(table, view.index, panel), highlight=(region,)),
+        rank_chart=charts.rank_over_time(
+            ranks(table, view.index, panel), highlight=(region,), **_rank_words_of(view.index)
+        ),
     )
+
+
+def _rank_words_of(index: str) -> dict[str, str]:
+    """What rank 1 is on the rank chart: the most unequal, or the poorest by a poverty
+    measure."""
+    if index in series.POVERTY_FIGURES:
+        return {
+            "rank_title": "Rank (1 = most poverty)",
+            "caption": "1 = most poverty by this measure. Ranks move on small differences; "
+            "read them with the bounds.",
+        }
+    return {}
 
 
 def _rank_words(rank: Any, count: int) -> str:

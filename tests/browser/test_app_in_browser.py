@@ -321,3 +321,18 @@ def test_published_figures_and_district_means_on_every_page(
         if path == "district":
             # the sheet names the district's rank among all the districts
             assert page.get_by_text(re.compile(r"\d+ of 46")).count() >= 1
+
+
+def test_the_district_sheet_compares_two_districts_from_the_link(server, context):
+    page = context.new_page()
+    page.goto(f"{server}/district?sel=CAL01,BRE01&ix=fgt_1")
+    settle(page)
+    page.wait_for_selector(".st-key-cautions_box", timeout=60_000)
+    page.wait_for_selector("text=Side by side")
+    page.wait_for_selector("text=Lorenz curve lies above")
+    settle(page)
+    no_errors(page)
+    shot(page, "district-compare")
+    page.get_by_text("Side by side").scroll_into_view_if_needed()
+    page.wait_for_timeout(500)
+    page.screenshot(path=str(shot(page, "district-compare").with_name("district-pair.png")))
