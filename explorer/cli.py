@@ -10,6 +10,7 @@ from __future__ import annotations
 import argparse
 import json
 import os
+import stat
 import sys
 import tempfile
 from collections.abc import Sequence
@@ -589,11 +590,16 @@ def _view_file_problem(path: Path, message: str) -> DataError:
     return DataError([Problem(message, fix="save a view file from the app", file=str(path))])
 
 
+def _too_large(limit: int) -> str:
+    return f"the view file is larger than {limit / 1e6:.0f} MB; a view file is a few hundred bytes"
+
+
 def _read_view_file(path: Path) -> str:
     """The text of a view file, refused (exit 2) unless it can be read as one.
 
-    The size limit is applied before anything is read: at most one byte more than the limit
-    is ever read (a device of endless zeros is refused at the limit). A UTF-8 byte-order mark
+    Only a regular file is opened (a device of endless zeros or a pipe is refused before
+    anything is read) and the size limit is applied first: at most one byte more than the
+    limit is ever read. A UTF-8 byte-order mark
     is accepted. A file that is not a JSON object with the current ``rift_view`` version is
     refused: a report of the default view would be a report of something else.
     """
@@ -601,20 +607,24 @@ def _read_view_file(path: Path) -> str:
 
     limit = views.MAX_VIEW_FILE_BYTES
     try:
-        if path.is_dir():
+        mode = path.stat().st_mode
+        if stat.S_ISDIR(mode):
             raise _view_file_problem(path, "this is a folder, not a view file")
+        if not stat.S_ISREG(mode):
+            # a device or a pipe may never end (or never start): refuse before opening it
+            raise _view_file_problem(
+                path, "this is not a regular file (a device or a pipe), not a view file"
+            )
+        if path.stat().st_size > limit:
+            raise _view_file_problem(path, _too_large(limit))
         with path.open("rb") as handle:
             raw = handle.read(limit + 1)
     except OSError as error:
         raise _view_file_problem(
             path, f"cannot read the view file: {error.strerror or error}"
         ) from None
-    if len(raw) > limit:
-        raise _view_file_problem(
-            path,
-            f"the view file is larger than {limit / 1e6:.0f} MB; a view file is a few "
-            "hundred bytes",
-        )
+    if len(raw) > limit:  # it grew since it was looked at
+        raise _view_file_problem(path, _too_large(limit))
     try:
         text = raw.decode("utf-8-sig")
     except UnicodeDecodeError as error:

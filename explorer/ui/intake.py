@@ -96,7 +96,7 @@ def _columns(name: str, file_id: str, scope: str, _content: bytes) -> list[str]:
         path = Path(folder) / _safe_name(name)
         path.write_bytes(_content)
         try:
-            return [str(c) for c in readers.read_table(path).columns]
+            return [str(c) for c in readers.read_head(path).columns]
         except DataError:
             return []
 
