@@ -576,9 +576,10 @@ def stored_datasets() -> None:
 def results_out(opened: state.OpenView) -> None:
     """Downloads of the computed tables, the view file and the one-file report."""
     view, panel, compute = opened.view, opened.panel, opened.compute
-    st.markdown(
-        f"**Dataset:** {vocabulary.dataset_name(view, panel)} "
-        f"(content fingerprint `{panel.fingerprint}`, the same for the same data)"
+    show.markdown(
+        "**Dataset:** {} (content fingerprint `{}`, the same for the same data)",
+        vocabulary.dataset_name(view, panel),
+        panel.fingerprint,
     )
     if panel.kind != "means":
         table = compute.indices(view.method)
