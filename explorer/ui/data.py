@@ -30,6 +30,7 @@ __all__ = [
     "catalog",
     "data_dir",
     "open_dataset",
+    "saved_labels",
     "scope_of",
     "session_scope",
     "uploads",
@@ -94,13 +95,31 @@ def catalog() -> list[Dataset]:
         listing = workspace().list()
     except Exception:  # a broken workspace must not hide the demo and the uploads
         listing = pd.DataFrame(columns=["id", "name"])
-    for row in listing.itertuples(index=False):
-        ident = str(row.id)
-        label = " · ".join([str(row.name), str(row.kind), str(row.created)[:10], ident[:6]])
+    for ident, label in saved_labels(listing).items():
         entries.append(Dataset(ident, f"{label} (saved)", "workspace"))
     for dataset_id, panel in uploads().items():
         entries.append(Dataset(dataset_id, f"{panel.name or dataset_id} (this session)", "upload"))
     return entries
+
+
+def saved_labels(listing: pd.DataFrame) -> dict[str, str]:
+    """Each stored dataset's entry: name, kind, date saved and the start of its id.
+
+    The id is shown with 6 characters, or as many more as it takes for no two entries to
+    read the same (same name, kind and day, ids beginning alike).
+    """
+    rows = [
+        (str(row.id), [str(row.name), str(row.kind), str(row.created)[:10]])
+        for row in listing.itertuples(index=False)
+    ]
+    width = 6
+    while True:
+        labels = {ident: " · ".join([*words, ident[:width]]) for ident, words in rows}
+        if len(set(labels.values())) == len(labels) or width >= max(
+            (len(i) for i, _ in rows), default=0
+        ):
+            return labels
+        width += 2
 
 
 @st.cache_resource(show_spinner="Opening the dataset…", max_entries=8)
