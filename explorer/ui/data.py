@@ -47,7 +47,7 @@ class Dataset:
 
     id: str
     label: str
-    source: str  # "demo" | "workspace" | "upload"
+    source: str  # "demo" | "workspace" | "upload" | "damaged" (stored, cannot be opened)
 
 
 def data_dir() -> Path | None:
@@ -93,10 +93,15 @@ def catalog() -> list[Dataset]:
     entries = [Dataset(key, label, "demo") for key, (label, _) in DEMO_DATASETS.items()]
     try:
         listing = workspace().list()
+        damaged = workspace().damaged()
     except Exception:  # a broken workspace must not hide the demo and the uploads
         listing = pd.DataFrame(columns=["id", "name"])
+        damaged = pd.DataFrame(columns=["id", "reason"])
     for ident, label in saved_labels(listing).items():
         entries.append(Dataset(ident, f"{label} (saved)", "workspace"))
+    # listed, not left out: choosing one says what is wrong with it
+    for row in damaged.itertuples(index=False):
+        entries.append(Dataset(str(row.id), f"{str(row.id)[:6]} · damaged (saved)", "damaged"))
     for dataset_id, panel in uploads().items():
         entries.append(Dataset(dataset_id, f"{panel.name or dataset_id} (this session)", "upload"))
     return entries

@@ -553,11 +553,16 @@ def stored_datasets() -> None:
     """The workspace's datasets, with a button to open one."""
     try:
         listing = data.workspace().list()
+        damaged = data.workspace().damaged()
     except DataError as error:
         show.problems(error, heading="The workspace could not be read")
         return
     root = data.data_dir()
     st.caption(f"Workspace folder: {root}" if root else "Workspace: the default data folder.")
+    if not damaged.empty:
+        noun = "dataset cannot" if len(damaged) == 1 else "datasets cannot"
+        show.notice(f"{len(damaged)} stored {noun} be opened; why is listed below.", "warning")
+        show.table(damaged, "intake_damaged")
     if listing.empty:
         st.info("No saved datasets yet. Bring in a panel and save it to the workspace.")
         return

@@ -126,6 +126,9 @@ def _open_or_demo(dataset_id: str, notices: list[str]) -> tuple[Any, str]:
 
 
 def _short(error: Exception) -> str:
+    problems = getattr(error, "problems", None)
+    if problems:  # a DataError: its first problem in plain words, not the count line
+        return str(problems[0].message).strip()[:200]
     text = str(error).strip().splitlines()
     return text[0][:160] if text else type(error).__name__
 
