@@ -8,7 +8,6 @@ line and exit with status 2; the command never shows a traceback.
 from __future__ import annotations
 
 import argparse
-import json
 import os
 import stat
 import sys
@@ -599,9 +598,10 @@ def _read_view_file(path: Path) -> str:
 
     Only a regular file is opened (a device of endless zeros or a pipe is refused before
     anything is read) and the size limit is applied first: at most one byte more than the
-    limit is ever read. A UTF-8 byte-order mark
-    is accepted. A file that is not a JSON object with the current ``rift_view`` version is
-    refused: a report of the default view would be a report of something else.
+    limit is ever read. The rest is :func:`explorer.views.check_view_file`: a UTF-8
+    byte-order mark is accepted; a file that is not a JSON object with the current
+    ``rift_view`` version is refused, since a report of the default view would be a report
+    of something else.
     """
     from explorer import views
 
@@ -623,27 +623,10 @@ def _read_view_file(path: Path) -> str:
         raise _view_file_problem(
             path, f"cannot read the view file: {error.strerror or error}"
         ) from None
-    if len(raw) > limit:  # it grew since it was looked at
-        raise _view_file_problem(path, _too_large(limit))
     try:
-        text = raw.decode("utf-8-sig")
-    except UnicodeDecodeError as error:
-        raise _view_file_problem(
-            path, f"the view file is not UTF-8 text (byte {error.start + 1})"
-        ) from None
-    try:
-        body = json.loads(text)
-    except (ValueError, RecursionError) as error:
-        where = f" (line {error.lineno})" if isinstance(error, json.JSONDecodeError) else ""
-        raise _view_file_problem(path, f"the view file is not valid JSON{where}") from None
-    version = body.get("rift_view") if isinstance(body, dict) else None
-    if version is None or isinstance(version, bool) or version != views.VIEW_FILE_VERSION:
-        raise _view_file_problem(
-            path,
-            f"this is not a view file of version {views.VIEW_FILE_VERSION} "
-            "(a JSON object with its 'rift_view' version)",
-        )
-    return text
+        return views.check_view_file(raw)
+    except views.ViewFileError as error:
+        raise _view_file_problem(path, str(error)) from None
 
 
 def run_report(args: argparse.Namespace) -> int:

@@ -627,14 +627,23 @@ def results_out(opened: state.OpenView) -> None:
 
 
 def apply_view_file(content: bytes) -> None:
-    """Replace the view by a view file's, with notices for anything that did not fit."""
+    """Replace the view by a view file's, with notices for anything that did not fit.
+
+    A file that is not a view file at all (not JSON, another version, too large) leaves the
+    current view as it is and says why: opening the default view in its place would show
+    something other than what the file was meant to show. A byte-order mark is accepted.
+    """
     from explorer import views
 
-    text = content.decode("utf-8", errors="replace")
+    try:
+        text = views.check_view_file(content)
+    except views.ViewFileError as error:
+        show.notice(f"The view file was not applied: {error}. The view is unchanged.", "error")
+        return
     choices = state.known(state.panel(), data.catalog())
     new_view, notices = views.from_json(text, known=choices)
     st.session_state[state.VIEW] = new_view
-    st.session_state[state.NOTICES] = list(notices)
+    state.add_notices(notices, source=state.FROM_VIEW_FILE)
     st.switch_page(state.page_path(getattr(new_view, "page", "map") or "map"))
 
 
