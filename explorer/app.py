@@ -11,7 +11,7 @@ import streamlit as st
 
 from explorer import ui
 from explorer.data.model import DataError
-from explorer.present.vocabulary import PAGES
+from explorer.present.vocabulary import APP_ICON, PAGES
 from explorer.ui import show, state
 
 __all__ = ["main"]
@@ -19,7 +19,9 @@ __all__ = ["main"]
 
 def main() -> None:
     """Draw the sidebar and run the chosen page, never showing a traceback."""
-    st.set_page_config(page_title="Rift", page_icon="⛰️", layout="wide")
+    # First, before the navigation: a page's material icon would otherwise become the
+    # favicon, which the browser fetches from outside (see vocabulary.APP_ICON).
+    st.set_page_config(page_title="Rift", page_icon=APP_ICON, layout="wide")
     pages = {
         name: st.Page(state.page_path(name), title=page.title, icon=page.icon, url_path=name)
         for name, page in PAGES.items()

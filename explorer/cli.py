@@ -8,8 +8,8 @@ line and exit with status 2; the command never shows a traceback.
 from __future__ import annotations
 
 import argparse
-import json
 import os
+import stat
 import sys
 import tempfile
 from collections.abc import Sequence
@@ -618,51 +618,44 @@ def _view_file_problem(path: Path, message: str) -> DataError:
     return DataError([Problem(message, fix="save a view file from the app", file=str(path))])
 
 
+def _too_large(limit: int) -> str:
+    return f"the view file is larger than {limit / 1e6:.0f} MB; a view file is a few hundred bytes"
+
+
 def _read_view_file(path: Path) -> str:
     """The text of a view file, refused (exit 2) unless it can be read as one.
 
-    The size limit is applied before anything is read: at most one byte more than the limit
-    is ever read (a device of endless zeros is refused at the limit). A UTF-8 byte-order mark
-    is accepted. A file that is not a JSON object with the current ``rift_view`` version is
-    refused: a report of the default view would be a report of something else.
+    Only a regular file is opened (a device of endless zeros or a pipe is refused before
+    anything is read) and the size limit is applied first: at most one byte more than the
+    limit is ever read. The rest is :func:`explorer.views.check_view_file`: a UTF-8
+    byte-order mark is accepted; a file that is not a JSON object with the current
+    ``rift_view`` version is refused, since a report of the default view would be a report
+    of something else.
     """
     from explorer import views
 
     limit = views.MAX_VIEW_FILE_BYTES
     try:
-        if path.is_dir():
+        mode = path.stat().st_mode
+        if stat.S_ISDIR(mode):
             raise _view_file_problem(path, "this is a folder, not a view file")
+        if not stat.S_ISREG(mode):
+            # a device or a pipe may never end (or never start): refuse before opening it
+            raise _view_file_problem(
+                path, "this is not a regular file (a device or a pipe), not a view file"
+            )
+        if path.stat().st_size > limit:
+            raise _view_file_problem(path, _too_large(limit))
         with path.open("rb") as handle:
             raw = handle.read(limit + 1)
     except OSError as error:
         raise _view_file_problem(
             path, f"cannot read the view file: {error.strerror or error}"
         ) from None
-    if len(raw) > limit:
-        raise _view_file_problem(
-            path,
-            f"the view file is larger than {limit / 1e6:.0f} MB; a view file is a few "
-            "hundred bytes",
-        )
     try:
-        text = raw.decode("utf-8-sig")
-    except UnicodeDecodeError as error:
-        raise _view_file_problem(
-            path, f"the view file is not UTF-8 text (byte {error.start + 1})"
-        ) from None
-    try:
-        body = json.loads(text)
-    except (ValueError, RecursionError) as error:
-        where = f" (line {error.lineno})" if isinstance(error, json.JSONDecodeError) else ""
-        raise _view_file_problem(path, f"the view file is not valid JSON{where}") from None
-    version = body.get("rift_view") if isinstance(body, dict) else None
-    if version is None or isinstance(version, bool) or version != views.VIEW_FILE_VERSION:
-        raise _view_file_problem(
-            path,
-            f"this is not a view file of version {views.VIEW_FILE_VERSION} "
-            "(a JSON object with its 'rift_view' version)",
-        )
-    return text
+        return views.check_view_file(raw)
+    except views.ViewFileError as error:
+        raise _view_file_problem(path, str(error)) from None
 
 
 def run_report(args: argparse.Namespace) -> int:

@@ -36,9 +36,11 @@ APP = Path(__file__).resolve().parent / "app.py"
 #: so that they hold wherever ``rift app`` is started (an installed wheel has no
 #: ``.streamlit/config.toml`` beside the working directory). A local tool for confidential
 #: data: no usage statistics, no hosted-deployment toolbar, no error details in the browser
-#: (they go to the server's log), a deliberate upload ceiling in MB.
+#: (they go to the server's log), a deliberate upload ceiling in MB, and Streamlit's HTTP
+#: API for driving an app without a browser kept off whatever a config file says.
 SETTINGS: dict[str, str] = {
     "server.headless": "true",
+    "server.enableAgentApi": "false",
     "browser.gatherUsageStats": "false",
     "client.toolbarMode": "minimal",
     "client.showErrorDetails": "none",

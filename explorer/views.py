@@ -59,8 +59,10 @@ __all__ = [
     "QUERY_KEYS",
     "VIEW_FILE_VERSION",
     "Known",
+    "ViewFileError",
     "canonical_poverty_line",
     "ViewState",
+    "check_view_file",
     "from_json",
     "from_query",
 ]
@@ -690,6 +692,7 @@ def from_json(
                 text = text.decode("utf-8-sig")
             except UnicodeDecodeError:
                 raise _Bad("The view file is not UTF-8 text; showing the default view.") from None
+        text = text.removeprefix("\ufeff")  # a byte-order mark decoded as text
         try:
             body = json.loads(text)
         except (ValueError, RecursionError):
@@ -727,6 +730,46 @@ def from_json(
         )
         view = ViewState()
     return view, _capped(notices)
+
+
+class ViewFileError(ValueError):
+    """A file that cannot be read as a view file at all; the message says why."""
+
+
+def check_view_file(raw: bytes) -> str:
+    """The text of a view file, once it is known to be one, for :func:`from_json`.
+
+    A view file is at most :data:`MAX_VIEW_FILE_BYTES`, UTF-8 (a byte-order mark is
+    accepted and dropped), and a JSON object with the current ``rift_view`` version.
+    Reading a file that is none of these as a view would open the default view in its
+    place, so the report and the app refuse it instead.
+
+    Raises
+    ------
+    ViewFileError
+        Saying what is wrong with the file as a whole.
+    """
+    if len(raw) > MAX_VIEW_FILE_BYTES:
+        raise ViewFileError(
+            f"the view file is larger than {MAX_VIEW_FILE_BYTES / 1e6:.0f} MB; a view file "
+            "is a few hundred bytes"
+        )
+    try:
+        text = raw.decode("utf-8-sig")
+    except UnicodeDecodeError as error:
+        raise ViewFileError(f"the view file is not UTF-8 text (byte {error.start + 1})") from None
+    try:
+        body = json.loads(text)
+    except (ValueError, RecursionError) as error:
+        where = f" (line {error.lineno})" if isinstance(error, json.JSONDecodeError) else ""
+        raise ViewFileError(f"the view file is not valid JSON{where}") from None
+    version = body.get("rift_view") if isinstance(body, dict) else None
+    if version is None or isinstance(version, bool) or version != VIEW_FILE_VERSION:
+        raise ViewFileError(
+            f"this is not a view file of version {VIEW_FILE_VERSION} "
+            "(a JSON object with its 'rift_view' version)"
+        )
+    return text
 
 
 #: The view-file entry with the dataset's facts, written for the reader, skipped on reading.

@@ -44,6 +44,12 @@ def test_the_command_line_carries_every_allowed_name_to_the_server():
     assert "rift.example" in given
 
 
+def test_the_command_line_keeps_the_browserless_drive_api_off():
+    command = serving.app_command(8765)
+    at = command.index("--server.enableAgentApi")
+    assert command[at + 1] == "false"
+
+
 # --------------------------------------------------------------------------- a real server
 
 
@@ -118,6 +124,43 @@ def test_a_forged_host_is_refused_and_sigterm_stops_the_server_with_rift_app():
         # What a page on a rebinding name would send: refused before any app data flows.
         assert _stream_handshake(port, f"rebind.attacker.example:{port}") in (0, 403)
         assert _stream_handshake(port, "127.0.0.1.attacker.example") in (0, 403)
+    finally:
+        _stops_and_frees_its_port(process, port, signal.SIGTERM)
+
+
+def _http(port: int, method: str, path: str, host: str) -> tuple[int, bytes]:
+    """Status and body of a plain HTTP request with ``host`` as its Host header."""
+    import http.client
+
+    connection = http.client.HTTPConnection("127.0.0.1", port, timeout=30)
+    try:
+        body = b"{}" if method == "POST" else None
+        headers = {"Host": host, "Content-Type": "application/json"}
+        connection.request(method, path, body=body, headers=headers)
+        reply = connection.getresponse()
+        return reply.status, reply.read()
+    finally:
+        connection.close()
+
+
+@pytest.mark.slow
+def test_a_foreign_host_gets_no_app_connection_and_only_the_static_page_shell():
+    """Streamlit 1.67 checks ``server.allowedHosts`` on the app's WebSocket (and its HTTP
+    drive API), not on static files: a foreign Host is refused the connection every figure
+    and dataset travels over, and can fetch only the page shell shipped in Streamlit's
+    package, byte for byte (the limit README.md states)."""
+    import streamlit
+
+    port = _free_port()
+    process = _start_rift_app(port)
+    try:
+        assert _stream_handshake(port, f"127.0.0.1:{port}") == 101
+        assert _stream_handshake(port, "evil.example") in (0, 403)
+        status, _ = _http(port, "POST", "/_stcore/agent/interact", "evil.example")
+        assert status in (403, 404)
+        status, body = _http(port, "GET", "/", "evil.example")
+        shell = (Path(streamlit.__file__).parent / "static" / "index.html").read_bytes()
+        assert status == 200 and body == shell
     finally:
         _stops_and_frees_its_port(process, port, signal.SIGTERM)
 

@@ -290,3 +290,14 @@ def test_links_and_view_files_with_the_map_pages_earlier_key_still_open_the_map(
     body = {"rift_view": 1, "page": "atlas", "year": 2012}
     assert from_json(json.dumps(body)) == (ViewState(page="map", year=2012), [])
     assert ViewState(page="map").to_query() == {}
+
+
+def test_a_view_file_text_with_its_byte_order_mark_still_decoded_is_read():
+    # A byte-order mark decoded as text (U+FEFF first) is the file's signature, not part
+    # of the JSON (Unicode Standard, section 23.8 "Signature": common practice).
+    from explorer import views
+
+    text = "\ufeff" + '{"rift_view": 1, "dataset": "demo", "year": 2015}'
+    view, notices = views.from_json(text)
+    assert view.year == 2015 and not notices
+    assert views.check_view_file(text.encode("utf-8")) == text[1:]

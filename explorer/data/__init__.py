@@ -39,6 +39,7 @@ __all__ = [
     "propose_crs",
     "propose_levels",
     "read_boundaries",
+    "read_head",
     "read_table",
 ]
 
@@ -51,6 +52,7 @@ _HOME = {
     "propose_crs": "crs",
     "propose_levels": "levels",
     "read_boundaries": "boundaries",
+    "read_head": "tables",
     "read_table": "tables",
 }
 

@@ -31,14 +31,15 @@ def open_stored(dataset_id: str, data_dir: str | Path | None = None) -> Panel:
     Raises
     ------
     DataError
-        If the workspace holds no dataset of that id (saying how to name the right one).
+        If the workspace holds no dataset of that id (saying how to name the right one), or
+        holds it damaged (saying what is wrong with it).
     """
     from explorer.data.workspace import Workspace
 
     workspace = Workspace(Path(data_dir)) if data_dir else Workspace()
     listing = workspace.list()
     known = set(listing["id"]) if len(listing) else set()
-    if dataset_id not in known:
+    if dataset_id not in known and dataset_id not in set(workspace.damaged()["id"]):
         raise DataError(
             [
                 Problem(

@@ -454,18 +454,27 @@ class DatasetStore:
             manifest = json.loads((folder / _MANIFEST).read_text(encoding="utf-8"))
         except FileNotFoundError:
             raise _damaged(ident, "its manifest is missing", where) from None
+        except json.JSONDecodeError as exc:
+            raise _damaged(
+                ident,
+                f"its manifest is cut short or is not JSON (line {exc.lineno}, column {exc.colno})",
+                where,
+            ) from None
         except (OSError, UnicodeDecodeError, ValueError) as exc:
             raise _damaged(ident, f"its manifest cannot be read ({exc})", where) from None
         if not isinstance(manifest, dict):
             raise _damaged(ident, "its manifest is not a JSON object", where)
         version = manifest.get("schema_version")
-        if version != SCHEMA_VERSION:
+        if isinstance(version, int) and not isinstance(version, bool) and version > SCHEMA_VERSION:
             raise fail(
-                f"Dataset {ident} was stored in format version {version!r}; this version "
-                f"of Rift reads version {SCHEMA_VERSION}.",
-                "Add the original files again.",
+                f"Dataset {ident} was stored by a newer version of Rift (format version "
+                f"{version}); this version reads format version {SCHEMA_VERSION}.",
+                "Open it with the newer version of Rift, or add the original files again "
+                "with this one.",
                 file=where,
             )
+        if version != SCHEMA_VERSION:
+            raise _damaged(ident, f"its manifest has no known format version ({version!r})", where)
         required = {
             "id": str,
             "name": str,
@@ -559,6 +568,8 @@ class DatasetStore:
 
     def _read_table(self, ident: str, table: str) -> pd.DataFrame:
         path = self.datasets_dir / ident / f"{table}.parquet"
+        if path.is_file() and path.stat().st_size == 0:
+            raise _damaged(ident, f"{path.name} is empty (0 bytes)", f"{ident}/{path.name}")
         try:
             return pd.read_parquet(path)
         except Exception as exc:  # pyarrow raises many types for a broken file
@@ -602,8 +613,27 @@ class DatasetStore:
                     f"{ident}/{table}.parquet",
                 )
         data = frames["data"]
+        where = f"{ident}/data.parquet"
+        if data.empty:
+            raise _damaged(
+                ident,
+                f"data.parquet holds no rows, though its manifest lists "
+                f"{manifest['districts']} districts",
+                where,
+            )
         if not pd.api.types.is_integer_dtype(data["year"]):
-            raise _damaged(ident, "its years are not whole numbers", f"{ident}/data.parquet")
+            raise _damaged(ident, "its years are not whole numbers", where)
+        # The hashes only say the files are the ones the manifest names; the manifest's own
+        # count of districts and years says whether they are the ones that were stored.
+        years = sorted({int(y) for y in data["year"].unique()})
+        if data["region"].nunique() != manifest["districts"] or years != manifest["years"]:
+            raise _damaged(
+                ident,
+                f"data.parquet holds {data['region'].nunique()} districts and "
+                f"{len(years)} years, not the {manifest['districts']} districts and "
+                f"{len(manifest['years'])} years its manifest lists",
+                where,
+            )
 
     def list(self) -> pd.DataFrame:
         """The stored datasets, newest first.
@@ -614,13 +644,33 @@ class DatasetStore:
             Columns ``id, name, kind, districts, years, created``; ``districts`` is the
             number of districts and ``years`` the span as text (``"2015–2022"``).
             Datasets still being written, and those whose manifest is damaged, are not
-            listed.
+            listed here; :meth:`damaged` lists the latter with their reasons.
         """
         entries = self._index_entries()
         rows = [{c: entries[i][c] for c in _LIST_COLUMNS} for i in sorted(entries)]
         frame = pd.DataFrame(rows, columns=list(_LIST_COLUMNS))
         frame["districts"] = frame["districts"].astype("int64")
         return frame.sort_values(["created", "id"], ascending=[False, True], ignore_index=True)
+
+    def damaged(self) -> pd.DataFrame:
+        """The stored datasets that cannot be listed, each with the reason, in plain words.
+
+        Returns
+        -------
+        DataFrame
+            Columns ``id, reason, file, fix``, one row per dataset folder whose manifest is
+            missing, cut short, of a newer format or otherwise unreadable (folders still
+            being written are not datasets yet and are left out). Damage inside the tables
+            is found when the dataset is opened (:meth:`open`).
+        """
+        rows = []
+        for folder in self._dataset_dirs():
+            try:
+                self._manifest(folder.name)
+            except DataError as error:
+                problem = error.problems[0]
+                rows.append((folder.name, problem.message, problem.file, problem.fix))
+        return pd.DataFrame(rows, columns=["id", "reason", "file", "fix"])
 
     def _read_index(self) -> dict[str, Any]:
         try:

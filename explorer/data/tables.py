@@ -18,10 +18,14 @@ import pandas as pd
 
 from explorer.data.files import at_the_edge, check_file, check_zip, label
 from explorer.data.model import DataError, fail
+from explorer.data.sheets import sheet_lines
 
-__all__ = ["MAX_COLUMNS", "read_table"]
+__all__ = ["HEAD_LINES", "MAX_COLUMNS", "read_head", "read_table"]
 
 MAX_COLUMNS = 1_000  # far more than any panel needs; wider files are refused early
+HEAD_LINES = 20  # lines :func:`read_head` reads: the header and a few rows to type them
+HEAD_BYTES = 1_000_000  # the most of a text file :func:`read_head` reads
+HEAD_ROWS = 1_000  # the last row of a sheet :func:`read_head` reads, blank rows included
 _DELIMITERS = (",", ";", "\t", "|")
 # what statistical tables print for "no value"
 _MISSING = {"", "na", "n/a", "nan", "null", "none", ".", "..", "...", ":", "-", "–"}
@@ -59,8 +63,30 @@ def read_table(
         For a missing, oversized, empty, binary or unreadable file, or a missing sheet;
         never another exception.
     """
+    return _at_the_edge(path, sheet, file_label, None)
+
+
+def read_head(
+    path: str | Path, *, sheet: str | int | None = None, file_label: str | None = None
+) -> pd.DataFrame:
+    """The header and first few rows of a table, read as :func:`read_table` reads it all.
+
+    At most :data:`HEAD_LINES` non-blank lines are read (of a text file, at most
+    :data:`HEAD_BYTES`; of a sheet, no row past :data:`HEAD_ROWS`; of Parquet, the first
+    batch), so listing a large file's columns
+    costs a bounded amount of memory.
+
+    Raises
+    ------
+    DataError
+        As :func:`read_table`.
+    """
+    return _at_the_edge(path, sheet, file_label, HEAD_LINES)
+
+
+def _at_the_edge(path, sheet, file_label, head: int | None) -> pd.DataFrame:
     try:
-        return _read_table(path, sheet=sheet, file_label=file_label)
+        return _read_table(path, sheet=sheet, file_label=file_label, head=head)
     except DataError:
         raise
     except Exception as exc:  # noqa: BLE001 - the edge: nothing else may escape
@@ -68,9 +94,13 @@ def read_table(
 
 
 def _read_table(
-    path: str | Path, *, sheet: str | int | None = None, file_label: str | None = None
+    path: str | Path,
+    *,
+    sheet: str | int | None = None,
+    file_label: str | None = None,
+    head: int | None = None,
 ) -> pd.DataFrame:
-    """The reader behind the public function of the same name (see there)."""
+    """The reader behind :func:`read_table` (``head`` None) and :func:`read_head`."""
     p = Path(path)
     file = label(p, file_label)
     p = check_file(p, file)
@@ -84,16 +114,16 @@ def _read_table(
         )
     try:
         with open(p, "rb") as handle:
-            head = handle.read(8)
+            signature = handle.read(8)
     except OSError as exc:
         raise fail(
             f"the file cannot be opened ({exc})", "check the path and permissions", file=file
         ) from None
-    if not head:
+    if not signature:
         raise fail(
             "the file is empty: it has no header and no rows", "export the table again", file=file
         )
-    sniffed = _sniff(head)
+    sniffed = _sniff(signature)
     if kind == "excel" and sniffed != "excel":
         looks = "text (perhaps a CSV file)" if _is_text(p) else "not an Excel workbook"
         raise fail(
@@ -109,11 +139,11 @@ def _read_table(
         )
     kind = sniffed
     if kind == "parquet":
-        frame = _read_parquet(p, file)
+        frame = _read_parquet(p, file, head)
     elif kind == "excel":
-        frame = _read_excel(p, file, sheet)
+        frame = _read_excel(p, file, sheet, head)
     else:
-        frame = _read_csv(p, file)
+        frame = _read_csv(p, file, head)
     frame.columns = [str(c).strip() for c in frame.columns]
     return frame
 
@@ -200,9 +230,17 @@ def _type_column(values: pd.Series, decimal: str, thousands: str | None) -> pd.S
 
 
 def _frame_from_rows(
-    rows: pd.DataFrame, file: str, decimal: str = ".", thousands: str | None = None
+    rows: pd.DataFrame,
+    file: str,
+    decimal: str = ".",
+    thousands: str | None = None,
+    numbers: np.ndarray | None = None,
 ) -> pd.DataFrame:
-    """First row = header; later rows typed; index = file line - 2; empty lines dropped."""
+    """First row = header; later rows typed; index = file line - 2; empty lines dropped.
+
+    ``numbers`` gives each row's line in the file when blank lines were never kept (a
+    worksheet); without it the rows are the file's lines in order.
+    """
     if rows.shape[0] == 0:
         raise fail(
             "the file is empty: it has no header and no rows", "export the table again", file=file
@@ -224,7 +262,8 @@ def _frame_from_rows(
     text = np.where(pd.isna(cells), "", cells).astype(str)
     filled = np.char.strip(text) != ""
     keep = filled.any(axis=1)
-    lines = np.arange(len(text))[keep]  # line - 2
+    positions = np.arange(len(text)) if numbers is None else np.asarray(numbers[1:]) - 2
+    lines = positions[keep]  # line - 2
     # trailing columns that are empty and unnamed (a stray delimiter) are noise
     while header and header[-1] == "" and not filled[:, len(header) - 1].any():
         header.pop()
@@ -238,9 +277,15 @@ def _frame_from_rows(
     return frame
 
 
-def _read_csv(path: Path, file: str) -> pd.DataFrame:
+def _read_csv(path: Path, file: str, head: int | None = None) -> pd.DataFrame:
     try:
-        raw = path.read_bytes()
+        if head is None:
+            raw = path.read_bytes()
+        else:
+            with path.open("rb") as handle:
+                raw = handle.read(HEAD_BYTES)
+            if len(raw) == HEAD_BYTES and b"\n" in raw:
+                raw = raw[: raw.rindex(b"\n") + 1]  # no line cut in two
     except OSError as exc:
         raise fail(
             f"the file cannot be read ({exc})", "check the path and permissions", file=file
@@ -250,6 +295,8 @@ def _read_csv(path: Path, file: str) -> pd.DataFrame:
         raise fail(
             "the file is empty: it has no header and no rows", "export the table again", file=file
         )
+    if head is not None:
+        text = "\n".join(text.splitlines()[: head + 1]) + "\n"
     lines = [ln for ln in text.splitlines()[:50] if ln.strip()]
     delimiter = _pick_delimiter(lines)
     try:
@@ -283,12 +330,17 @@ def _read_csv(path: Path, file: str) -> pd.DataFrame:
     return _frame_from_rows(rows, file, decimal, thousands)
 
 
-def _read_parquet(path: Path, file: str) -> pd.DataFrame:
+def _read_parquet(path: Path, file: str, head: int | None = None) -> pd.DataFrame:
     import pyarrow as pa
     import pyarrow.parquet as pq
 
     try:
-        table = pq.read_table(path)
+        if head is None:
+            table = pq.read_table(path)
+        else:
+            parquet = pq.ParquetFile(path)
+            batch = next(parquet.iter_batches(batch_size=head), None)
+            table = parquet.schema_arrow.empty_table() if batch is None else pa.table(batch)
         frame = table.to_pandas(ignore_metadata=True)  # no pandas metadata is trusted
     except (pa.ArrowException, OSError, ValueError, TypeError) as exc:
         raise fail(
@@ -311,7 +363,9 @@ def _cell_text(v: Any) -> str | None:
     return str(v)
 
 
-def _read_excel(path: Path, file: str, sheet: str | int | None) -> pd.DataFrame:
+def _read_excel(
+    path: Path, file: str, sheet: str | int | None, max_lines: int | None = None
+) -> pd.DataFrame:
     import openpyxl
 
     check_zip(path, file)
@@ -347,23 +401,30 @@ def _read_excel(path: Path, file: str, sheet: str | int | None) -> pd.DataFrame:
                 file=file,
             )
         try:
-            rows = [list(r) for r in book[chosen].iter_rows(values_only=True)]
+            last_row = None if max_lines is None else HEAD_ROWS
+            lines = sheet_lines(book[chosen], file, max_lines=max_lines, last_row=last_row)
+        except DataError:
+            raise
         except Exception as exc:
             raise fail(
-                f"the sheet {chosen!r} cannot be read ({exc})",
+                f"the sheet {chosen!r} cannot be read ({type(exc).__name__}: {exc})",
                 "save the workbook again as .xlsx",
                 file=file,
             ) from None
     finally:
         book.close()
-    if not rows or all(all(v is None for v in r) for r in rows):
+    if not lines:
         raise fail(
             f"the sheet {chosen!r} is empty: it has no header and no rows",
             "choose the sheet that holds the table",
             file=file,
         )
-    width = max(len(r) for r in rows)
-    grid = pd.DataFrame([r + [None] * (width - len(r)) for r in rows], dtype=object)
+    if lines[0][0] != 1:
+        lines.insert(0, (1, ()))  # the header is line 1, even when that line is blank
+    width = max(len(cells) for _, cells in lines)
+    grid = pd.DataFrame(
+        [list(cells) + [None] * (width - len(cells)) for _, cells in lines], dtype=object
+    )
     # cells as text, so one typing rule serves CSV and Excel alike
     grid = grid.map(_cell_text)
-    return _frame_from_rows(grid, file)
+    return _frame_from_rows(grid, file, numbers=np.array([n for n, _ in lines]))

@@ -119,6 +119,11 @@ class Workspace:
         """The stored datasets, newest first; see :meth:`DatasetStore.list`."""
         return self.datasets.list()
 
+    def damaged(self) -> pd.DataFrame:
+        """The stored datasets that cannot be listed, with why; see
+        :meth:`DatasetStore.damaged`."""
+        return self.datasets.damaged()
+
     def remove(self, ident: str) -> None:
         """Delete a stored dataset; see :meth:`DatasetStore.remove`."""
         self.datasets.remove(ident)

@@ -18,6 +18,7 @@ from explorer.data.demo import DEMO_IDS
 from explorer.stats import decompose, indices, lorenz
 
 __all__ = [
+    "APP_ICON",
     "AXIS_LABELS",
     "BREAKDOWN_FIELD",
     "CAPTION_CHARS",
@@ -233,6 +234,12 @@ class Page:
     icon: str
     script: str
 
+
+#: The browser tab's icon. An emoji: Streamlit 1.67 draws it as an SVG data address in the
+#: page, whereas a ``:material/...:`` icon as favicon is fetched from fonts.gstatic.com.
+#: It is set before the navigation, so no page's material icon becomes the favicon (the
+#: pages' icons in the sidebar come from the font Streamlit serves itself).
+APP_ICON = "⛰️"
 
 #: Page key -> page; the first one is served at "/".
 PAGES: dict[str, Page] = {

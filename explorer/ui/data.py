@@ -30,6 +30,7 @@ __all__ = [
     "catalog",
     "data_dir",
     "open_dataset",
+    "saved_labels",
     "scope_of",
     "session_scope",
     "uploads",
@@ -46,7 +47,7 @@ class Dataset:
 
     id: str
     label: str
-    source: str  # "demo" | "workspace" | "upload"
+    source: str  # "demo" | "workspace" | "upload" | "damaged" (stored, cannot be opened)
 
 
 def data_dir() -> Path | None:
@@ -92,15 +93,38 @@ def catalog() -> list[Dataset]:
     entries = [Dataset(key, label, "demo") for key, (label, _) in DEMO_DATASETS.items()]
     try:
         listing = workspace().list()
+        damaged = workspace().damaged()
     except Exception:  # a broken workspace must not hide the demo and the uploads
         listing = pd.DataFrame(columns=["id", "name"])
-    for row in listing.itertuples(index=False):
-        ident = str(row.id)
-        label = " · ".join([str(row.name), str(row.kind), str(row.created)[:10], ident[:6]])
+        damaged = pd.DataFrame(columns=["id", "reason"])
+    for ident, label in saved_labels(listing).items():
         entries.append(Dataset(ident, f"{label} (saved)", "workspace"))
+    # listed, not left out: choosing one says what is wrong with it
+    for row in damaged.itertuples(index=False):
+        entries.append(Dataset(str(row.id), f"{str(row.id)[:6]} · damaged (saved)", "damaged"))
     for dataset_id, panel in uploads().items():
         entries.append(Dataset(dataset_id, f"{panel.name or dataset_id} (this session)", "upload"))
     return entries
+
+
+def saved_labels(listing: pd.DataFrame) -> dict[str, str]:
+    """Each stored dataset's entry: name, kind, date saved and the start of its id.
+
+    The id is shown with 6 characters, or as many more as it takes for no two entries to
+    read the same (same name, kind and day, ids beginning alike).
+    """
+    rows = [
+        (str(row.id), [str(row.name), str(row.kind), str(row.created)[:10]])
+        for row in listing.itertuples(index=False)
+    ]
+    width = 6
+    while True:
+        labels = {ident: " · ".join([*words, ident[:width]]) for ident, words in rows}
+        if len(set(labels.values())) == len(labels) or width >= max(
+            (len(i) for i, _ in rows), default=0
+        ):
+            return labels
+        width += 2
 
 
 @st.cache_resource(show_spinner="Opening the dataset…", max_entries=8)

@@ -101,7 +101,7 @@ def _columns(name: str, file_id: str, scope: str, _content: bytes) -> list[str]:
         path = Path(folder) / _safe_name(name)
         path.write_bytes(_content)
         try:
-            return [str(c) for c in readers.read_table(path).columns]
+            return [str(c) for c in readers.read_head(path).columns]
         except DataError:
             return []
 
@@ -558,11 +558,16 @@ def stored_datasets() -> None:
     """The workspace's datasets, with a button to open one."""
     try:
         listing = data.workspace().list()
+        damaged = data.workspace().damaged()
     except DataError as error:
         show.problems(error, heading="The workspace could not be read")
         return
     root = data.data_dir()
     st.caption(f"Workspace folder: {root}" if root else "Workspace: the default data folder.")
+    if not damaged.empty:
+        noun = "dataset cannot" if len(damaged) == 1 else "datasets cannot"
+        show.notice(f"{len(damaged)} stored {noun} be opened; why is listed below.", "warning")
+        show.table(damaged, "intake_damaged")
     if listing.empty:
         st.info("No saved datasets yet. Bring in a panel and save it to the workspace.")
         return
@@ -581,9 +586,10 @@ def stored_datasets() -> None:
 def results_out(opened: state.OpenView) -> None:
     """Downloads of the computed tables, the view file and the one-file report."""
     view, panel, compute = opened.view, opened.panel, opened.compute
-    st.markdown(
-        f"**Dataset:** {vocabulary.dataset_name(view, panel)} "
-        f"(content fingerprint `{panel.fingerprint}`, the same for the same data)"
+    show.markdown(
+        "**Dataset:** {} (content fingerprint `{}`, the same for the same data)",
+        vocabulary.dataset_name(view, panel),
+        panel.fingerprint,
     )
     if panel.kind != "means":
         table = compute.indices(view.method)
@@ -626,14 +632,23 @@ def results_out(opened: state.OpenView) -> None:
 
 
 def apply_view_file(content: bytes) -> None:
-    """Replace the view by a view file's, with notices for anything that did not fit."""
+    """Replace the view by a view file's, with notices for anything that did not fit.
+
+    A file that is not a view file at all (not JSON, another version, too large) leaves the
+    current view as it is and says why: opening the default view in its place would show
+    something other than what the file was meant to show. A byte-order mark is accepted.
+    """
     from explorer import views
 
-    text = content.decode("utf-8", errors="replace")
+    try:
+        text = views.check_view_file(content)
+    except views.ViewFileError as error:
+        show.notice(f"The view file was not applied: {error}. The view is unchanged.", "error")
+        return
     choices = state.known(state.panel(), data.catalog())
     new_view, notices = views.from_json(text, known=choices)
     st.session_state[state.VIEW] = new_view
-    st.session_state[state.NOTICES] = list(notices)
+    state.add_notices(notices, source=state.FROM_VIEW_FILE)
     st.switch_page(state.page_path(getattr(new_view, "page", "map") or "map"))
 
 

@@ -30,10 +30,14 @@ from explorer.ui import data, show
 from explorer.ui.cache import CachedCompute
 
 __all__ = [
+    "FROM_LINK",
+    "FROM_VIEW_FILE",
     "OpenView",
+    "add_notices",
     "control",
     "current_view",
     "known",
+    "notice_heading",
     "open_view",
     "page_path",
     "panel",
@@ -138,6 +142,9 @@ def _open_or_demo(dataset_id: str, notices: list[str]) -> tuple[Any, str]:
 
 
 def _short(error: Exception) -> str:
+    problems = getattr(error, "problems", None)
+    if problems:  # a DataError: its first problem in plain words, not the count line
+        return str(problems[0].message).strip()[:200]
     text = str(error).strip().splitlines()
     return text[0][:160] if text else type(error).__name__
 
@@ -195,16 +202,34 @@ def control(
 _MISSING = object()
 
 
+#: Where the pending notices' view came from: the address (a link) or a view file.
+FROM_LINK, FROM_VIEW_FILE = "link", "view file"
+NOTICES_FROM = "rift_notices_from"
+
+
+def add_notices(notices: Sequence[str], *, source: str) -> None:
+    """Notices to show on the next run, about a view read from ``source`` (a link or a
+    view file), replacing any still pending."""
+    st.session_state[NOTICES] = list(notices)
+    st.session_state[NOTICES_FROM] = source
+
+
+def notice_heading(source: str) -> str:
+    """The heading over the notices about a view read from ``source``."""
+    return f"Some parts of the {source} could not be used and were reset to defaults:"
+
+
 def show_notices() -> None:
-    """Show the notices about bad URL values once, then forget them."""
+    """Show the notices about bad values of the link or view file once, then forget them."""
     notices = st.session_state.get(NOTICES) or []
     if notices:
+        source = st.session_state.get(NOTICES_FROM, FROM_LINK)
         st.warning(
-            "Some parts of the link could not be used and were reset to defaults:\n\n"
-            + "\n".join(f"- {show.plain(n)}" for n in notices),
+            notice_heading(source) + "\n\n" + "\n".join(f"- {show.plain(n)}" for n in notices),
             icon="⚠️",
         )
         st.session_state[NOTICES] = []
+        st.session_state[NOTICES_FROM] = FROM_LINK
 
 
 def publish(page: str | None = None) -> None:

@@ -26,7 +26,7 @@ LINK = "[Sign in again](http://phish.invalid/)"
 LIVE_MARKUP = re.compile(r"(?<!\\)\]\(|(?<!\\)<[a-z/]|\\?:\\?/\\?/")
 
 
-def _hostile_demo(folder) -> str:
+def _hostile_demo(folder, facts=None) -> str:
     """The demo deciles with Markdown and HTML in district and county names, saved."""
     from explorer import data as readers
     from explorer.data.workspace import Workspace
@@ -50,7 +50,7 @@ def _hostile_demo(folder) -> str:
     geo.write_text(json.dumps(shapes))
     panel = readers.load_panel(csv, geo)
     options = {"kind": None, "column_map": None, "boundary_id": None, "crs": None}
-    return Workspace(folder).add(panel, [csv, geo], options)
+    return Workspace(folder).add(panel, [csv, geo], options, facts)
 
 
 def _texts(at: AppTest) -> list[str]:
@@ -68,6 +68,61 @@ def _texts(at: AppTest) -> list[str]:
 
     walk(at._tree)
     return found
+
+
+#: Proto fields Streamlit renders as Markdown (st.markdown ``body``; widget, expander and
+#: tab ``label``; ``help``; captions) — Streamlit 1.67 docstrings, ``streamlit.elements``.
+MARKDOWN_FIELDS = {"body", "label", "help", "caption", "captions", "title", "placeholder"}
+#: Widgets whose ``options`` are Markdown too (st.radio, st.pills, st.segmented_control);
+#: st.selectbox and st.multiselect show their options as plain text.
+MARKDOWN_OPTIONS = {"Radio", "ButtonGroup"}
+
+
+def _strings(message, kind: str, out: list[tuple[str, str]]) -> None:
+    for field, value in message.ListFields():
+        items = value if field.is_repeated else [value]
+        if field.type == field.TYPE_MESSAGE:
+            for item in items:
+                _strings(item, kind, out)
+        elif field.type == field.TYPE_STRING and (
+            field.name in MARKDOWN_FIELDS or (field.name == "options" and kind in MARKDOWN_OPTIONS)
+        ):
+            out.extend((f"{kind}.{field.name}", v) for v in items if v)
+
+
+def _every_markdown_text(at: AppTest) -> list[tuple[str, str]]:
+    """Every string of every element and block of the page that Streamlit shows as Markdown,
+    nested messages included (an expander's label lives inside its block's proto)."""
+    found: list[tuple[str, str]] = []
+
+    def walk(node) -> None:
+        proto = getattr(node, "proto", None)
+        if proto is not None and hasattr(proto, "ListFields"):
+            _strings(proto, type(node).__name__, found)
+        for child in getattr(node, "children", {}).values():
+            walk(child)
+
+    walk(at._tree)
+    return found
+
+
+@pytest.mark.parametrize("name", ["atlas", "timelines", "breakdown", "district", "intake"])
+def test_dataset_facts_and_names_with_markup_are_text_in_every_element(app, tmp_path, name):
+    from explorer.data.dataset_store import DatasetFacts
+
+    facts = DatasetFacts(
+        name=LINK, income_concept=IMAGE, currency=HTML, price_base=LINK, source=IMAGE
+    )
+    dataset = _hostile_demo(tmp_path / "workspace", facts)
+    app.query_params.update({"d": dataset, "sel": "BRE01,BRE02"})
+    run(app)
+    app.switch_page(page(name))
+    run(app)
+    texts = _every_markdown_text(app)
+    live = [(where, text) for where, text in texts if LIVE_MARKUP.search(text)]
+    assert not live, live
+    # the facts are shown (escaped), not left out
+    assert any(plain(LINK) in text for _, text in texts), texts
 
 
 @pytest.mark.parametrize("name", ["atlas", "timelines", "breakdown", "district"])

@@ -18,6 +18,7 @@ from pathlib import Path
 from typing import Any
 
 from explorer.data.model import fail
+from explorer.data.sheets import sheet_lines
 
 __all__ = [
     "DELIMITERS",
@@ -167,15 +168,13 @@ def _cell_text(value: object) -> str:
 
 
 def _sheet_grid(sheet: Any, file: str) -> Grid:
-    # the stated dimension refuses a huge sheet early; rows are still bounded one by one,
-    # since some writers state no dimension or a wrong one
-    _bounded(file, sheet.max_column or 0, 0)
+    # sheet_lines refuses an absurd used range (stated or real) naming its far cell, and
+    # keeps only non-blank rows, so a far-away stray cell never builds blank rows
     lines: list[Line] = []
     cells = 0
-    for number, row in enumerate(sheet.iter_rows(values_only=True), 1):
-        _bounded(file, len(row), cells)
+    for number, row in sheet_lines(sheet, file):
         row_cells = _trimmed([_cell_text(v) for v in row])
-        if row_cells:  # a far-away stray cell costs only the loop, never stored blank rows
+        if row_cells:
             cells += len(row_cells)
             _bounded(file, len(row_cells), cells)
             lines.append((number, row_cells))
