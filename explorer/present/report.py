@@ -4,12 +4,17 @@ Charts are embedded as inline SVG (rendered by vl-convert), tables as HTML; ther
 scripts and no external style sheets, fonts or images, so the file can be mailed or
 archived and still open in an office without internet. Every string that comes from the
 user's data (district names, dataset names, notes) is HTML-escaped.
+
+Tables arrive as :class:`ReportTable` (text cells in the pages' words, notes said once
+under the table); a bare DataFrame is shown with the pages' column titles and number
+formats from :mod:`explorer.present.vocabulary`.
 """
 
 from __future__ import annotations
 
 import html
 from collections.abc import Mapping, Sequence
+from dataclasses import dataclass
 from datetime import UTC, datetime
 from typing import TYPE_CHECKING
 
@@ -17,11 +22,45 @@ import altair as alt
 import pandas as pd
 
 from explorer.present import charts as chart_builders
+from explorer.present import vocabulary
 
 if TYPE_CHECKING:  # only the view's own methods are used: no import of the layer above
     from explorer.views import ViewState
 
-__all__ = ["METHOD_REFERENCES", "build_report"]
+__all__ = ["METHOD_REFERENCES", "ReportTable", "build_report", "plain_table"]
+
+
+@dataclass(frozen=True)
+class ReportTable:
+    """A table as the report prints it.
+
+    Attributes
+    ----------
+    data : DataFrame
+        The rows with their keys and numbers (what tests and downloads read).
+    shown : DataFrame
+        The same rows as text, columns titled in the pages' words.
+    notes : tuple of str
+        Sentences printed once under the table (cautions, notes shared by rows).
+    """
+
+    data: pd.DataFrame
+    shown: pd.DataFrame
+    notes: tuple[str, ...] = ()
+
+
+def plain_table(frame: pd.DataFrame) -> ReportTable:
+    """A table without its own wording: the pages' column titles and number formats."""
+    shown = pd.DataFrame(index=range(len(frame)))
+    for column in frame.columns:
+        values = frame[column].reset_index(drop=True)
+        title = vocabulary.COLUMN_LABELS.get(str(column), str(column).replace("_", " "))
+        if pd.api.types.is_float_dtype(values):
+            shown[title] = [vocabulary.figure(v, digits=4) for v in values]
+        else:
+            shown[title] = ["—" if pd.isna(v) else str(v) for v in values]
+    return ReportTable(frame, shown)
+
 
 #: Published methods the tool uses, as the report cites them (author, year, title).
 METHOD_REFERENCES: tuple[str, ...] = (
@@ -79,15 +118,19 @@ def _list(items: Sequence[str], css: str = "") -> str:
     return f"<ul{attr}>" + "".join(f"<li>{_e(item)}</li>" for item in items) + "</ul>"
 
 
-def _table(name: str, frame: pd.DataFrame) -> str:
+def _table(name: str, table: ReportTable | pd.DataFrame) -> str:
+    if isinstance(table, pd.DataFrame):
+        table = plain_table(table)
+    frame = table.shown
+    if frame.empty:  # never an empty grid: one sentence instead
+        return f"<h3>{_e(name)}</h3><p>No rows to show for this view.</p>"
     shown = frame.head(_MAX_TABLE_ROWS)
-    body = shown.to_html(
-        index=False, escape=True, na_rep="—", float_format=lambda x: f"{x:.4g}", border=0
-    )
-    note = ""
+    body = shown.to_html(index=False, escape=True, na_rep="—", border=0)
+    notes = list(table.notes)
     if len(frame) > len(shown):
-        note = f"<p class='meta'>First {len(shown):,} of {len(frame):,} rows.</p>"
-    return f"<h3>{_e(name)}</h3>{body}{note}"
+        notes.append(f"First {len(shown):,} of {len(frame):,} rows.")
+    said = "".join(f"<p class='note'>{_e(note)}</p>" for note in notes)
+    return f"<section class='table'><h3>{_e(name)}</h3>{body}{said}</section>"
 
 
 def _figure(name: str, chart: alt.TopLevelMixin, facts_line: str = "") -> str:
@@ -101,16 +144,23 @@ def _figure(name: str, chart: alt.TopLevelMixin, facts_line: str = "") -> str:
     return f"<figure><figcaption>{_e(name + said)}</figcaption>{svg}</figure>"
 
 
+def _fact(key: str, value: object) -> object:
+    if key == "kind":
+        return vocabulary.KIND_LABELS.get(str(value), value)
+    return value
+
+
 def build_report(
     view: ViewState,
     *,
     panel_info: Mapping[str, object],
-    tables: Mapping[str, pd.DataFrame],
+    tables: Mapping[str, ReportTable | pd.DataFrame],
     charts: Mapping[str, alt.TopLevelMixin],
     notes: Sequence[str],
     cautions: Sequence[str],
     generated: datetime | None = None,
     facts_line: str = "",
+    absent: Sequence[str] = (),
 ) -> str:
     """The view as one self-contained HTML document.
 
@@ -122,8 +172,9 @@ def build_report(
     panel_info : mapping
         What the data are: e.g. ``name``, ``fingerprint``, ``kind``, ``income_concept``,
         ``districts``, ``years``. Shown as given (escaped).
-    tables : mapping of str to DataFrame
-        Titled tables (index table, decomposition, ...).
+    tables : mapping of str to ReportTable or DataFrame
+        Titled tables (index table, decomposition, ...); a DataFrame is shown through
+        :func:`plain_table`.
     charts : mapping of str to alt.Chart
         Titled charts, embedded as inline SVG.
     notes : sequence of str
@@ -135,6 +186,8 @@ def build_report(
     facts_line : str, optional
         The dataset's facts in one line (concept, unit, money, source), shown under the
         title and in every figure's caption.
+    absent : sequence of str
+        One sentence per section the view leaves out, saying why.
 
     Returns
     -------
@@ -144,7 +197,10 @@ def build_report(
     when = (generated or datetime.now(UTC)).isoformat(timespec="seconds")
     name = panel_info.get("name") or view.dataset
     fingerprint = panel_info.get("fingerprint", "")
-    facts = "".join(f"<dt>{_e(key)}</dt><dd>{_e(value)}</dd>" for key, value in panel_info.items())
+    facts = "".join(
+        f"<dt>{_e(vocabulary.FACT_LABELS.get(key, key))}</dt><dd>{_e(_fact(key, value))}</dd>"
+        for key, value in panel_info.items()
+    )
     link = view.to_link() or "(the default view)"
     parts = [
         "<!DOCTYPE html>",
@@ -167,6 +223,9 @@ def build_report(
     if tables:
         parts.append("<h2>Tables</h2>")
         parts.extend(_table(title, frame) for title, frame in tables.items())
+    if absent:
+        parts.append("<h2>Not in this report</h2>")
+        parts.append(_list(list(absent)))
     parts += [
         "<h2>Method notes</h2>",
         _list(list(notes)),
