@@ -27,7 +27,7 @@ from explorer.present import vocabulary
 if TYPE_CHECKING:  # only the view's own methods are used: no import of the layer above
     from explorer.views import ViewState
 
-__all__ = ["METHOD_REFERENCES", "ReportTable", "build_report", "plain_table"]
+__all__ = ["METHOD_REFERENCES", "PRINT_STYLE", "ReportTable", "build_report", "plain_table"]
 
 
 @dataclass(frozen=True)
@@ -92,19 +92,59 @@ body { font-family: system-ui, sans-serif; margin: 2rem auto; max-width: 70rem;
        color: #1a1a1a; line-height: 1.45; padding: 0 1rem; }
 h1 { font-size: 1.6rem; margin-bottom: 0.2rem; }
 h2 { font-size: 1.2rem; margin-top: 2rem; border-bottom: 1px solid #ccc; }
-.meta { color: #555; }
+.meta, .note { color: #555; }
+.note { font-size: 0.85rem; margin: 0.2rem 0; }
 .cautions { background: #fff7e6; border-left: 4px solid #b35806; padding: 0.6rem 1rem; }
-table { border-collapse: collapse; font-size: 0.85rem; margin: 0.5rem 0 1rem; }
-th, td { border: 1px solid #ddd; padding: 0.2rem 0.5rem; text-align: right; }
-th { background: #f2f2f2; }
-td:first-child, th:first-child { text-align: left; }
+table.data { border-collapse: collapse; font-size: 0.85rem; margin: 0.5rem 0 1rem; }
+table.data th, table.data td { border: 1px solid #ddd; padding: 0.2rem 0.5rem; text-align: right; }
+table.data th { background: #f2f2f2; }
+table.data td:first-child, table.data th:first-child { text-align: left; }
 figure { margin: 1rem 0; overflow-x: auto; }
 figcaption { font-weight: 600; margin-bottom: 0.3rem; }
 pre { background: #f6f6f6; padding: 0.6rem; overflow-x: auto; font-size: 0.8rem; }
 dl { display: grid; grid-template-columns: max-content 1fr; gap: 0.2rem 1rem; }
 dt { font-weight: 600; }
 dd { margin: 0; }
+/* The sheet is a table only on paper, where its footer repeats on every page. */
+table.sheet, table.sheet > tbody, table.sheet > tfoot, table.sheet > * > tr,
+table.sheet > * > tr > td { display: block; padding: 0; border: 0; }
+.running { margin-top: 2rem; padding-top: 0.4rem; border-top: 1px solid #ccc;
+           color: #555; font-size: 0.8rem; }
 """
+
+# A4 paper: page numbers in the bottom margin where the browser draws margin boxes; the
+# fingerprint and date in a footer every engine repeats (a table footer repeats on every
+# printed page; paged-media engines lift it into the margin as a running element).
+_PRINT = """
+@page { size: A4; margin: 16mm 14mm 18mm 14mm;
+        @bottom-right { content: "Page " counter(page) " of " counter(pages);
+                        font: 8pt system-ui, sans-serif; color: #555; }
+        @bottom-left { content: element(footer); } }
+@media print {
+  html, body { background: #fff; }
+  body { margin: 0; max-width: none; padding: 0; font-size: 10pt; }
+  table.sheet { display: table; width: 100%; border-collapse: collapse; table-layout: fixed; }
+  table.sheet > tbody { display: table-row-group; }
+  table.sheet > tfoot { display: table-footer-group; }
+  table.sheet > * > tr { display: table-row; }
+  table.sheet > * > tr > td { display: table-cell; }
+  .running { position: running(footer); margin-top: 4mm; font-size: 8pt; }
+  h2, h3, figcaption { break-after: avoid; page-break-after: avoid; }
+  figure, tr, li, dl, .note, pre { break-inside: avoid; page-break-inside: avoid; }
+  figure { overflow: visible; }
+  figure svg { max-width: 100%; max-height: 235mm; width: auto; height: auto; }
+  table.data { width: 100%; font-size: 8pt; }
+  table.data thead { display: table-header-group; }
+  pre { white-space: pre-wrap; overflow: visible; }
+  button, input, select, textarea, summary, [role="button"], .controls, .screen-only {
+    display: none !important; }
+  a { color: inherit; text-decoration: none; }
+}
+"""
+
+
+#: The print style sheet (A4 pages, page numbers, repeated footer), for tests and reuse.
+PRINT_STYLE = _PRINT
 
 
 def _e(value: object) -> str:
@@ -125,7 +165,7 @@ def _table(name: str, table: ReportTable | pd.DataFrame) -> str:
     if frame.empty:  # never an empty grid: one sentence instead
         return f"<h3>{_e(name)}</h3><p>No rows to show for this view.</p>"
     shown = frame.head(_MAX_TABLE_ROWS)
-    body = shown.to_html(index=False, escape=True, na_rep="—", border=0)
+    body = shown.to_html(index=False, escape=True, na_rep="—", border=0, classes="data")
     notes = list(table.notes)
     if len(frame) > len(shown):
         notes.append(f"First {len(shown):,} of {len(frame):,} rows.")
@@ -142,6 +182,14 @@ def _figure(name: str, chart: alt.TopLevelMixin, facts_line: str = "") -> str:
         svg = svg.split("?>", 1)[1]
     said = f" — {facts_line}" if facts_line else ""
     return f"<figure><figcaption>{_e(name + said)}</figcaption>{svg}</figure>"
+
+
+def _footer(name: object, fingerprint: object, when: str) -> str:
+    """The line on every printed page: which data, which version of them, when."""
+    return (
+        f"<footer class='running'>Rift report · {_e(name)} · data fingerprint "
+        f"<code>{_e(fingerprint)}</code> · generated {_e(when)}</footer>"
+    )
 
 
 def _fact(key: str, value: object) -> object:
@@ -207,7 +255,9 @@ def build_report(
         '<html lang="en"><head><meta charset="utf-8">',
         '<meta name="viewport" content="width=device-width, initial-scale=1">',
         f"<title>Rift report: {_e(name)} — {_e(view.page_name)}</title>",
-        f"<style>{_STYLE}</style></head><body>",
+        f"<style>{_STYLE}{_PRINT}</style></head><body>",
+        # Content in the sheet's one cell; its footer repeats on every printed page.
+        "<table class='sheet'><tbody><tr><td>",
         f"<h1>{_e(name)}: {_e(view.page_name)}</h1>",
         f"<p class='meta'>Generated {_e(when)} · data fingerprint "
         f"<code>{_e(fingerprint)}</code></p>",
@@ -236,6 +286,9 @@ def build_report(
         f"<pre>{_e(link)}</pre>",
         "<p>View file (save as <code>.json</code> and open it in the app):</p>",
         f"<pre>{_e(view.to_json())}</pre>",
+        "</td></tr></tbody><tfoot><tr><td>",
+        _footer(name, fingerprint, when),
+        "</td></tr></tfoot></table>",
         "</body></html>",
     ]
     return "\n".join(parts)
