@@ -13,6 +13,7 @@ formats from :mod:`explorer.present.vocabulary`.
 from __future__ import annotations
 
 import html
+import re
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from datetime import UTC, datetime
@@ -96,9 +97,10 @@ h2 { font-size: 1.2rem; margin-top: 2rem; border-bottom: 1px solid #ccc; }
 .note { font-size: 0.85rem; margin: 0.2rem 0; }
 .cautions { background: #fff7e6; border-left: 4px solid #b35806; padding: 0.6rem 1rem; }
 table.data { border-collapse: collapse; font-size: 0.85rem; margin: 0.5rem 0 1rem; }
-table.data th, table.data td { border: 1px solid #ddd; padding: 0.2rem 0.5rem; text-align: right; }
+table.data th, table.data td { border: 1px solid #ddd; padding: 0.2rem 0.5rem; text-align: left; }
 table.data th { background: #f2f2f2; }
-table.data td:first-child, table.data th:first-child { text-align: left; }
+table.data .num { text-align: right; font-variant-numeric: tabular-nums; }
+table.data td.num { white-space: nowrap; }
 figure { margin: 1rem 0; overflow-x: auto; }
 figcaption { font-weight: 600; margin-bottom: 0.3rem; }
 pre { background: #f6f6f6; padding: 0.6rem; overflow-x: auto; font-size: 0.8rem; }
@@ -133,7 +135,7 @@ _PRINT = """
   figure, tr, li, dl, .note, pre { break-inside: avoid; page-break-inside: avoid; }
   figure { overflow: visible; }
   figure svg { max-width: 100%; max-height: 235mm; width: auto; height: auto; }
-  table.data { width: 100%; font-size: 8pt; }
+  table.data { font-size: 8pt; }
   table.data thead { display: table-header-group; }
   pre { white-space: pre-wrap; overflow: visible; }
   button, input, select, textarea, summary, [role="button"], .controls, .screen-only {
@@ -158,6 +160,31 @@ def _list(items: Sequence[str], css: str = "") -> str:
     return f"<ul{attr}>" + "".join(f"<li>{_e(item)}</li>" for item in items) + "</ul>"
 
 
+# A cell that reads as a number (or a range or share of numbers) is set right-aligned.
+_NUMERIC = re.compile(r"^[−\-+]?[\d,]*\.?\d+%?( [–-] [−\-+]?[\d,]*\.?\d+)?$|^—$")
+
+
+def _grid(frame: pd.DataFrame) -> str:
+    """Text cells as an HTML table; columns of numbers right-aligned, text left."""
+    numeric = [
+        bool(len(frame)) and all(_NUMERIC.match(str(v)) for v in frame[c]) for c in frame.columns
+    ]
+    head = "".join(
+        f"<th{' class=num' if n else ''}>{_e(c)}</th>"
+        for c, n in zip(frame.columns, numeric, strict=True)
+    )
+    rows = "".join(
+        "<tr>"
+        + "".join(
+            f"<td{' class=num' if n else ''}>{_e('—' if pd.isna(v) else v)}</td>"
+            for v, n in zip(row, numeric, strict=True)
+        )
+        + "</tr>"
+        for row in frame.itertuples(index=False, name=None)
+    )
+    return f"<table class='data'><thead><tr>{head}</tr></thead><tbody>{rows}</tbody></table>"
+
+
 def _table(name: str, table: ReportTable | pd.DataFrame) -> str:
     if isinstance(table, pd.DataFrame):
         table = plain_table(table)
@@ -165,7 +192,7 @@ def _table(name: str, table: ReportTable | pd.DataFrame) -> str:
     if frame.empty:  # never an empty grid: one sentence instead
         return f"<h3>{_e(name)}</h3><p>No rows to show for this view.</p>"
     shown = frame.head(_MAX_TABLE_ROWS)
-    body = shown.to_html(index=False, escape=True, na_rep="—", border=0, classes="data")
+    body = _grid(shown)
     notes = list(table.notes)
     if len(frame) > len(shown):
         notes.append(f"First {len(shown):,} of {len(frame):,} rows.")

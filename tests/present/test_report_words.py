@@ -68,15 +68,18 @@ class _Visible(HTMLParser):
         self.tables: list[list[list[str]]] = []
         self._skip = 0
         self._cell: list[str] | None = None
+        self._data = False
 
     def handle_starttag(self, tag, attrs):
         if tag in ("script", "style", "pre"):
             self._skip += 1
-        elif tag == "table":
-            self.tables.append([])
-        elif tag == "tr" and self.tables:
+        elif tag == "table":  # the page layout's own table is not a table of figures
+            self._data = "data" in (dict(attrs).get("class") or "").split()
+            if self._data:
+                self.tables.append([])
+        elif tag == "tr" and self._data:
             self.tables[-1].append([])
-        elif tag in ("td", "th"):
+        elif tag in ("td", "th") and self._data:
             self._cell = []
 
     def handle_endtag(self, tag):
@@ -85,6 +88,8 @@ class _Visible(HTMLParser):
         elif tag in ("td", "th") and self._cell is not None:
             self.tables[-1][-1].append("".join(self._cell).strip())
             self._cell = None
+        elif tag == "table":
+            self._data = False
 
     def handle_data(self, data):
         if self._skip:
