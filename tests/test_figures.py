@@ -70,11 +70,11 @@ def test_the_report_holds_the_same_ranking_and_charts_as_the_pages(demo):
     compute = PlainCompute(demo)
     report = figures.sections(view, demo, compute)
     page = figures.atlas(demo, view, compute)
-    shown = report.tables[page.ranking_title]
+    shown = report.tables[page.ranking_title].data  # the printed rows keep their keys here
     pd.testing.assert_frame_equal(shown, page.ranking.drop(columns=["wide"]))
     split = figures.breakdown(demo, view, compute)
     key = next(k for k in report.tables if k.startswith("Split of"))
-    pd.testing.assert_frame_equal(report.tables[key], split.shares)
+    pd.testing.assert_frame_equal(report.tables[key].data, split.shares)
     assert report.charts["Map"].to_dict() == page.chart.to_dict()
 
 
@@ -85,7 +85,7 @@ def test_a_means_ranking_reads_highest_mean_income_first_in_page_and_report(mean
     assert page.ranking_title == "Districts ranked (1 = highest mean income)"
     assert page.ranking_title in report.tables
     assert not any("most unequal" in title for title in report.tables)
-    values = report.tables[page.ranking_title]["value"]
+    values = report.tables[page.ranking_title].data["value"]
     assert values.iloc[0] == values.max()
 
 

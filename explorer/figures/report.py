@@ -6,22 +6,24 @@ exactly the figures on the sender's screen, whether or not the app is running.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
 import numpy as np
-import pandas as pd
 
 from explorer.data import catalog
 from explorer.data.model import Panel
+from explorer.figures import report_tables
 from explorer.figures.atlas import AtlasFigures, atlas
 from explorer.figures.breakdown import breakdown, change
 from explorer.figures.compute import Compute, PlainCompute
 from explorer.figures.district import district
 from explorer.figures.settle import settle
+from explorer.figures.tables import names
 from explorer.figures.timelines import timelines
-from explorer.present import cautions, report, vocabulary
+from explorer.present import cautions, charts, report, vocabulary
+from explorer.present.report import ReportTable
 from explorer.views import ViewState
 
 __all__ = ["ReportSections", "report_for_view", "report_html", "sections"]
@@ -29,48 +31,79 @@ __all__ = ["ReportSections", "report_for_view", "report_html", "sections"]
 
 @dataclass(frozen=True)
 class ReportSections:
-    """Tables, charts, notes and cautions of a view, as :func:`report.build_report` takes."""
+    """Tables, charts, notes and cautions of a view, as :func:`report.build_report` takes.
+
+    ``absent`` holds one sentence per section the view leaves out, saying why.
+    """
 
     view: ViewState
     panel_info: dict[str, Any]
-    tables: dict[str, pd.DataFrame]
+    tables: dict[str, ReportTable]
     charts: dict[str, Any]
     notes: list[str]
     cautions: list[str]
+    absent: list[str] = field(default_factory=list)
 
 
-def _map_section(found: AtlasFigures, tables: dict, built: dict) -> None:
-    tables[found.ranking_title] = found.ranking.drop(columns=["wide"], errors="ignore")
-    finite = np.isfinite(found.layer["value"].to_numpy(dtype=float)) if len(found.layer) else []
+def _map_section(found: AtlasFigures, kind: str, tables: dict, built: dict, absent: list) -> None:
+    if found.empty:
+        absent.append(f"Map and ranking: {found.notices[0]}")
+        return
+    tables[found.ranking_title] = report_tables.ranking_table(found, kind)
+    finite = np.isfinite(found.layer["value"].to_numpy(dtype=float))
     if found.chart is not None and int(np.sum(finite)) >= 2:
         built["Map"] = found.chart
+    elif found.chart is None:
+        absent.append(f"Map: {found.remark or 'no map layer for this view.'}")
+    else:
+        absent.append("Map: fewer than two districts have a value this year, nothing to colour.")
 
 
-def _breakdown_section(panel, view, compute, tables, built, notes) -> bool:
+def _breakdown_section(panel, view, compute, tables, built, notes, absent) -> bool:
     """The within/between split by year and the change between the view's years."""
     split = breakdown(panel, view, compute)
-    built["Within and between"] = split.chart
+    built["Within and between"] = split.shown_chart
     tables[f"Split of the province's {vocabulary.index_label(split.index)}, {view.year}"] = (
-        split.shares
+        report_tables.split_table(split.shares)
     )
-    notes.append(split.note)
+    notes.extend(n for n in (split.instead, split.note) if n)
     moved = change(panel, view, compute, split.index)
     if moved is None:
+        absent.append(
+            "What drove the change: the view's 'From' year is not before its 'To' year; "
+            "choose two years on the Breakdown page to see it."
+        )
         return False
     span = f"{view.year_from}–{view.year_to}"
-    built[f"What drove the change, {span}"] = moved.chart
-    tables[f"Change terms, {span}"] = moved.terms
+    built[f"What drove the change, {span}"] = moved.shown_chart
+    tables[f"Change terms, {span}"] = report_tables.change_table(moved)
     notes.append(moved.note)
     return True
 
 
-def _district_section(panel, view, compute, tables, built) -> None:
+def _district_section(panel, view, compute, tables, built, absent) -> None:
     sheet = district(panel, view, compute)
-    if sheet.indices is None or sheet.indices.empty:
-        return
     label = f"{sheet.name} ({sheet.region}), {view.year}"
-    tables[f"All indices: {label}"] = sheet.indices.drop(columns=["region", "year"])
-    built[f"Indices with bounds: {label}"] = sheet.strip
+    if panel.kind == "means":
+        built[f"Mean income over time: {sheet.name} ({sheet.region})"] = sheet.means_chart
+        tables[f"Mean income by year: {sheet.name} ({sheet.region})"] = (
+            report_tables.district_means(sheet)
+        )
+        return
+    if panel.kind == "published":
+        built[f"{sheet.name} among the districts over time"] = sheet.means_chart
+        tables[f"Published figures: {label}"] = report_tables.district_published(sheet)
+        return
+    if sheet.indices is None or sheet.indices.empty:
+        absent.append(f"District sheet: no index for {label}.")
+        return
+    tables[f"All indices: {label}"] = report_tables.district_indices(sheet, panel.kind)
+    if sheet.has_bounds:
+        built[f"Indices with bounds: {label}"] = charts.fit_facets(sheet.strip, panels=1, room=400)
+    else:  # dots without bars would say nothing the table does not
+        absent.append(
+            f"Chart of the indices with bounds, {label}: " + vocabulary.no_bound_text(panel.kind)
+        )
 
 
 def _panel_info(view: ViewState, panel: Panel) -> dict[str, Any]:
@@ -95,24 +128,33 @@ def sections(view: ViewState, panel: Panel, compute: Compute | None = None) -> R
     """The report's sections: the Map, Timelines, Breakdown and District figures of a view."""
     view = settle(view, panel)
     compute = compute or PlainCompute(panel)
-    tables: dict[str, pd.DataFrame] = {}
+    tables: dict[str, ReportTable] = {}
     built: dict[str, Any] = {}
+    absent: list[str] = []
     notes = [vocabulary.caption(view, panel)]
     found = atlas(panel, view, compute)
-    _map_section(found, tables, built)
+    _map_section(found, panel.kind, tables, built, absent)
     built["Over time"] = timelines(panel, view, compute).chart
     changed = False
     if panel.kind == "published":
-        notes.append(
-            "Published figures are shown as given: they cannot be split into within and "
-            "between parts, since the incomes behind them were not published."
+        absent.append(
+            "Breakdown: published figures are shown as given; they cannot be split into "
+            "within and between parts, since the incomes behind them were not published."
         )
     else:
-        changed = _breakdown_section(panel, view, compute, tables, built, notes)
-    if panel.kind in ("brackets", "units") and view.districts:
-        _district_section(panel, view, compute, tables, built)
+        changed = _breakdown_section(panel, view, compute, tables, built, notes, absent)
+    if view.districts:
+        _district_section(panel, view, compute, tables, built, absent)
+    else:
+        absent.append(
+            "District sheet: no district is chosen in this view; choose one on the Map or "
+            "the District sheet."
+        )
     if len(panel.excluded):
-        tables["District-years set aside, with the reason"] = panel.excluded
+        named = dict(zip(*(names(panel)[c] for c in ("region", "name")), strict=True))
+        tables["District-years set aside, with the reason"] = report_tables.set_aside_table(
+            panel.excluded, named
+        )
     warnings = cautions.for_view(
         panel.kind,
         ranking=True,
@@ -120,7 +162,7 @@ def sections(view: ViewState, panel: Panel, compute: Compute | None = None) -> R
         income_concept=panel.income_concept,
         change=changed,
     )
-    return ReportSections(view, _panel_info(view, panel), tables, built, notes, warnings)
+    return ReportSections(view, _panel_info(view, panel), tables, built, notes, warnings, absent)
 
 
 def report_html(view: ViewState, panel: Panel, compute: Compute | None = None) -> str:
@@ -134,6 +176,7 @@ def report_html(view: ViewState, panel: Panel, compute: Compute | None = None) -
         notes=parts.notes,
         cautions=parts.cautions,
         facts_line=_facts_line(panel),
+        absent=parts.absent,
     )
 
 

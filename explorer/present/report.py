@@ -4,12 +4,18 @@ Charts are embedded as inline SVG (rendered by vl-convert), tables as HTML; ther
 scripts and no external style sheets, fonts or images, so the file can be mailed or
 archived and still open in an office without internet. Every string that comes from the
 user's data (district names, dataset names, notes) is HTML-escaped.
+
+Tables arrive as :class:`ReportTable` (text cells in the pages' words, notes said once
+under the table); a bare DataFrame is shown with the pages' column titles and number
+formats from :mod:`explorer.present.vocabulary`.
 """
 
 from __future__ import annotations
 
 import html
+import re
 from collections.abc import Mapping, Sequence
+from dataclasses import dataclass
 from datetime import UTC, datetime
 from typing import TYPE_CHECKING
 
@@ -17,11 +23,45 @@ import altair as alt
 import pandas as pd
 
 from explorer.present import charts as chart_builders
+from explorer.present import vocabulary
 
 if TYPE_CHECKING:  # only the view's own methods are used: no import of the layer above
     from explorer.views import ViewState
 
-__all__ = ["METHOD_REFERENCES", "build_report"]
+__all__ = ["METHOD_REFERENCES", "PRINT_STYLE", "ReportTable", "build_report", "plain_table"]
+
+
+@dataclass(frozen=True)
+class ReportTable:
+    """A table as the report prints it.
+
+    Attributes
+    ----------
+    data : DataFrame
+        The rows with their keys and numbers (what tests and downloads read).
+    shown : DataFrame
+        The same rows as text, columns titled in the pages' words.
+    notes : tuple of str
+        Sentences printed once under the table (cautions, notes shared by rows).
+    """
+
+    data: pd.DataFrame
+    shown: pd.DataFrame
+    notes: tuple[str, ...] = ()
+
+
+def plain_table(frame: pd.DataFrame) -> ReportTable:
+    """A table without its own wording: the pages' column titles and number formats."""
+    shown = pd.DataFrame(index=range(len(frame)))
+    for column in frame.columns:
+        values = frame[column].reset_index(drop=True)
+        title = vocabulary.COLUMN_LABELS.get(str(column), str(column).replace("_", " "))
+        if pd.api.types.is_float_dtype(values):
+            shown[title] = [vocabulary.figure(v, digits=4) for v in values]
+        else:
+            shown[title] = ["—" if pd.isna(v) else str(v) for v in values]
+    return ReportTable(frame, shown)
+
 
 #: Published methods the tool uses, as the report cites them (author, year, title).
 METHOD_REFERENCES: tuple[str, ...] = (
@@ -53,19 +93,60 @@ body { font-family: system-ui, sans-serif; margin: 2rem auto; max-width: 70rem;
        color: #1a1a1a; line-height: 1.45; padding: 0 1rem; }
 h1 { font-size: 1.6rem; margin-bottom: 0.2rem; }
 h2 { font-size: 1.2rem; margin-top: 2rem; border-bottom: 1px solid #ccc; }
-.meta { color: #555; }
+.meta, .note { color: #555; }
+.note { font-size: 0.85rem; margin: 0.2rem 0; }
 .cautions { background: #fff7e6; border-left: 4px solid #b35806; padding: 0.6rem 1rem; }
-table { border-collapse: collapse; font-size: 0.85rem; margin: 0.5rem 0 1rem; }
-th, td { border: 1px solid #ddd; padding: 0.2rem 0.5rem; text-align: right; }
-th { background: #f2f2f2; }
-td:first-child, th:first-child { text-align: left; }
+table.data { border-collapse: collapse; font-size: 0.85rem; margin: 0.5rem 0 1rem; }
+table.data th, table.data td { border: 1px solid #ddd; padding: 0.2rem 0.5rem; text-align: left; }
+table.data th { background: #f2f2f2; }
+table.data .num { text-align: right; font-variant-numeric: tabular-nums; }
+table.data td.num { white-space: nowrap; }
 figure { margin: 1rem 0; overflow-x: auto; }
 figcaption { font-weight: 600; margin-bottom: 0.3rem; }
 pre { background: #f6f6f6; padding: 0.6rem; overflow-x: auto; font-size: 0.8rem; }
 dl { display: grid; grid-template-columns: max-content 1fr; gap: 0.2rem 1rem; }
 dt { font-weight: 600; }
 dd { margin: 0; }
+/* The sheet is a table only on paper, where its footer repeats on every page. */
+table.sheet, table.sheet > tbody, table.sheet > tfoot, table.sheet > * > tr,
+table.sheet > * > tr > td { display: block; padding: 0; border: 0; }
+.running { margin-top: 2rem; padding-top: 0.4rem; border-top: 1px solid #ccc;
+           color: #555; font-size: 0.8rem; }
 """
+
+# A4 paper: page numbers in the bottom margin where the browser draws margin boxes; the
+# fingerprint and date in a footer every engine repeats (a table footer repeats on every
+# printed page; paged-media engines lift it into the margin as a running element).
+_PRINT = """
+@page { size: A4; margin: 16mm 14mm 18mm 14mm;
+        @bottom-right { content: "Page " counter(page) " of " counter(pages);
+                        font: 8pt system-ui, sans-serif; color: #555; }
+        @bottom-left { content: element(footer); } }
+@media print {
+  html, body { background: #fff; }
+  body { margin: 0; max-width: none; padding: 0; font-size: 10pt; }
+  table.sheet { display: table; width: 100%; border-collapse: collapse; table-layout: fixed; }
+  table.sheet > tbody { display: table-row-group; }
+  table.sheet > tfoot { display: table-footer-group; }
+  table.sheet > * > tr { display: table-row; }
+  table.sheet > * > tr > td { display: table-cell; }
+  .running { position: running(footer); margin-top: 4mm; font-size: 8pt; }
+  h2, h3, figcaption { break-after: avoid; page-break-after: avoid; }
+  figure, tr, li, dl, .note, pre { break-inside: avoid; page-break-inside: avoid; }
+  figure { overflow: visible; }
+  figure svg { max-width: 100%; max-height: 235mm; width: auto; height: auto; }
+  table.data { font-size: 8pt; }
+  table.data thead { display: table-header-group; }
+  pre { white-space: pre-wrap; overflow: visible; }
+  button, input, select, textarea, summary, [role="button"], .controls, .screen-only {
+    display: none !important; }
+  a { color: inherit; text-decoration: none; }
+}
+"""
+
+
+#: The print style sheet (A4 pages, page numbers, repeated footer), for tests and reuse.
+PRINT_STYLE = _PRINT
 
 
 def _e(value: object) -> str:
@@ -79,15 +160,44 @@ def _list(items: Sequence[str], css: str = "") -> str:
     return f"<ul{attr}>" + "".join(f"<li>{_e(item)}</li>" for item in items) + "</ul>"
 
 
-def _table(name: str, frame: pd.DataFrame) -> str:
-    shown = frame.head(_MAX_TABLE_ROWS)
-    body = shown.to_html(
-        index=False, escape=True, na_rep="—", float_format=lambda x: f"{x:.4g}", border=0
+# A cell that reads as a number (or a range or share of numbers) is set right-aligned.
+_NUMERIC = re.compile(r"^[−\-+]?[\d,]*\.?\d+%?( [–-] [−\-+]?[\d,]*\.?\d+)?$|^—$")
+
+
+def _grid(frame: pd.DataFrame) -> str:
+    """Text cells as an HTML table; columns of numbers right-aligned, text left."""
+    numeric = [
+        bool(len(frame)) and all(_NUMERIC.match(str(v)) for v in frame[c]) for c in frame.columns
+    ]
+    head = "".join(
+        f"<th{' class=num' if n else ''}>{_e(c)}</th>"
+        for c, n in zip(frame.columns, numeric, strict=True)
     )
-    note = ""
+    rows = "".join(
+        "<tr>"
+        + "".join(
+            f"<td{' class=num' if n else ''}>{_e('—' if pd.isna(v) else v)}</td>"
+            for v, n in zip(row, numeric, strict=True)
+        )
+        + "</tr>"
+        for row in frame.itertuples(index=False, name=None)
+    )
+    return f"<table class='data'><thead><tr>{head}</tr></thead><tbody>{rows}</tbody></table>"
+
+
+def _table(name: str, table: ReportTable | pd.DataFrame) -> str:
+    if isinstance(table, pd.DataFrame):
+        table = plain_table(table)
+    frame = table.shown
+    if frame.empty:  # never an empty grid: one sentence instead
+        return f"<h3>{_e(name)}</h3><p>No rows to show for this view.</p>"
+    shown = frame.head(_MAX_TABLE_ROWS)
+    body = _grid(shown)
+    notes = list(table.notes)
     if len(frame) > len(shown):
-        note = f"<p class='meta'>First {len(shown):,} of {len(frame):,} rows.</p>"
-    return f"<h3>{_e(name)}</h3>{body}{note}"
+        notes.append(f"First {len(shown):,} of {len(frame):,} rows.")
+    said = "".join(f"<p class='note'>{_e(note)}</p>" for note in notes)
+    return f"<section class='table'><h3>{_e(name)}</h3>{body}{said}</section>"
 
 
 def _figure(name: str, chart: alt.TopLevelMixin, facts_line: str = "") -> str:
@@ -101,16 +211,31 @@ def _figure(name: str, chart: alt.TopLevelMixin, facts_line: str = "") -> str:
     return f"<figure><figcaption>{_e(name + said)}</figcaption>{svg}</figure>"
 
 
+def _footer(name: object, fingerprint: object, when: str) -> str:
+    """The line on every printed page: which data, which version of them, when."""
+    return (
+        f"<footer class='running'>Rift report · {_e(name)} · data fingerprint "
+        f"<code>{_e(fingerprint)}</code> · generated {_e(when)}</footer>"
+    )
+
+
+def _fact(key: str, value: object) -> object:
+    if key == "kind":
+        return vocabulary.KIND_LABELS.get(str(value), value)
+    return value
+
+
 def build_report(
     view: ViewState,
     *,
     panel_info: Mapping[str, object],
-    tables: Mapping[str, pd.DataFrame],
+    tables: Mapping[str, ReportTable | pd.DataFrame],
     charts: Mapping[str, alt.TopLevelMixin],
     notes: Sequence[str],
     cautions: Sequence[str],
     generated: datetime | None = None,
     facts_line: str = "",
+    absent: Sequence[str] = (),
 ) -> str:
     """The view as one self-contained HTML document.
 
@@ -122,8 +247,9 @@ def build_report(
     panel_info : mapping
         What the data are: e.g. ``name``, ``fingerprint``, ``kind``, ``income_concept``,
         ``districts``, ``years``. Shown as given (escaped).
-    tables : mapping of str to DataFrame
-        Titled tables (index table, decomposition, ...).
+    tables : mapping of str to ReportTable or DataFrame
+        Titled tables (index table, decomposition, ...); a DataFrame is shown through
+        :func:`plain_table`.
     charts : mapping of str to alt.Chart
         Titled charts, embedded as inline SVG.
     notes : sequence of str
@@ -135,6 +261,8 @@ def build_report(
     facts_line : str, optional
         The dataset's facts in one line (concept, unit, money, source), shown under the
         title and in every figure's caption.
+    absent : sequence of str
+        One sentence per section the view leaves out, saying why.
 
     Returns
     -------
@@ -144,14 +272,19 @@ def build_report(
     when = (generated or datetime.now(UTC)).isoformat(timespec="seconds")
     name = panel_info.get("name") or view.dataset
     fingerprint = panel_info.get("fingerprint", "")
-    facts = "".join(f"<dt>{_e(key)}</dt><dd>{_e(value)}</dd>" for key, value in panel_info.items())
+    facts = "".join(
+        f"<dt>{_e(vocabulary.FACT_LABELS.get(key, key))}</dt><dd>{_e(_fact(key, value))}</dd>"
+        for key, value in panel_info.items()
+    )
     link = view.to_link() or "(the default view)"
     parts = [
         "<!DOCTYPE html>",
         '<html lang="en"><head><meta charset="utf-8">',
         '<meta name="viewport" content="width=device-width, initial-scale=1">',
         f"<title>Rift report: {_e(name)} — {_e(view.page_name)}</title>",
-        f"<style>{_STYLE}</style></head><body>",
+        f"<style>{_STYLE}{_PRINT}</style></head><body>",
+        # Content in the sheet's one cell; its footer repeats on every printed page.
+        "<table class='sheet'><tbody><tr><td>",
         f"<h1>{_e(name)}: {_e(view.page_name)}</h1>",
         f"<p class='meta'>Generated {_e(when)} · data fingerprint "
         f"<code>{_e(fingerprint)}</code></p>",
@@ -167,6 +300,9 @@ def build_report(
     if tables:
         parts.append("<h2>Tables</h2>")
         parts.extend(_table(title, frame) for title, frame in tables.items())
+    if absent:
+        parts.append("<h2>Not in this report</h2>")
+        parts.append(_list(list(absent)))
     parts += [
         "<h2>Method notes</h2>",
         _list(list(notes)),
@@ -177,6 +313,9 @@ def build_report(
         f"<pre>{_e(link)}</pre>",
         "<p>View file (save as <code>.json</code> and open it in the app):</p>",
         f"<pre>{_e(view.to_json())}</pre>",
+        "</td></tr></tbody><tfoot><tr><td>",
+        _footer(name, fingerprint, when),
+        "</td></tr></tfoot></table>",
         "</body></html>",
     ]
     return "\n".join(parts)

@@ -29,12 +29,14 @@ __all__ = [
     "COLUMN_LABELS",
     "DECOMPOSABLE",
     "DEMO_DATASETS",
+    "FACT_LABELS",
     "FIND_HELP",
     "FIGURE_LABELS",
     "FIT_COLUMNS",
     "INDEX_COLUMNS",
     "INDEX_LABELS",
     "INTERVAL_FIELD",
+    "KIND_LABELS",
     "KIND_NOTES",
     "LAYER_HELP",
     "LAYER_LABELS",
@@ -62,7 +64,9 @@ __all__ = [
     "index_label",
     "method_label",
     "money",
+    "no_bound_text",
     "part_label",
+    "percent",
     "poverty_line_words",
     "published_scale",
     "ranking_caution",
@@ -260,6 +264,28 @@ _DEMO_NAMES = {
 }
 DEMO_DATASETS: dict[str, tuple[str, str]] = {
     dataset: (_DEMO_NAMES[dataset], kind) for dataset, kind in DEMO_IDS.items()
+}
+
+#: Kind of data -> what it is, in the words of the Intake page.
+KIND_LABELS = {
+    "brackets": "Income shares by population group",
+    "units": "Household or person records",
+    "means": "One mean income per district",
+    "published": "Figures the source published (a Gini, a poverty rate, a median income)",
+}
+
+#: Dataset fact -> its name in the report's list of what the data are.
+FACT_LABELS = {
+    "name": "Dataset",
+    "fingerprint": "Content fingerprint",
+    "kind": "Kind of data",
+    "income_concept": "Income concept",
+    "unit": "Unit",
+    "currency": "Currency",
+    "price_base": "Prices",
+    "source": "Source",
+    "districts": "Districts",
+    "years": "Years",
 }
 
 #: The view's field for the index the Breakdown page splits.
@@ -600,6 +626,34 @@ KIND_NOTES = {
     "year: they are mapped, ranked and followed over time as given, never recomputed, "
     "bounded or split into parts.",
 }
+
+
+def percent(value: Any, digits: int = 1) -> str:
+    """A share as a percentage (``0.3202`` -> ``32.0%``); a dash when missing.
+
+    Rounding noise reads 0.0%, never -0.0% or 6e-16.
+    """
+    try:
+        number = float(value)
+    except (TypeError, ValueError):
+        return "—"
+    if not np.isfinite(number):
+        return "—"
+    if abs(number) * 100 < 0.5 * 10.0**-digits:
+        number = 0.0
+    return f"{number:.{digits}%}"
+
+
+def no_bound_text(kind: str) -> str:
+    """Why a figure has no bounds or interval, for this kind of data."""
+    if kind == "units":
+        return (
+            "No intervals in this view: turn on 'Sampling intervals' in the sidebar to see "
+            "how far each figure could move with another sample."
+        )
+    if kind == "means":
+        return "District means only: no bounds."
+    return "No bound for this index."
 
 
 def money(low: float, high: float) -> str:
