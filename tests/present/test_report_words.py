@@ -22,7 +22,7 @@ from explorer.present import vocabulary
 from explorer.stats import indices, lorenz
 from explorer.views import ViewState
 
-DEMOS = ("demo", "demo-households", "demo-means")
+DEMOS = ("demo", "demo-households", "demo-means", "demo-published")
 
 #: Keys the computing modules use; none may be read in the report as a word of its own.
 KEYS = sorted(
@@ -170,9 +170,12 @@ def test_tables_use_the_pages_titles_and_formats(reports):
 
 
 def test_a_section_left_out_is_named_with_its_reason(reports):
-    """Means-only data have no trajectories of inequality; unit records without sampling
-    intervals have no bounds to draw: each is said in a sentence, not drawn empty."""
-    assert any(n.startswith("Over time: district means only") for n in reports["demo-means"].nodes)
+    """Published figures cannot be split; unit records without sampling intervals have no
+    bounds to draw: each is said in a sentence, not drawn empty. District means follow
+    their own trajectories."""
+    published = reports["demo-published"].nodes
+    assert any(n.startswith("Breakdown: published figures are shown as given") for n in published)
+    assert any(n.startswith("Over time") for n in reports["demo-means"].nodes)
     households = reports["demo-households"].nodes
     assert not any(n.startswith("Indices with bounds") for n in households)
     assert any(n.startswith("Chart of the indices with bounds") for n in households)
