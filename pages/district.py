@@ -67,15 +67,8 @@ if panel.kind == "means":
         ui.metric(column, label, value)
     st.altair_chart(sheet.means_chart, theme=None, width="content", key="district_means_chart")
     shown_means, options = ui.planner_table(
-        sheet.means[["year", "mean_income", "population", "ratio", "rank", "growth"]],
-        {
-            "year": "Year",
-            "mean_income": "Mean income",
-            "population": "Population",
-            "ratio": "Ratio to the province mean",
-            "rank": "Rank (1 = highest mean)",
-            "growth": "Growth since the year before (% a year)",
-        },
+        sheet.means[list(vocabulary.MEANS_COLUMNS)],
+        vocabulary.MEANS_COLUMNS,
         formats={
             "mean_income": "%,.0f",
             "population": "%,.0f",

@@ -174,14 +174,7 @@ def district_indices(sheet: DistrictFigures, kind: str) -> ReportTable:
 
 def district_means(sheet: DistrictFigures) -> ReportTable:
     """The District sheet's mean incomes by year (means-only data)."""
-    titles = {
-        "year": "Year",
-        "mean_income": "Mean income",
-        "population": "Population",
-        "ratio": "Ratio to the province mean",
-        "rank": "Rank (1 = highest mean)",
-        "growth": "Growth since the year before (% a year)",
-    }
+    titles = vocabulary.MEANS_COLUMNS
     cells = {
         "mean_income": lambda row: _money(row["mean_income"]),
         "population": lambda row: _money(row["population"]),

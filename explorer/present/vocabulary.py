@@ -41,6 +41,7 @@ __all__ = [
     "LAYER_HELP",
     "LAYER_LABELS",
     "LORENZ_METHODS",
+    "MEANS_COLUMNS",
     "METHOD_LABELS",
     "PAGES",
     "PART_COLUMNS",
@@ -337,6 +338,17 @@ COLUMN_LABELS = {
     "year": "Year",
     "index": "Index",
     "method": "Method",
+}
+
+
+#: Column titles of a district's mean incomes by year (District sheet and report).
+MEANS_COLUMNS = {
+    "year": "Year",
+    "mean_income": "Mean income",
+    "population": "Population",
+    "ratio": "Ratio to the province mean",
+    "rank": "Rank (1 = highest mean)",
+    "growth": "Growth since the year before (% a year)",
 }
 
 
