@@ -94,6 +94,9 @@ _INDEX_RE = re.compile(
     r"|mean_income|mean_ratio|mean_growth|poverty_rate|median_income|population"
     # poverty measures against the view's poverty line
     r"|fgt_0|fgt_1|fgt_2|watts|sen_poverty"
+    # welfare in money, and growth from the first year ("Growth since") to the view's year
+    r"|sen_welfare|ede_(?:0\.5|1|2)"
+    r"|growth_gap_bottom40|growth_bottom40|growth_mean|growth_pro_poor"
     r"|ge_-?\d{1,2}(?:\.\d{1,3})?|atkinson_\d{1,2}(?:\.\d{1,3})?)"
 )
 #: Indices the Breakdown page can split exactly (GE family; the Gini with its overlap).

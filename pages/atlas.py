@@ -5,6 +5,7 @@ import streamlit as st
 
 from explorer import figures, ui
 from explorer.figures.atlas import RANK_COLUMNS
+from explorer.figures.series import GROWTH_FIGURES
 from explorer.present import vocabulary
 
 opened = ui.open_view()
@@ -43,7 +44,7 @@ with right:
     if on_index:
         ui.control("k", st.slider, "Number of classes", min_value=3, max_value=9)
 bounded = panel.kind in ("brackets", "units")
-if ui.current_view().index == "mean_growth" and len(panel.years) > 1:
+if ui.current_view().index in ("mean_growth", *GROWTH_FIGURES) and len(panel.years) > 1:
     ui.control(
         "year_from",
         st.selectbox,

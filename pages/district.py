@@ -164,6 +164,30 @@ else:
             formats={"max_error": "%.4f", "sse": "%.6f"},
         )
         ui.table(shown_fits, "district_fits", **options)
+    if sheet.welfare is not None:
+        st.markdown("**Welfare in money**")
+        ui.caption(vocabulary.WELFARE_CAPTION)
+        shown_welfare, options = ui.planner_table(sheet.welfare, vocabulary.WELFARE_COLUMNS)
+        ui.table(shown_welfare, "district_welfare", **options)
+    if sheet.growth is not None:
+        st.subheader("Did growth reach the poorest?")
+        if len(panel.years) > 1:
+            ui.control(
+                "year_from",
+                st.selectbox,
+                "Growth since",
+                [int(y) for y in panel.years[:-1]],
+                help="The first year of the growth at each percentile (also where Timelines "
+                "starts and the first year of the Breakdown's change).",
+            )
+        if sheet.growth.chart is not None:
+            left, right = st.columns([3, 2])
+            with left:
+                st.altair_chart(sheet.growth.chart, theme=None, key="district_growth")
+            with right:
+                for label, value in sheet.growth.facts:
+                    st.metric(label, value)
+        ui.caption(sheet.growth.note)
     st.altair_chart(sheet.rank_chart, key="district_ranks")
     pair = figures.compare(panel, view, opened.compute)
     if pair is not None:

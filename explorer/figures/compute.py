@@ -43,6 +43,12 @@ class Compute(Protocol):
 
     def poverty(self, line: str, relative_to: str, method: str) -> pd.DataFrame: ...
 
+    def welfare(self, method: str) -> pd.DataFrame: ...
+
+    def growth(
+        self, year_from: int, method: str, line: str, relative_to: str
+    ) -> tuple[pd.DataFrame, pd.DataFrame]: ...
+
     def clusters(
         self, values: pd.Series, permutations: int = MAP_PERMUTATIONS
     ) -> tuple[pd.DataFrame, Any]: ...
@@ -151,6 +157,24 @@ class PlainCompute:
         method = method if self.panel.kind == "brackets" else "auto"
         parsed = poverty_lines.parse_line(line, scope=relative_to)
         return poverty_table.compute(self.panel, parsed, methods=(method,))
+
+    def welfare(self, method: str) -> pd.DataFrame:
+        """Welfare in money per district-year (:func:`explorer.stats.welfare.compute`)."""
+        from explorer.stats import welfare
+
+        method = method if self.panel.kind == "brackets" else "auto"
+        return welfare.compute(self.panel, methods=(method,))
+
+    def growth(
+        self, year_from: int, method: str, line: str, relative_to: str
+    ) -> tuple[pd.DataFrame, pd.DataFrame]:
+        """Growth incidence from ``year_from`` to every later year
+        (:func:`explorer.stats.growth.since`), the poorest H % set by ``line``."""
+        from explorer.stats import growth, poverty_lines
+
+        method = method if self.panel.kind == "brackets" else "auto"
+        parsed = poverty_lines.parse_line(line, scope=relative_to)
+        return growth.since(self.panel, int(year_from), method, parsed)
 
     def clusters(
         self, values: pd.Series, permutations: int = MAP_PERMUTATIONS

@@ -48,6 +48,19 @@ def method_word(key: str) -> str:
 
 
 @dataclass(frozen=True)
+class Growth:
+    """Growth incidence of one district from the view's first year to its year.
+
+    ``chart`` is None when there is no curve (the same year twice, or the district missing
+    in one of them); ``facts`` are label, value pairs; ``note`` says why or how.
+    """
+
+    chart: Any
+    facts: tuple[tuple[str, str], ...]
+    note: str
+
+
+@dataclass(frozen=True)
 class DistrictFigures:
     """Everything the District sheet shows for one district in the view's year.
 
@@ -72,6 +85,8 @@ class DistrictFigures:
     rank_chart: Any = None
     facts: tuple[tuple[str, str], ...] = ()
     published: pd.DataFrame | None = None
+    welfare: pd.DataFrame | None = None
+    growth: Growth | None = None
 
 
 def district_heading(panel: Panel, region: str, year: int) -> tuple[str, str]:
@@ -166,6 +181,8 @@ def district(panel: Panel, view: ViewState, compute: Compute) -> DistrictFigures
         region,
         name,
         heading,
+        welfare=welfare_rows(panel, view, compute, region),
+        growth=growth_of(panel, view, compute, region, name),
         indices=own,
         headline=headline.iloc[0] if len(headline) else None,
         profile=_lorenz(panel, view, compute, region, name),
@@ -176,6 +193,118 @@ def district(panel: Panel, view: ViewState, compute: Compute) -> DistrictFigures
             ranks(table, view.index, panel), highlight=(region,), **_rank_words_of(view.index)
         ),
     )
+
+
+_WELFARE_KEYS = ("mean", "median", "sen_welfare", "ede_0.5", "ede_1", "ede_2")
+
+
+def welfare_rows(panel: Panel, view: ViewState, compute: Compute, region: str):
+    """Welfare in money of the district in the view's year: ``figure, value, lower, upper,
+    note`` as words (None where the panel has no means to measure it in).
+
+    References
+    ----------
+    Sen, A. (1976). Real national income. *Review of Economic Studies* 43: 19–39.
+    Atkinson, A. B. (1970). On the measurement of inequality. *Journal of Economic Theory*
+    2: 244–263.
+    """
+    if panel.kind == "brackets" and (
+        "mean_income" not in panel.data or not panel.data["mean_income"].notna().any()
+    ):
+        return None
+    table = compute.welfare(view.method)
+    own = table[(table["region"].astype(str) == region) & (table["year"] == view.year)]
+    own = own.set_index("index").reindex([k for k in _WELFARE_KEYS if k in set(own["index"])])
+    if own.empty:
+        return None
+
+    # a mean that is given is exact: no bounds to show beside it
+    exact = (own["lower"] == own["value"]) & (own["upper"] == own["value"])
+    own = own.assign(
+        lower=own["lower"].where(~exact, np.nan), upper=own["upper"].where(~exact, np.nan)
+    )
+    return pd.DataFrame(
+        {
+            "figure": [vocabulary.index_label(k) for k in own.index],
+            "value": [vocabulary.figure(v, money=True) for v in own["value"]],
+            "lower": [_money_bound(v) for v in own["lower"]],
+            "upper": [_money_bound(v) for v in own["upper"]],
+            "note": own["note"].fillna("").astype(str).to_numpy(),
+        }
+    )
+
+
+def _money_bound(value: Any) -> str:
+    """A bound in whole currency units; blank without one, words when unbounded."""
+    number = float(value)
+    if np.isnan(number):
+        return ""
+    if np.isinf(number):
+        return "no finite bound"
+    return f"{number:,.0f}"
+
+
+def growth_of(panel: Panel, view: ViewState, compute: Compute, region: str, name: str):
+    """The district's growth incidence curve from the view's first year to its year.
+
+    References
+    ----------
+    Ravallion, M. and Chen, S. (2003). Measuring pro-poor growth. *Economics Letters* 78:
+    93–99 (eq. 1, the curve; eq. 4, the rate of pro-poor growth).
+    """
+    from explorer.stats.growth import annualise
+
+    if panel.kind == "brackets" and (
+        "mean_income" not in panel.data or not panel.data["mean_income"].notna().all()
+    ):
+        return None
+    if len(panel.years) < 2:
+        return None
+    first = int(view.year_from) if view.year_from is not None else int(min(panel.years))
+    if first >= int(view.year):
+        return Growth(
+            None,
+            (),
+            f"Growth needs a first year before {view.year}: choose one under 'Growth since'.",
+        )
+    summary, curves = compute.growth(first, view.method, view.poverty_line, view.relative_to)
+    span = int(view.year) - first
+    own = curves[(curves["region"].astype(str) == region) & (curves["year"] == view.year)]
+    rows = summary[(summary["region"].astype(str) == region) & (summary["year"] == view.year)]
+    if own.empty:
+        return Growth(None, (), f"{name} has no figures in both {first} and {view.year}.")
+    got = rows.set_index("index")["value"]
+    yearly = {k: 100.0 * float(annualise(got.get(k, np.nan), span)) for k in got.index}
+    facts = (
+        (f"Growth of the mean, {first}–{view.year} (% a year)", yearly.get("growth_mean")),
+        ("Growth at the bottom 40 % (% a year)", yearly.get("growth_bottom40")),
+        (
+            f"Rate of pro-poor growth (% a year; poor in {first} at "
+            f"{vocabulary.poverty_line_words(view)})",
+            yearly.get("growth_pro_poor"),
+        ),
+    )
+    facts = tuple((label, vocabulary.figure(v, digits=2)) for label, v in facts)
+    curve = own.assign(rate=100.0 * annualise(own["rate"].to_numpy(float), span))
+    how = (
+        "From the household records of both years; their sampling error is not included."
+        if panel.kind == "units"
+        else f"From the {vocabulary.method_label(view.method).lower()} curves of both years "
+        "and the district means; incomes in the data's own price base."
+    )
+    chart = charts.growth_incidence(
+        curve[["p", "rate"]],
+        mean_growth=yearly.get("growth_mean", np.nan),
+        title=f"Growth at each percentile, {name}, {first}–{view.year}",
+        caption=vocabulary.wrap(
+            f"Shaded: the poorest 40 %. Dashed: growth of the mean. {how}", width=90
+        ),
+    )
+    note = (
+        "Above the dashed line the percentile gained faster than the mean. The curve is only "
+        "as good as the two Lorenz curves: read it with their fit."
+    )
+    return Growth(chart, facts, note)
 
 
 def _rank_words_of(index: str) -> dict[str, str]:
@@ -261,9 +390,7 @@ def _published_sheet(panel, view, compute, region, name, heading) -> DistrictFig
         }
     )
     headline = own[own["index"] == view.index]
-    lines = table[table["index"] == view.index].assign(
-        region=lambda t: t["region"].astype(str)
-    )
+    lines = table[table["index"] == view.index].assign(region=lambda t: t["region"].astype(str))
     lines = lines.merge(names(panel), on="region", how="left")
     label = vocabulary.value_label(view, panel)
     chart = charts.trajectories(

@@ -18,7 +18,10 @@ from explorer.figures.tables import district_means
 
 __all__ = [
     "ADDITIVE_POVERTY",
+    "GROWTH_FIGURES",
     "MEANS_FIGURES",
+    "WELFARE_FIGURES",
+    "growth_figure",
     "POVERTY_FIGURES",
     "figure_keys",
     "is_money",
@@ -32,6 +35,11 @@ __all__ = [
 MEANS_FIGURES = ("mean_income", "mean_ratio", "mean_growth")
 #: Poverty measures against the view's line (grouped shares and unit records only).
 POVERTY_FIGURES = ("fgt_0", "fgt_1", "fgt_2", "watts", "sen_poverty")
+#: Welfare in money where means are known (Sen 1976; Atkinson 1970).
+WELFARE_FIGURES = ("sen_welfare", "ede_0.5", "ede_1", "ede_2")
+#: Growth from the view's first year ("Growth since") to its year, % a year (Ravallion &
+#: Chen 2003): the mean, the bottom 40 %, those poor in the first year, bottom 40 % − mean.
+GROWTH_FIGURES = ("growth_gap_bottom40", "growth_bottom40", "growth_mean", "growth_pro_poor")
 #: Figures that are amounts (money, people): whole units with thousands separators.
 _MONEY = ("mean_income", "median_income", "population")
 
@@ -48,16 +56,56 @@ def figure_keys(panel: Panel) -> tuple[str, ...]:
     if panel.kind == "brackets" and "mean_income" in panel.data.columns:
         # poverty needs the district mean beside the shares: without it no line is met
         if panel.data["mean_income"].notna().all():
-            return (*INDEX_LABELS, *POVERTY_FIGURES)
+            return (*INDEX_LABELS, *POVERTY_FIGURES, *WELFARE_FIGURES, *_growth_keys(panel))
         return tuple(INDEX_LABELS)
     if panel.kind == "units":
-        return (*INDEX_LABELS, *POVERTY_FIGURES)
+        return (*INDEX_LABELS, *POVERTY_FIGURES, *WELFARE_FIGURES, *_growth_keys(panel))
     return tuple(INDEX_LABELS)
+
+
+def _growth_keys(panel: Panel) -> tuple[str, ...]:
+    """Growth needs two years."""
+    return GROWTH_FIGURES if len(panel.years) > 1 else ()
 
 
 def is_money(panel: Panel, key: str) -> bool:
     """Whether ``key`` is an amount (money, people) on this panel: whole units, separators."""
+    if key in WELFARE_FIGURES:
+        return True
     return key in _MONEY and panel.kind in ("means", "published")
+
+
+def growth_figure(panel: Panel, compute: Any, key: str, view: Any) -> pd.DataFrame:
+    """The index table's rows of a growth figure: from the view's first year to every later
+    year, as compound rates in % a year (bottom 40 % − mean in points a year).
+
+    References
+    ----------
+    Ravallion, M. and Chen, S. (2003). Measuring pro-poor growth. *Economics Letters* 78:
+    93–99 (growth incidence and the rate of pro-poor growth).
+    """
+    from explorer.stats.growth import annualise
+
+    first = int(getattr(view, "year_from", None) or min(panel.years))
+    later = [int(y) for y in panel.years if int(y) > first]
+    if not later:
+        return pd.DataFrame(
+            columns=["region", "year", "index", "value", "lower", "upper", "method", "note"]
+        )
+    summary, _ = compute.growth(
+        first,
+        getattr(view, "method", "auto"),
+        getattr(view, "poverty_line", "60%median"),
+        getattr(view, "relative_to", "province"),
+    )
+    span = (summary["year"] - first).to_numpy(dtype=float)
+    rows = summary.assign(value=100.0 * annualise(summary["value"].to_numpy(float), span))
+    if key != "growth_gap_bottom40":
+        return rows[rows["index"] == key].reset_index(drop=True)
+    bottom = rows[rows["index"] == "growth_bottom40"].set_index(["region", "year"])
+    mean = rows[rows["index"] == "growth_mean"].set_index(["region", "year"])["value"]
+    gap = bottom.assign(index=key, value=bottom["value"] - mean.reindex(bottom.index))
+    return gap.reset_index()[list(summary.columns)]
 
 
 def province_mean(means: pd.DataFrame) -> pd.DataFrame:
@@ -192,6 +240,11 @@ def values(
     """
     if panel.kind == "means":
         return means_figure(panel, key, since)
+    if key in GROWTH_FIGURES:
+        return growth_figure(panel, compute, key, view)
+    if key in WELFARE_FIGURES:
+        table = compute.welfare(method)
+        return table[table["index"] == key].reset_index(drop=True)
     if key in POVERTY_FIGURES:
         line = getattr(view, "poverty_line", "60%median")
         table = compute.poverty(line, getattr(view, "relative_to", "province"), method)

@@ -853,6 +853,119 @@ def mean_income_over_time(
     )
 
 
+def growth_incidence(
+    curve: pd.DataFrame,
+    *,
+    mean_growth: float,
+    title: str,
+    caption: Sequence[str] | str = "",
+) -> alt.LayerChart:
+    """A growth incidence curve: growth at each percentile, with the growth of the mean.
+
+    Parameters
+    ----------
+    curve : DataFrame
+        ``p, rate`` with ``p`` in (0, 1) and ``rate`` in % a year.
+    mean_growth : float
+        The growth of the mean in % a year, drawn as a dashed line.
+    title, caption : str
+
+    References
+    ----------
+    Ravallion, M. and Chen, S. (2003). Measuring pro-poor growth. *Economics Letters* 78:
+    93–99.
+    """
+    frame = curve.assign(percentile=100.0 * curve["p"])
+    x = alt.X(
+        "percentile:Q", title="Percentile (poorest on the left)", scale=alt.Scale(domain=[0, 100])
+    )
+    y = alt.Y("rate:Q", title="Growth of income at the percentile (% a year)")
+    line = (
+        alt.Chart(_records(frame))
+        .mark_line(strokeWidth=2, color=OKABE_ITO[0])
+        .encode(
+            x=x,
+            y=y,
+            tooltip=[
+                alt.Tooltip("percentile:Q", title="Percentile", format=".0f"),
+                alt.Tooltip("rate:Q", title="Growth (% a year)", format=".2f"),
+            ],
+        )
+    )
+    rule = (
+        alt.Chart(pd.DataFrame({"rate": [float(mean_growth)], "what": ["growth of the mean"]}))
+        .mark_rule(strokeDash=[6, 4], color="#555555")
+        .encode(
+            y="rate:Q", tooltip=[alt.Tooltip("rate:Q", title="Growth of the mean", format=".2f")]
+        )
+    )
+    bottom = (
+        alt.Chart(pd.DataFrame({"start": [0.0], "end": [40.0]}))
+        .mark_rect(opacity=0.08, color="#000000")
+        .encode(x="start:Q", x2="end:Q")
+    )
+    return (bottom + line + rule).properties(title=_title(title, caption), width=560, height=320)
+
+
+def curves_overlay(
+    curves: pd.DataFrame,
+    *,
+    title: str,
+    caption: Sequence[str] | str = "",
+    y_title: str = "Cumulative income share (0–1)",
+    band: pd.DataFrame | None = None,
+    equality: bool = True,
+) -> alt.LayerChart:
+    """Several curves on one chart, one colour each, with optional bands and the diagonal.
+
+    Parameters
+    ----------
+    curves : DataFrame
+        ``name, p, L``: each curve's points.
+    band : DataFrame, optional
+        ``name, p, low, high``: the region each curve may lie in (its bounds).
+    equality : bool
+        Draw the line of complete equality (Lorenz curves; not generalised Lorenz curves).
+    title, caption, y_title : str
+    """
+    names = list(dict.fromkeys(curves["name"]))
+    colour = alt.Color(
+        "name:N",
+        title=None,
+        scale=alt.Scale(domain=names, range=list(OKABE_ITO[: len(names)])),
+        legend=alt.Legend(orient="bottom", columns=2, labelLimit=320),
+    )
+    x = alt.X("p:Q", title="Cumulative population share (0–1)", scale=alt.Scale(domain=[0, 1]))
+    y = alt.Y("L:Q", title=y_title)
+    layers = []
+    if band is not None and len(band):
+        layers.append(
+            alt.Chart(_records(band))
+            .mark_area(opacity=0.15)
+            .encode(x=x, y=alt.Y("low:Q", title=y_title), y2="high:Q", color=colour)
+        )
+    if equality:
+        diagonal = pd.DataFrame({"p": [0.0, 1.0], "L": [0.0, 1.0]})
+        layers.append(
+            alt.Chart(diagonal).mark_line(color="#555555", strokeDash=[4, 3]).encode(x=x, y=y)
+        )
+    layers.append(
+        alt.Chart(_records(curves))
+        .mark_line(point=len(curves) <= 80, strokeWidth=2)
+        .encode(
+            x=x,
+            y=y,
+            color=colour,
+            tooltip=[
+                alt.Tooltip("name:N", title="Curve"),
+                alt.Tooltip("p:Q", title="Population share", format=".2f"),
+                alt.Tooltip("L:Q", title=y_title, format=",.3f"),
+            ],
+        )
+    )
+    return alt.layer(*layers).properties(title=_title(title, caption), width=460, height=460)
+
+
 def lorenz_pair(
     points: pd.DataFrame, *, title: str, caption: Sequence[str] | str = ""
 ) -> alt.LayerChart:
@@ -874,9 +987,7 @@ def lorenz_pair(
         .encode(
             x=x,
             y=y,
-            color=alt.Color(
-                "name:N", title="District", scale=alt.Scale(range=list(OKABE_ITO[:2]))
-            ),
+            color=alt.Color("name:N", title="District", scale=alt.Scale(range=list(OKABE_ITO[:2]))),
             tooltip=[
                 alt.Tooltip("name:N", title="District"),
                 alt.Tooltip("p:Q", title="Population share", format=".2f"),

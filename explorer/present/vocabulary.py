@@ -51,6 +51,9 @@ __all__ = [
     "PART_TEXT",
     "PART_WORDS",
     "WIDE_SHARE",
+    "WELFARE_CAPTION",
+    "WELFARE_COLUMNS",
+    "GROWTH_WELFARE_HELP",
     "Page",
     "axis_label",
     "bound_text",
@@ -111,7 +114,48 @@ FIGURE_LABELS: dict[str, str] = {
     "fgt_2": "Squared poverty gap FGT(2)",
     "watts": "Watts poverty index",
     "sen_poverty": "Sen poverty index",
+    "sen_welfare": "Sen's welfare μ(1 − Gini)",
+    "ede_0.5": "Equally distributed equivalent income (ε = 0.5)",
+    "ede_1": "Equally distributed equivalent income (ε = 1)",
+    "ede_2": "Equally distributed equivalent income (ε = 2)",
+    "mean": "Mean income",
+    "median": "Median income",
+    "growth_mean": "Growth of the mean (% a year)",
+    "growth_bottom40": "Growth at the bottom 40 % (% a year)",
+    "growth_pro_poor": "Rate of pro-poor growth (% a year)",
+    "growth_gap_bottom40": "Growth at the bottom 40 % minus growth of the mean (points a year)",
 }
+#: What each welfare and growth figure says, for help texts (Sen 1976; Atkinson 1970;
+#: Ravallion & Chen 2003).
+GROWTH_WELFARE_HELP = {
+    "sen_welfare": "the mean income discounted by the Gini: what the district's income is "
+    "worth to a society that dislikes inequality as much as the Gini says (Sen 1976)",
+    "ede_0.5": "the income that, given to everyone, would be as good as the actual spread "
+    "for a society with inequality aversion 0.5 (Atkinson 1970)",
+    "ede_1": "as above with inequality aversion 1: the geometric mean income (Atkinson 1970)",
+    "ede_2": "as above with inequality aversion 2: weighs the poorest most (Atkinson 1970)",
+    "growth_mean": "the average yearly growth of the district's mean income",
+    "growth_bottom40": "the average yearly growth of the incomes of the poorest 40 %, "
+    "percentile by percentile (Ravallion & Chen 2003)",
+    "growth_pro_poor": "the average yearly growth of the incomes of those who were poor in "
+    "the first year (Ravallion & Chen 2003)",
+    "growth_gap_bottom40": "positive: the poorest 40 % gained faster than the mean; "
+    "negative: growth passed them by",
+}
+#: The District sheet's table of welfare in money.
+WELFARE_COLUMNS = {
+    "figure": "Figure",
+    "value": "Value (currency units)",
+    "lower": "Lower bound",
+    "upper": "Upper bound",
+    "note": "Note",
+}
+WELFARE_CAPTION = (
+    "What the district's income is worth once its inequality is counted: Sen's welfare "
+    "discounts the mean by the Gini (Sen 1976); the equally distributed equivalent is the "
+    "income that, given to everyone, would be as good as the actual spread for a society "
+    "with inequality aversion ε (Atkinson 1970). In the data's currency and price base."
+)
 #: What each poverty measure says, for help texts (Foster, Greer & Thorbecke 1984; Watts
 #: 1968; Sen 1976).
 POVERTY_HELP = {
@@ -159,6 +203,14 @@ AXIS_LABELS: dict[str, str] = {
     "fgt_2": "Squared poverty gap (0–1)",
     "watts": "Watts index (0 = no poverty)",
     "sen_poverty": "Sen poverty index (0–1)",
+    "sen_welfare": "Sen's welfare μ(1 − Gini) (currency units)",
+    "ede_0.5": "Equally distributed equivalent income, ε = 0.5 (currency units)",
+    "ede_1": "Equally distributed equivalent income, ε = 1 (currency units)",
+    "ede_2": "Equally distributed equivalent income, ε = 2 (currency units)",
+    "growth_mean": "Growth of the mean (% a year)",
+    "growth_bottom40": "Growth at the bottom 40 % (% a year)",
+    "growth_pro_poor": "Rate of pro-poor growth (% a year)",
+    "growth_gap_bottom40": "Bottom 40 % minus mean (percentage points a year)",
 }
 
 #: Indices that split exactly into within and between parts (the Gini with its overlap).
@@ -377,8 +429,18 @@ def ranking_title(kind: str, key: str = "") -> str:
     """The heading of a district ranking: what rank 1 means for this kind of data."""
     if key in POVERTY_HELP:
         return f"Districts ranked (1 = highest {index_label(key).split(' FGT')[0].lower()})"
+    if key.startswith("growth_"):
+        return (
+            "Districts ranked (1 = fastest growth at the bottom relative to the mean)"
+            if (key == "growth_gap_bottom40")
+            else "Districts ranked (1 = fastest growth)"
+        )
+    if key in GROWTH_WELFARE_HELP:
+        return "Districts ranked (1 = highest welfare)"
     if kind == "published":
-        return f"Districts ranked (1 = highest {index_label(key).lower() or 'figure'}, as published)"
+        return (
+            f"Districts ranked (1 = highest {index_label(key).lower() or 'figure'}, as published)"
+        )
     if kind == "means":
         return {
             "mean_ratio": "Districts ranked (1 = furthest above the province mean)",
@@ -502,6 +564,10 @@ def value_label(view: Any, panel: Any) -> str:
         return AXIS_LABELS.get(view.index, AXIS_LABELS["mean_income"])
     if view.index in POVERTY_HELP:
         return f"{index_label(view.index)}, line {poverty_line_words(view)}"
+    if view.index.startswith("growth_"):
+        return f"{AXIS_LABELS[view.index]}, {view.year_from} to {view.year}"
+    if view.index in GROWTH_WELFARE_HELP:
+        return AXIS_LABELS[view.index]
     if panel.kind == "published":
         unit = SCALE_WORDS.get(published_scale(panel, view.index), "")
         if view.index == "median_income" or view.index == "mean_income":
@@ -526,7 +592,9 @@ def poverty_line_words(view: Any) -> str:
     line = parse_line(getattr(view, "poverty_line", "60%median"))
     if not line.relative:
         return f"{line.amount:,.0f} per person a year"
-    whose = "each district's own" if getattr(view, "relative_to", "") == "district" else "the province"
+    whose = (
+        "each district's own" if getattr(view, "relative_to", "") == "district" else "the province"
+    )
     return f"{100 * line.fraction:g}% of {whose} {line.base}"
 
 
@@ -615,8 +683,10 @@ def figure(value: Any, *, money: bool = False, digits: int = 3) -> str:
 def digits_of(panel: Any, key: str) -> int:
     """Decimals a figure is shown with: whole units for money and people, one decimal for
     percents (as offices print them), two for yearly growth, three otherwise."""
-    if key in ("mean_income", "median_income", "population"):
+    if key in ("mean_income", "median_income", "population", "mean", "median"):
         return 0
+    if key in GROWTH_WELFARE_HELP:
+        return 2 if key.startswith("growth_") else 0
     if key == "mean_growth" or published_scale(panel, key) == "percent":
         return 1 if key != "mean_growth" else 2
     return 3

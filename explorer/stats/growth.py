@@ -26,7 +26,16 @@ import pandas as pd
 from explorer.data.model import fail
 from explorer.stats import lorenz, poverty_table
 
-__all__ = ["GRID", "SUMMARY_KEYS", "GrowthIncidence", "annualise", "from_panel", "incidence"]
+__all__ = [
+    "GRID",
+    "SUMMARY_KEYS",
+    "GrowthIncidence",
+    "annualise",
+    "from_panel",
+    "incidence",
+    "since",
+    "weighted_quantiles",
+]
 
 SUMMARY_KEYS = ("growth_mean", "growth_bottom40", "growth_pro_poor")
 
@@ -145,7 +154,7 @@ def _pairs(keys, first_year, second_year):
     )
     if not regions:
         raise fail(
-            f"no district has brackets in both {first_year} and {second_year}",
+            f"no district has figures in both {first_year} and {second_year}",
             "choose two years that the same districts report",
             column="year",
         )
@@ -154,16 +163,48 @@ def _pairs(keys, first_year, second_year):
     return regions, a, b
 
 
+def _slopes(panel, method):
+    """keys, means and the slopes ``L'(p)`` on GRID and on the fine grid of every
+    district-year: from each fitted curve for brackets, from the sample quantiles over the
+    mean for unit records (``mu L'(p)`` is the income at ``p``)."""
+    if panel.kind == "units":
+        from explorer.stats import measures
+
+        data = panel.data
+        units = measures.sort_units(
+            data["income"].to_numpy(float),
+            data["weight"].to_numpy(float),
+            data[["region", "year"]].reset_index(drop=True),
+        )
+        keys = units.labels.reset_index(drop=True)
+        total = np.add.reduceat(units.weights, units.starts)
+        mean = np.add.reduceat(units.weights * units.values, units.starts) / total
+        q_p, q_fine = weighted_quantiles(units, GRID), weighted_quantiles(units, _FINE)
+        return keys, mean, q_p / mean[:, None], q_fine / mean[:, None]
+    if panel.kind != "brackets":
+        raise fail(
+            "growth incidence needs the distribution within districts: bracket shares with "
+            "district means, or household records",
+            "load a bracket table with mean_income for both years, or unit records",
+        )
+    fits = lorenz.fit_panel(panel, method)
+    keys = fits.keys.reset_index(drop=True)
+    first = panel.data.groupby(["region", "year"], sort=False)["mean_income"].first()
+    mean = first.reindex(pd.MultiIndex.from_frame(keys)).to_numpy(float)
+    return keys, mean, fits.slope(GRID), fits.slope(_FINE)
+
+
 def from_panel(panel, first_year, second_year, method: str = "auto", line=None):
-    """Growth incidence of every district present in both years of a bracket panel.
+    """Growth incidence of every district present in both years.
 
     Parameters
     ----------
     panel : explorer.data.model.Panel
-        A bracket panel with each district's mean income in both years (same price base).
+        A bracket panel with each district's mean income in both years (same price base),
+        or unit records.
     first_year, second_year : int
     method : str
-        The Lorenz method for both years.
+        The Lorenz method for both years (bracket panels).
     line : PovertyLine, str or float, optional
         The line whose first-year headcount sets the poorest H % for the rate of pro-poor
         growth (an amount in the first year's prices).
@@ -174,35 +215,67 @@ def from_panel(panel, first_year, second_year, method: str = "auto", line=None):
         ``region, year, index, value, lower, upper, method, note`` with ``year`` the second
         year and the keys of :data:`SUMMARY_KEYS`.
     curves : DataFrame
-        ``region, p, rate``: the growth incidence curve of each district on :data:`GRID`.
+        ``region, year, p, rate``: the growth incidence curve of each district on
+        :data:`GRID`.
 
-    Districts with brackets in only one of the two years are named in
-    ``summary.attrs["left_out"]`` for the caller to show.
+    Districts in only one of the two years are named in ``summary.attrs["left_out"]`` for
+    the caller to show.
 
     References
     ----------
     Ravallion & Chen (2003) (module docstring).
     """
-    if panel.kind != "brackets":
-        raise fail(
-            "growth incidence here needs bracket shares with district means",
-            "load a bracket table with mean_income for both years",
-        )
-    fits = lorenz.fit_panel(panel, method)
-    keys = fits.keys.reset_index(drop=True)
-    first = panel.data.groupby(["region", "year"], sort=False)["mean_income"].first()
-    mean = first.reindex(pd.MultiIndex.from_frame(keys)).to_numpy(float)
-    regions, a, b = _pairs(keys, first_year, second_year)
-    s_p, s_fine = fits.slope(GRID), fits.slope(_FINE)
+    return since(panel, first_year, method, line, later=(int(second_year),))
+
+
+def since(panel, first_year, method: str = "auto", line=None, later=None):
+    """Growth incidence from ``first_year`` to every later year (or the years ``later``),
+    with one fit of the panel: the tables of :func:`from_panel`, stacked by second year."""
+    first_year = int(first_year)
+    keys, mean, s_p, s_fine = _slopes(panel, method)
+    keys = keys.assign(region=keys["region"].astype(str), year=keys["year"].astype(int))
+    years = sorted({int(y) for y in keys["year"]} - {first_year}) if later is None else later
+    years = [y for y in years if y > first_year] if later is None else list(years)
+    used = "units" if panel.kind == "units" else method
     head = None
     if line is not None:
-        table = poverty_table.compute(panel, line, method)
+        table = poverty_table.compute(panel, line, method if panel.kind == "brackets" else "auto")
         h = table[(table["index"] == "fgt_0") & (table["year"] == first_year)]
-        head = h.set_index("region")["value"].reindex(regions).to_numpy(float)
-    got = _incidence(GRID, s_p[a], s_p[b], s_fine[a], s_fine[b], mean[b] / mean[a], head)
-    note = np.where(
-        np.isnan(mean[a]) | np.isnan(mean[b]), "undefined: a district mean is missing", ""
-    )
+        head = h.assign(region=h["region"].astype(str)).set_index("region")["value"]
+    summaries, curves, left_out = [], [], set()
+    present = {int(y): set(keys["region"][keys["year"] == y]) for y in set(keys["year"])}
+    for second in years:
+        if later is None and not present.get(first_year, set()) & present[int(second)]:
+            continue  # a year no district shares with the first: nothing to compare
+        regions, a, b = _pairs(keys, first_year, int(second))
+        h = None if head is None else head.reindex(regions).to_numpy(float)
+        got = _incidence(GRID, s_p[a], s_p[b], s_fine[a], s_fine[b], mean[b] / mean[a], h)
+        if panel.kind == "units":
+            note = np.full(len(regions), _SAMPLE_NOTE, dtype=object)
+        else:
+            note = np.where(
+                np.isnan(mean[a]) | np.isnan(mean[b]), "undefined: a district mean is missing", ""
+            ).astype(object)
+        summary, curve = _tables(got, regions, int(second), used, note, line)
+        summaries.append(summary)
+        curves.append(curve)
+        seen = set(keys["region"][keys["year"].isin([first_year, int(second)])])
+        left_out |= seen - set(regions)  # in only one of the two years
+    if not summaries:
+        raise fail(
+            f"no year after {first_year} to measure growth to",
+            "choose an earlier first year",
+            column="year",
+        )
+    summary = pd.concat(summaries, ignore_index=True)
+    summary.attrs["left_out"] = sorted(left_out)
+    return summary, pd.concat(curves, ignore_index=True)
+
+
+_SAMPLE_NOTE = "from the sample records; their sampling error is not included"
+
+
+def _tables(got, regions, second_year, method, note, line):
     pro_note = "" if line is not None else "needs a poverty line (the first year's headcount)"
     k = len(SUMMARY_KEYS)
     summary = pd.DataFrame(
@@ -220,10 +293,29 @@ def from_panel(panel, first_year, second_year, method: str = "auto", line=None):
     curves = pd.DataFrame(
         {
             "region": np.repeat(regions, GRID.size),
+            "year": int(second_year),
             "p": np.tile(GRID, len(regions)),
             "rate": got.rate.ravel(),
         }
     )
-    seen = set(keys["region"][keys["year"].isin([first_year, second_year])])
-    summary.attrs["left_out"] = sorted(seen - set(regions))  # in only one of the two years
     return summary, curves
+
+
+def weighted_quantiles(units, p) -> np.ndarray:
+    """Income at each percentile ``p`` of every group of sorted units, shape (groups, len(p)).
+
+    The weighted empirical quantile function, linear between the midpoints of each unit's
+    weight (common practice: the ``midpoint`` plotting positions), so that a percentile's
+    income moves smoothly and two samples' growth rates are defined at every ``p``.
+    """
+    p = np.asarray(p, dtype=float)
+    out = np.full((units.n_groups, p.size), np.nan)
+    ends = np.append(units.starts[1:], len(units.values))
+    for g, (start, end) in enumerate(zip(units.starts, ends, strict=True)):
+        w = units.weights[start:end]
+        total = w.sum()
+        if total <= 0:
+            continue
+        middle = (np.cumsum(w) - 0.5 * w) / total
+        out[g] = np.interp(p, middle, units.values[start:end])
+    return out

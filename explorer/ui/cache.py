@@ -64,6 +64,20 @@ def _poverty(_panel, fingerprint: str, scope: str, line: str, relative_to: str, 
     return tidy(plain.PlainCompute(_panel).poverty(line, relative_to, method))
 
 
+@st.cache_data(show_spinner="Measuring welfare in every district and year…", max_entries=32)
+def _welfare(_panel, fingerprint: str, scope: str, method: str):
+    return tidy(plain.PlainCompute(_panel).welfare(method))
+
+
+@st.cache_data(show_spinner="Measuring growth at every percentile…", max_entries=32)
+def _growth(_panel, fingerprint: str, scope: str, year_from: int, method, line, relative_to):
+    summary, curves = plain.PlainCompute(_panel).growth(year_from, method, line, relative_to)
+    left_out = summary.attrs.get("left_out", [])
+    summary = tidy(summary)
+    summary.attrs["left_out"] = left_out  # named on the page, so it must survive the cache
+    return summary, tidy(curves)
+
+
 # cache_data, not cache_resource: an upload's clusters are user data, and cache_resource would
 # hand one shared object to every session.
 @st.cache_data(show_spinner="Testing for spatial clustering (permutations)…", max_entries=32)
@@ -141,6 +155,14 @@ class CachedCompute:
     def poverty(self, line: str, relative_to: str, method: str) -> pd.DataFrame:
         method = method if self.panel.kind == "brackets" else "auto"
         return _poverty(*self._key(), line, relative_to, method)
+
+    def welfare(self, method: str) -> pd.DataFrame:
+        method = method if self.panel.kind == "brackets" else "auto"
+        return _welfare(*self._key(), method)
+
+    def growth(self, year_from: int, method: str, line: str, relative_to: str):
+        method = method if self.panel.kind == "brackets" else "auto"
+        return _growth(*self._key(), int(year_from), method, line, relative_to)
 
     def map_features(self, values: pd.DataFrame) -> list[dict[str, Any]]:
         return _map_features(*self._key(), values)

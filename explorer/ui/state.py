@@ -266,7 +266,7 @@ def sidebar(catalog: Sequence[data.Dataset], panel: Any) -> None:
             format_func=lambda key: vocabulary.figure_label(key, panel),
             help=FIGURE_HELP.get(panel.kind),
         )
-        if current_view().index in POVERTY_FIGURES:
+        if current_view().index in (*POVERTY_FIGURES, "growth_pro_poor"):
             _poverty_controls()
         if panel.kind == "brackets":
             control(

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import dataclasses
+
 import numpy as np
 import pandas as pd
 import pytest
@@ -81,3 +83,37 @@ def test_from_panel_uniform_growth_for_every_district():
     np.testing.assert_allclose(summary["value"], 0.1, atol=1e-9)
     np.testing.assert_allclose(curves["rate"], 0.1, atol=1e-9)
     assert set(summary["index"]) == set(growth.SUMMARY_KEYS)
+
+
+def test_units_uniform_growth_is_that_growth_at_every_percentile():
+    """Ravallion & Chen (2003), *Economics Letters* 78: 93-99, eq. (1): when every income
+    grows by the same factor, g(p) equals that growth at every p, and so do the rate of
+    pro-poor growth and the growth of the mean."""
+    from explorer.data import demo
+
+    panel = demo.demo_panel("units")
+    first = panel.data[panel.data["year"] == 2010]
+    grown = first.assign(year=2017, income=first["income"] * 1.25)
+    data = pd.concat([first, grown], ignore_index=True)
+    twin = dataclasses.replace(panel, data=data)
+    summary, curves = growth.from_panel(twin, 2010, 2017, line=float(first["income"].median()))
+    assert np.allclose(curves["rate"], 0.25, atol=1e-12)
+    for key in growth.SUMMARY_KEYS:
+        got = summary.loc[summary["index"] == key, "value"].to_numpy(float)
+        assert np.allclose(got, 0.25, atol=1e-9), key
+
+
+def test_since_stacks_every_later_year_with_one_fit():
+    """Growth from a first year to every later year equals the pairwise computation."""
+    from explorer.data import demo
+
+    panel = demo.demo_panel()
+    years = sorted(int(y) for y in panel.data["year"].unique())
+    summary, curves = growth.since(panel, years[0], "gq")
+    assert sorted(summary["year"].unique()) == years[1:]
+    one, one_curves = growth.from_panel(panel, years[0], years[5], "gq")
+    got = summary[summary["year"] == years[5]].reset_index(drop=True)
+    pd.testing.assert_frame_equal(got, one.reset_index(drop=True), check_exact=False, rtol=1e-12)
+    assert np.allclose(
+        curves[curves["year"] == years[5]]["rate"].to_numpy(), one_curves["rate"].to_numpy()
+    )
