@@ -18,6 +18,8 @@ labels = dict(zip(district_names["region"], district_names["name"], strict=True)
 regions = list(labels)
 if not view.districts:
     view = ui.update(districts=(regions[0],))
+
+
 def _with_first(region: str) -> tuple[str, ...]:
     """The chosen district first, the compared one kept unless it is the same."""
     kept = [d for d in ui.current_view().districts[1:2] if d != region]
@@ -48,9 +50,9 @@ if against is not None:
             st.selectbox,
             "Compare with",
             ["", *regions],
-            format_func=lambda region: f"{labels.get(region, region)} ({region})"
-            if region
-            else "No other district",
+            format_func=lambda region: (
+                f"{labels.get(region, region)} ({region})" if region else "No other district"
+            ),
             to_view=_with_second,
             from_view=lambda chosen: chosen[1] if len(chosen) > 1 else "",
             role="compare",
@@ -102,7 +104,9 @@ else:
     left, right = st.columns(2)
     with left:
         # Vega's own theme: Streamlit's squeezes a square chart whose title and legend take room.
-        st.altair_chart(sheet.profile, theme=None, width="content", height=640, key="district_lorenz")
+        st.altair_chart(
+            sheet.profile, theme=None, width="content", height=640, key="district_lorenz"
+        )
     with right:
         row = sheet.headline
         if row is not None:

@@ -112,8 +112,8 @@ def test_published_figures_are_mapped_ranked_and_followed_as_given(published_pan
     assert "not recomputed" in lines.notices[0]
     sheet = figures.district(published_panel, view.replace(districts=("CAL01",)), compute)
     table = sheet.published.set_index("figure")
-    ranked = given[given["year"] == 2018].set_index("region")["gini"].rank(
-        ascending=False, method="min"
+    ranked = (
+        given[given["year"] == 2018].set_index("region")["gini"].rank(ascending=False, method="min")
     )
     assert table.loc["Gini coefficient", "rank"] == f"{int(ranked['CAL01'])} of 46"
     assert table.loc["Gini coefficient", "scale"] == "percent"

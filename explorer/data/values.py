@@ -389,7 +389,10 @@ def published_values(rows: Rows, found: Findings, scales=None) -> pd.DataFrame:
         scale = scales.get(measure, scale)
         if scale == "unknown":
             found.notes.append(
-                (f"the scale of {measure} could not be told ({why}); it is shown as written", measure)
+                (
+                    f"the scale of {measure} could not be told ({why}); it is shown as written",
+                    measure,
+                )
             )
         limit = {"percent": 100.0, "proportion": 1.0}.get(scale)
         if limit is not None:

@@ -187,7 +187,12 @@ def district_means(sheet: DistrictFigures) -> ReportTable:
 
 def district_published(sheet: DistrictFigures) -> ReportTable:
     """The District sheet's published figures of the year, with their rank and scale."""
-    titles = {"figure": "Figure", "value": "Value", "scale": "Scale", "rank": "Rank among districts"}
+    titles = {
+        "figure": "Figure",
+        "value": "Value",
+        "scale": "Scale",
+        "rank": "Rank among districts",
+    }
     return ReportTable(sheet.published, _shown(sheet.published, titles, {}))
 
 

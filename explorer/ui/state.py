@@ -18,6 +18,7 @@ import streamlit as st
 
 from explorer import resources, views
 from explorer.figures import narrow, settle
+from explorer.figures.series import POVERTY_FIGURES, figure_keys
 from explorer.present import vocabulary
 from explorer.present.vocabulary import (
     DECOMPOSABLE,
@@ -25,7 +26,6 @@ from explorer.present.vocabulary import (
     PAGES,
     method_label,
 )
-from explorer.figures.series import POVERTY_FIGURES, figure_keys
 from explorer.ui import data, show
 from explorer.ui.cache import CachedCompute
 

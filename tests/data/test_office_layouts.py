@@ -326,7 +326,11 @@ def test_a_workbook_with_a_sheet_per_measure_opens_as_a_panel(tmp_path) -> None:
                 ["Ashvale", "12,100", 12800],
                 ["Northland", 20400, "21,000 (r)"],
             ],
-            "Population": [["District", 2001, 2002], ["Ashvale", 5100, 5200], ["Northland", 7000, 7100]],
+            "Population": [
+                ["District", 2001, 2002],
+                ["Ashvale", 5100, 5200],
+                ["Northland", 7000, 7100],
+            ],
         }
     )
     path = tmp_path / "book.xlsx"

@@ -263,7 +263,9 @@ def _measure_names(
     return names
 
 
-def _bracket_column(header: list[str], body: list[tuple[str, ...]], labels: list[int]) -> int | None:
+def _bracket_column(
+    header: list[str], body: list[tuple[str, ...]], labels: list[int]
+) -> int | None:
     """The column numbering each line's population group, when lines are district × group:
     headed like a group (``Quintile``) and every cell a group number (``3``, ``Q3``)."""
     for j in [*labels[1:], max(labels) + 1]:
