@@ -29,6 +29,7 @@ key        field                   form
 ``bs``     ``bootstrap``           1 or 0 (unit records: sampling intervals)
 ``pl``     ``poverty_line``        12000 (a year per person), 60%median, 50%mean
 ``pr``     ``relative_to``         province or district (whose median or mean)
+``cy``     ``compare_years``       comma-separated years (Compare: one district, 2–6 years)
 ========== ======================= ================================================
 
 Fields at their default are left out of a link. A view file is JSON:
@@ -126,6 +127,7 @@ QUERY_KEYS = {
     "bootstrap": "bs",
     "poverty_line": "pl",
     "relative_to": "pr",
+    "compare_years": "cy",
 }
 _FIELD_OF_KEY = {key: name for name, key in QUERY_KEYS.items()}
 _PLAIN = {
@@ -148,6 +150,7 @@ _PLAIN = {
     "bootstrap": "sampling intervals",
     "poverty_line": "poverty line",
     "relative_to": "poverty line relative to",
+    "compare_years": "years compared",
 }
 
 
@@ -418,9 +421,35 @@ _PARSERS = {
     "poverty_line": _poverty_line,
     "relative_to": lambda raw, known: _choice(raw, ("province", "district"), "choice"),
 }
+#: At most this many districts or years side by side on the Compare page.
+MAX_COMPARED = 6
+
+
+def _years_list(raw: Any, known: Known, notices: list[str], name: str) -> tuple[int, ...]:
+    """Years of a list, in order, each checked like ``year``; at most MAX_COMPARED."""
+    kept: list[int] = []
+    for item in _split(raw):
+        try:
+            year = _year(item, known)
+        except _Bad as reason:
+            notices.append(f"Left out year {_shown(item)} of the {_PLAIN[name]}: it {reason}.")
+            continue
+        if year is not None:
+            kept.append(year)
+    kept = sorted(set(kept))
+    if len(kept) > MAX_COMPARED:
+        notices.append(
+            f"Kept the first {MAX_COMPARED} of the {len(kept)} {_PLAIN[name]}: "
+            "the Compare page shows at most six side by side."
+        )
+        kept = kept[:MAX_COMPARED]
+    return tuple(kept)
+
+
 _LIST_PARSERS = {
     "districts": _labels("districts", "district"),
     "counties": _labels("counties", "county"),
+    "compare_years": _years_list,
 }
 
 
@@ -473,6 +502,9 @@ class ViewState:
     relative_to : str
         Whose median or mean a relative line is taken of: the ``province``'s (one line for
         every district) or each ``district``'s own.
+    compare_years : tuple of int
+        The Compare page's years for one district (the first chosen); empty = the chosen
+        districts side by side in ``year``.
 
     Raises
     ------
@@ -500,6 +532,7 @@ class ViewState:
     bootstrap: bool = False
     poverty_line: str = "60%median"
     relative_to: str = "province"
+    compare_years: tuple[int, ...] = field(default=())
 
     def __post_init__(self) -> None:
         free = Known()
@@ -542,7 +575,7 @@ class ViewState:
             if value == getattr(default, name):
                 continue
             if isinstance(value, tuple):
-                out[key] = ",".join(quote(item, safe="") for item in value)
+                out[key] = ",".join(quote(str(item), safe="") for item in value)
             elif isinstance(value, bool):
                 out[key] = "1" if value else "0"
             elif value is None:
@@ -563,6 +596,7 @@ class ViewState:
         body = asdict(self)
         body["districts"] = list(self.districts)
         body["counties"] = list(self.counties)
+        body["compare_years"] = list(self.compare_years)
         return {"rift_view": VIEW_FILE_VERSION, **body}
 
     def to_json(self) -> str:

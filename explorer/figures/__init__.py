@@ -18,6 +18,7 @@ from explorer.figures.compute import Compute, PlainCompute
 from explorer.figures.district import Comparison, DistrictFigures, compare, district
 from explorer.figures.report import ReportSections, report_for_view, report_html, sections
 from explorer.figures.settle import narrow, settle
+from explorer.figures.side_by_side import CompareFigures, compare_page
 from explorer.figures.spatial import ClusterLayer, SpatialResult, cluster_layer, for_panel
 from explorer.figures.timelines import Convergence, TimelineFigures, convergence, timelines
 
@@ -26,6 +27,7 @@ __all__ = [
     "BreakdownFigures",
     "ChangeFigures",
     "ClusterLayer",
+    "CompareFigures",
     "Comparison",
     "Compute",
     "Convergence",
@@ -39,6 +41,7 @@ __all__ = [
     "change",
     "cluster_layer",
     "compare",
+    "compare_page",
     "convergence",
     "district",
     "for_panel",

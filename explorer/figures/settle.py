@@ -17,7 +17,7 @@ def settle(view: ViewState, panel: Panel) -> ViewState:
     """The view with its choices made valid for ``panel``.
 
     Empty or unknown years become the panel's latest year (``year``, ``year_to``) and its
-    first year (``year_from``); districts the panel does not hold are dropped; a Lorenz
+    first year (``year_from``); districts and compared years the panel does not hold are dropped; a Lorenz
     method other than ``auto`` is reset for data that are not grouped shares; a grouping
     level the panel lacks is cleared; an index the panel cannot show becomes one it can
     (:func:`explorer.figures.series.figure_keys`).
@@ -34,6 +34,9 @@ def settle(view: ViewState, panel: Panel) -> ViewState:
     kept = tuple(d for d in view.districts if d in regions)
     if kept != tuple(view.districts):
         changes["districts"] = kept
+    compared = tuple(y for y in view.compare_years if y in years)
+    if compared != tuple(view.compare_years):
+        changes["compare_years"] = compared
     if panel.kind != "brackets" and view.method != "auto":
         changes["method"] = "auto"
     if view.level is not None and view.level not in panel.levels:

@@ -52,6 +52,8 @@ __all__ = [
     "PART_WORDS",
     "WIDE_SHARE",
     "WELFARE_CAPTION",
+    "COMPARE_MODES",
+    "COMPARE_HELP",
     "WELFARE_COLUMNS",
     "GROWTH_WELFARE_HELP",
     "Page",
@@ -142,6 +144,16 @@ GROWTH_WELFARE_HELP = {
     "growth_gap_bottom40": "positive: the poorest 40 % gained faster than the mean; "
     "negative: growth passed them by",
 }
+#: The Compare page's two ways of choosing what is set side by side.
+COMPARE_MODES = {
+    "districts": "Districts in one year",
+    "years": "One district over the years",
+}
+COMPARE_HELP = (
+    "Two to six districts in the year chosen in the sidebar, or one district in two to six "
+    "years. Their Lorenz curves are overlaid, every figure is set side by side, and each "
+    "pair gets a verdict in words."
+)
 #: The District sheet's table of welfare in money.
 WELFARE_COLUMNS = {
     "figure": "Figure",
@@ -305,6 +317,7 @@ PAGES: dict[str, Page] = {
     "timelines": Page("Timelines", ":material/timeline:", "timelines.py"),
     "breakdown": Page("Breakdown", ":material/stacked_bar_chart:", "breakdown.py"),
     "district": Page("District sheet", ":material/description:", "district.py"),
+    "compare": Page("Compare", ":material/compare_arrows:", "compare.py"),
     "intake": Page("Intake", ":material/upload_file:", "intake.py"),
 }
 

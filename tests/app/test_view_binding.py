@@ -30,7 +30,7 @@ NOT_VIEW_SETTINGS = {
 #: Keys with these starts belong to reading an uploaded file (its column map, sheet, layer).
 UPLOAD_PREFIXES = ("in_",)
 
-PAGES = ("atlas", "timelines", "breakdown", "district", "intake")
+PAGES = ("atlas", "timelines", "breakdown", "district", "compare", "intake")
 
 
 def _widgets(at: AppTest) -> list[Widget]:
@@ -94,6 +94,7 @@ def _raw_values(at: AppTest) -> list:
         "province",
         "district",
         "",  # "no other district" of the District sheet's comparison
+        *vocabulary.COMPARE_MODES,
     ]
 
 
@@ -154,6 +155,8 @@ def _set_everything(at: AppTest) -> set[str]:
         ("timelines", "demo"),
         ("breakdown", "demo"),
         ("district", "demo"),
+        ("compare", "demo"),
+        ("compare", "demo-households"),
         ("atlas", "demo-households"),
         ("atlas", "demo-poverty"),
         ("district", "demo-households-poverty"),
