@@ -100,4 +100,29 @@ else:
         table=moved.terms,
         chart=moved.chart,
     )
+poor = figures.poverty_split(panel, view, opened.compute)
+if poor is not None:
+    st.subheader("Where the poverty lies")
+    if poor.table is None:
+        ui.notice(poor.notice)
+    else:
+        ui.caption(
+            f"{vocabulary.index_label(poor.index)} of the province in {view.year}: "
+            f"{vocabulary.figure(poor.total)}, split over the groups of each level (the "
+            "split adds up exactly). Choose the measure and the line in the sidebar."
+        )
+        st.altair_chart(poor.chart, key="poverty_split_chart")
+        shown_poor, options = ui.planner_table(
+            poor.table,
+            vocabulary.POVERTY_SPLIT_COLUMNS,
+            formats={"population_share": "percent", "value": "%.4f", "contribution": "%.4f"},
+            words={"percent": lambda r: f"{r['percent']:.1f} %"},
+        )
+        ui.table(shown_poor, "poverty_split_table", **options)
+        ui.downloads(
+            f"poverty-split-{poor.index}-{view.year}",
+            key="poverty_split",
+            table=poor.table,
+            chart=poor.chart,
+        )
 ui.cautions(panel, ranking=False)

@@ -10,8 +10,10 @@ from explorer.figures.atlas import AtlasFigures, atlas
 from explorer.figures.breakdown import (
     BreakdownFigures,
     ChangeFigures,
+    PovertySplit,
     breakdown,
     change,
+    poverty_split,
     split_index,
 )
 from explorer.figures.compute import Compute, PlainCompute
@@ -33,6 +35,7 @@ __all__ = [
     "Convergence",
     "DistrictFigures",
     "PlainCompute",
+    "PovertySplit",
     "ReportSections",
     "SpatialResult",
     "TimelineFigures",
@@ -49,6 +52,7 @@ __all__ = [
     "report_html",
     "sections",
     "narrow",
+    "poverty_split",
     "settle",
     "split_index",
     "timelines",

@@ -10,11 +10,19 @@ import pandas as pd
 
 from explorer.data.model import Panel
 from explorer.figures.compute import Compute
-from explorer.figures.tables import per_level, share_table
+from explorer.figures.tables import names, per_level, share_table
 from explorer.present import charts, vocabulary
 from explorer.views import ViewState
 
-__all__ = ["CHANGE_INDICES", "BreakdownFigures", "ChangeFigures", "breakdown", "change"]
+__all__ = [
+    "CHANGE_INDICES",
+    "BreakdownFigures",
+    "ChangeFigures",
+    "PovertySplit",
+    "breakdown",
+    "change",
+    "poverty_split",
+]
 
 #: Indices whose change between two years splits into terms (Mookherjee & Shorrocks 1982).
 CHANGE_INDICES = ("mld", "theil_t")
@@ -167,3 +175,112 @@ def change(panel: Panel, view: ViewState, compute: Compute, index: str) -> Chang
     except AttributeError:
         pass
     return ChangeFigures(chosen, terms, bars, notice, note, term_words, shown)
+
+
+@dataclass(frozen=True)
+class PovertySplit:
+    """The province's poverty split additively over the groups of each level.
+
+    ``table`` holds the view's year (``level, group, population_share, value,
+    contribution, percent``, group names in words); ``notice`` says why there is none.
+    """
+
+    index: str
+    table: pd.DataFrame | None
+    chart: Any
+    notice: str
+    total: float = float("nan")
+
+
+#: The poverty measure split when the view's own does not add up over groups.
+_DEFAULT_POVERTY = "fgt_0"
+
+
+def poverty_split(panel: Panel, view: ViewState, compute: Compute) -> PovertySplit | None:
+    """Each county's and district's contribution to the province's poverty in the view's year
+    (None for data that carry no poverty measure).
+
+    FGT(α) and the Watts index of a population are population-weighted means of its parts'
+    at one line, so the parts' contributions ``population share × measure`` add up to the
+    province's exactly (Foster, Greer & Thorbecke 1984, *Econometrica* 52: 761–766).
+    """
+    from explorer.data.model import DataError
+    from explorer.figures.series import POVERTY_FIGURES, figure_keys
+    from explorer.stats import poverty_levels
+
+    if panel.kind == "means":
+        return PovertySplit(
+            _DEFAULT_POVERTY,
+            None,
+            None,
+            "Poverty cannot be measured from district means alone: how many people fall "
+            "below a line depends on the spread of incomes inside each district, which "
+            "means do not give. Load income shares or household records to measure it.",
+        )
+    if not set(POVERTY_FIGURES) & set(figure_keys(panel)):
+        return None
+    index = view.index if view.index in poverty_levels.DECOMPOSABLE else _DEFAULT_POVERTY
+    table = compute.poverty(view.poverty_line, view.relative_to, view.method)
+    try:
+        split = poverty_levels.by_level(table, panel, index)
+    except DataError as error:
+        return PovertySplit(
+            index, None, None, " ".join(f"{p.message}: {p.fix}." for p in error.problems)
+        )
+    rows = split[split["year"] == view.year]
+    total = rows.loc[rows["level"] == "province", "value"]
+    rows = rows[rows["level"] != "province"].copy()
+    if rows.empty:
+        return PovertySplit(index, None, None, f"No poverty figures for {view.year}.")
+    words = {
+        "district": "District",
+        **{lv: vocabulary.groups_word(lv, plural=False).capitalize() for lv in panel.levels},
+    }
+    named = names(panel).set_index("region")["name"]
+    districts = rows["level"] == "district"
+    rows.loc[districts, "group"] = [
+        f"{named.get(str(g), g)} ({g})" for g in rows.loc[districts, "group"]
+    ]
+    rows["level"] = rows["level"].map(lambda lv: words.get(lv, lv))
+    # the outermost level first, then districts: a planner reads from the top down
+    order = [words.get(lv, lv) for lv in (*panel.levels, "district")]
+    rows["order"] = rows["level"].map({lv: i for i, lv in enumerate(order)})
+    rows = rows.sort_values(["order", "contribution"], ascending=[True, False]).drop(
+        columns="order"
+    )
+    top = rows[rows["level"] == order[0]]
+    label = vocabulary.index_label(index)
+    chart = (
+        alt.Chart(top.assign(share=top["percent"] / 100.0))
+        .mark_bar()
+        .encode(
+            y=alt.Y("group:N", sort="-x", title=order[0]),
+            x=alt.X("share:Q", title=f"Share of the province's {label}", axis=alt.Axis(format="%")),
+            tooltip=[
+                alt.Tooltip("group:N", title=order[0]),
+                alt.Tooltip("share:Q", title="Share of the province's poverty", format=".1%"),
+                alt.Tooltip("population_share:Q", title="Share of the population", format=".1%"),
+                alt.Tooltip("value:Q", title=label, format=".3f"),
+            ],
+        )
+        .properties(
+            title=alt.TitleParams(
+                f"Where the province's {label.lower()} lies, {view.year}",
+                subtitle=vocabulary.wrap(
+                    f"Line: {vocabulary.poverty_line_words(view)}. Each bar: population share × "
+                    "the group's own measure, as a share of the province's; the bars add up to "
+                    "100 %. A group with more than its population share of poverty is poorer "
+                    "than the province.",
+                    width=90,
+                ),
+            ),
+            width=560,
+        )
+    )
+    return PovertySplit(
+        index,
+        rows.reset_index(drop=True),
+        chart,
+        "",
+        float(total.iloc[0]) if len(total) else float("nan"),
+    )

@@ -53,6 +53,7 @@ __all__ = [
     "WIDE_SHARE",
     "WELFARE_CAPTION",
     "COMPARE_MODES",
+    "POVERTY_SPLIT_COLUMNS",
     "COMPARE_HELP",
     "WELFARE_COLUMNS",
     "GROWTH_WELFARE_HELP",
@@ -154,6 +155,15 @@ COMPARE_HELP = (
     "years. Their Lorenz curves are overlaid, every figure is set side by side, and each "
     "pair gets a verdict in words."
 )
+#: The Breakdown's table of poverty split over groups.
+POVERTY_SPLIT_COLUMNS = {
+    "level": "Level",
+    "group": "Group",
+    "population_share": "Share of the population",
+    "value": "The group's own measure",
+    "contribution": "Contribution (population share × measure)",
+    "percent": "Share of the province's poverty",
+}
 #: The District sheet's table of welfare in money.
 WELFARE_COLUMNS = {
     "figure": "Figure",
