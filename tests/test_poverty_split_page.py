@@ -84,3 +84,32 @@ def test_the_breakdown_page_shows_where_the_poverty_lies(tmp_path, monkeypatch):
     table = dataframe(app, "poverty_split_table")
     counties = table[table["level"] == "County"]
     assert np.isclose(counties["percent"].sum(), 100.0)
+
+
+def test_the_report_carries_poverty_by_district_and_where_it_lies(units):
+    """The report's poverty table holds the poverty table's values, and its split the
+    Breakdown's, for the view's year and line."""
+    view = ViewState(
+        dataset="demo-households", year=int(units.years[-1]), districts=(str(units.regions[0]),)
+    )
+    compute = PlainCompute(units)
+    parts = figures.sections(view, units, compute)
+    title = next(t for t in parts.tables if t.startswith("Poverty by district"))
+    data = parts.tables[title].data.set_index("region")
+    expected = compute.poverty(view.poverty_line, view.relative_to, "auto")
+    expected = expected[(expected["year"] == view.year) & (expected["index"] == "fgt_2")]
+    expected = expected.assign(region=expected["region"].astype(str)).set_index("region")["value"]
+    assert np.allclose(data["fgt_2"].sort_index(), expected.sort_index(), atol=1e-12)
+    split = next(t for t in parts.tables if "split over groups" in t)
+    shares = parts.tables[split].data
+    assert np.isclose(shares.loc[shares["level"] == "County", "percent"].sum(), 100.0)
+    assert any(name.startswith("Growth at each percentile") for name in parts.charts)
+    welfare = next(t for t in parts.tables if t.startswith("Welfare in money"))
+    assert "Sen's welfare μ(1 − Gini)" in set(parts.tables[welfare].data["figure"])
+
+
+def test_the_report_of_district_means_says_poverty_cannot_be_measured():
+    panel = demo_panel("means")
+    parts = figures.sections(ViewState(dataset="demo-means"), panel)
+    assert any("cannot be measured from district means alone" in a for a in parts.absent)
+    assert not any(t.startswith("Poverty by district") for t in parts.tables)

@@ -265,7 +265,7 @@ def poverty_split(panel: Panel, view: ViewState, compute: Compute) -> PovertySpl
         )
         .properties(
             title=alt.TitleParams(
-                f"Where the province's {label.lower()} lies, {view.year}",
+                f"Where the province's {label[:1].lower() + label[1:]} lies, {view.year}",
                 subtitle=vocabulary.wrap(
                     f"Line: {vocabulary.poverty_line_words(view)}. Each bar: population share × "
                     "the group's own measure, as a share of the province's; the bars add up to "

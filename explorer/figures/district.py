@@ -223,7 +223,7 @@ def welfare_rows(panel: Panel, view: ViewState, compute: Compute, region: str):
     own = own.assign(
         lower=own["lower"].where(~exact, np.nan), upper=own["upper"].where(~exact, np.nan)
     )
-    return pd.DataFrame(
+    rows = pd.DataFrame(
         {
             "figure": [vocabulary.index_label(k) for k in own.index],
             "value": [vocabulary.figure(v, money=True) for v in own["value"]],
@@ -232,6 +232,9 @@ def welfare_rows(panel: Panel, view: ViewState, compute: Compute, region: str):
             "note": own["note"].fillna("").astype(str).to_numpy(),
         }
     )
+    # columns with nothing in them (no bounds from household records, no notes) are left out
+    empty = [c for c in ("lower", "upper", "note") if rows[c].eq("").all()]
+    return rows.drop(columns=empty)
 
 
 def _money_bound(value: Any) -> str:

@@ -16,7 +16,7 @@ from explorer.data import catalog
 from explorer.data.model import Panel
 from explorer.figures import report_tables
 from explorer.figures.atlas import AtlasFigures, atlas
-from explorer.figures.breakdown import breakdown, change
+from explorer.figures.breakdown import breakdown, change, poverty_split
 from explorer.figures.compute import Compute, PlainCompute
 from explorer.figures.district import district
 from explorer.figures.settle import settle
@@ -98,12 +98,43 @@ def _district_section(panel, view, compute, tables, built, absent) -> None:
         absent.append(f"District sheet: no index for {label}.")
         return
     tables[f"All indices: {label}"] = report_tables.district_indices(sheet, panel.kind)
+    if sheet.welfare is not None:
+        tables[f"Welfare in money: {label}"] = report_tables.district_welfare(sheet)
+    if sheet.growth is not None and sheet.growth.chart is not None:
+        built[f"Growth at each percentile: {sheet.name} ({sheet.region})"] = sheet.growth.chart
+        tables[f"Growth: {sheet.name} ({sheet.region})"] = report_tables.plain_facts(
+            sheet.growth.facts, sheet.growth.note
+        )
     if sheet.has_bounds:
         built[f"Indices with bounds: {label}"] = charts.fit_facets(sheet.strip, panels=1, room=400)
     else:  # dots without bars would say nothing the table does not
         absent.append(
             f"Chart of the indices with bounds, {label}: " + vocabulary.no_bound_text(panel.kind)
         )
+
+
+def _poverty_section(panel, view, compute, tables, built, absent) -> None:
+    """Poverty of every district against the view's line, and where the province's lies."""
+    split = poverty_split(panel, view, compute)
+    if split is None:
+        return
+    line = vocabulary.poverty_line_words(view)
+    if panel.kind == "means":
+        absent.append(f"Poverty: {split.notice}")
+        return
+    rows = compute.poverty(view.poverty_line, view.relative_to, view.method)
+    rows = rows[rows["year"] == view.year]
+    named = dict(zip(*(names(panel)[c] for c in ("region", "name")), strict=True))
+    if len(rows):
+        tables[f"Poverty by district, {view.year}, line {line}"] = report_tables.poverty_table(
+            rows, named
+        )
+    if split.table is None:
+        absent.append(f"Where the poverty lies: {split.notice}")
+        return
+    label = vocabulary.index_label(split.index)
+    built[f"Where the province's {label[:1].lower() + label[1:]} lies, {view.year}"] = split.chart
+    tables[f"{label} split over groups, {view.year}"] = report_tables.poverty_split_table(split)
 
 
 def _panel_info(view: ViewState, panel: Panel) -> dict[str, Any]:
@@ -143,6 +174,7 @@ def sections(view: ViewState, panel: Panel, compute: Compute | None = None) -> R
         )
     else:
         changed = _breakdown_section(panel, view, compute, tables, built, notes, absent)
+    _poverty_section(panel, view, compute, tables, built, absent)
     if view.districts:
         _district_section(panel, view, compute, tables, built, absent)
     else:

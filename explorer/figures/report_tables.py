@@ -15,13 +15,17 @@ import numpy as np
 import pandas as pd
 
 from explorer.figures.atlas import RANK_COLUMNS, AtlasFigures
-from explorer.figures.breakdown import ChangeFigures
+from explorer.figures.breakdown import ChangeFigures, PovertySplit
 from explorer.figures.district import DistrictFigures, method_word
 from explorer.present import vocabulary
 from explorer.present.report import ReportTable
 
 __all__ = [
     "change_table",
+    "district_welfare",
+    "plain_facts",
+    "poverty_table",
+    "poverty_split_table",
     "district_indices",
     "district_means",
     "district_published",
@@ -207,3 +211,52 @@ def set_aside_table(excluded: pd.DataFrame, names: Mapping[str, str]) -> ReportT
     shown = _shown(rows, {**titles, "row": "Row"}, {})
     shown, notes = notes_once(shown, "Reason", "Row")
     return ReportTable(data, shown.drop(columns=["Row"]), tuple(notes))
+
+
+def district_welfare(sheet: DistrictFigures) -> ReportTable:
+    """The District sheet's welfare in money (already in words on the sheet)."""
+    shown = _shown(sheet.welfare, vocabulary.WELFARE_COLUMNS, {})
+    shown, notes = notes_once(shown, "Note", "Figure")
+    return ReportTable(sheet.welfare, shown, (vocabulary.WELFARE_CAPTION, *notes))
+
+
+def poverty_table(rows: pd.DataFrame, names: Mapping[str, str]) -> ReportTable:
+    """Every poverty measure of every district in one year: one row per district, the
+    highest headcount first; bounds in brackets where the shares give them."""
+    keys = [k for k in vocabulary.POVERTY_HELP if k in set(rows["index"])]
+    rows = rows.drop_duplicates(["region", "index"]).assign(region=rows["region"].astype(str))
+    wide, low, high = (
+        rows.pivot(index="region", columns="index", values=column).reindex(columns=keys)
+        for column in ("value", "lower", "upper")
+    )
+    order = wide.sort_values(keys[0], ascending=False).index if keys else wide.index
+    data = wide.reindex(order)[keys].reset_index()
+    shown = pd.DataFrame({"District": [f"{names.get(str(r), r)} ({r})" for r in order]})
+    for key in keys:
+        cells = []
+        for region in order:
+            value, lo, hi = wide.at[region, key], low.at[region, key], high.at[region, key]
+            text = vocabulary.figure(value)
+            if np.isfinite(lo) and np.isfinite(hi):
+                text += f" ({vocabulary.figure(lo)} to {vocabulary.figure(hi)})"
+            cells.append(text)
+        shown[vocabulary.index_label(key)] = cells
+    return ReportTable(data, shown)
+
+
+def poverty_split_table(split: PovertySplit) -> ReportTable:
+    """The Breakdown's poverty split, in its words."""
+    cells = {
+        "population_share": lambda row: f"{100 * row['population_share']:.1f} %",
+        "value": lambda row: _number(row["value"]),
+        "contribution": lambda row: _number(row["contribution"]),
+        "percent": lambda row: f"{row['percent']:.1f} %",
+    }
+    return ReportTable(split.table, _shown(split.table, vocabulary.POVERTY_SPLIT_COLUMNS, cells))
+
+
+def plain_facts(facts: tuple[tuple[str, str], ...], note: str = "") -> ReportTable:
+    """Label, value pairs (a sheet's metrics) as a two-column table, with a note under it."""
+    data = pd.DataFrame(facts, columns=["figure", "value"])
+    shown = data.rename(columns={"figure": "Figure", "value": "Value"})
+    return ReportTable(data, shown, (note,) if note else ())
