@@ -30,6 +30,7 @@ key        field                   form
 ``pl``     ``poverty_line``        12000 (a year per person), 60%median, 50%mean
 ``pr``     ``relative_to``         province or district (whose median or mean)
 ``cy``     ``compare_years``       comma-separated years (Compare: one district, 2–6 years)
+``rk``     ``clear_ranks``         1 or 0 (Map: only districts whose rank is clear)
 ========== ======================= ================================================
 
 Fields at their default are left out of a link. A view file is JSON:
@@ -128,6 +129,7 @@ QUERY_KEYS = {
     "poverty_line": "pl",
     "relative_to": "pr",
     "compare_years": "cy",
+    "clear_ranks": "rk",
 }
 _FIELD_OF_KEY = {key: name for name, key in QUERY_KEYS.items()}
 _PLAIN = {
@@ -151,6 +153,7 @@ _PLAIN = {
     "poverty_line": "poverty line",
     "relative_to": "poverty line relative to",
     "compare_years": "years compared",
+    "clear_ranks": "only clear ranks",
 }
 
 
@@ -420,6 +423,7 @@ _PARSERS = {
     "bootstrap": _flag,
     "poverty_line": _poverty_line,
     "relative_to": lambda raw, known: _choice(raw, ("province", "district"), "choice"),
+    "clear_ranks": _flag,
 }
 #: At most this many districts or years side by side on the Compare page.
 MAX_COMPARED = 6
@@ -505,6 +509,8 @@ class ViewState:
     compare_years : tuple of int
         The Compare page's years for one district (the first chosen); empty = the chosen
         districts side by side in ``year``.
+    clear_ranks : bool
+        The Map shows only districts whose rank is clear (the bounds allow one rank only).
 
     Raises
     ------
@@ -533,6 +539,7 @@ class ViewState:
     poverty_line: str = "60%median"
     relative_to: str = "province"
     compare_years: tuple[int, ...] = field(default=())
+    clear_ranks: bool = False
 
     def __post_init__(self) -> None:
         free = Known()

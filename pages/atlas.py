@@ -61,6 +61,14 @@ if bounded and on_index:
         help="Dashed outline where the range between lower and upper bound is more than "
         f"{vocabulary.WIDE_SHARE:.0%} of the value: the figure is uncertain there.",
     )
+if bounded and on_index:
+    ui.control(
+        "clear_ranks",
+        st.toggle,
+        "Only clear ranks",
+        help="Show only the districts whose bounds allow one rank only; the others are "
+        "greyed out. A rank is a position, not a measure of need.",
+    )
 view = ui.current_view()
 
 shown = figures.atlas(panel, view, opened.compute)
@@ -90,15 +98,29 @@ ui.cautions(panel, ranking=True, wide_intervals=shown.wide_count)
 
 with st.expander(shown.ranking_title, expanded=False):
     ui.caption(shown.ranking_caution)
-    ranked_rows = shown.ranking[RANK_COLUMNS].rename(columns=vocabulary.COLUMN_LABELS)
+    labels = dict(vocabulary.COLUMN_LABELS)
+    if shown.moved_since is not None:
+        labels |= {
+            "rank_then": f"Rank in {shown.moved_since}",
+            "move": f"Move since {shown.moved_since}",
+        }
+    ranked_rows = shown.ranking[RANK_COLUMNS].rename(columns=labels)
     value_format = vocabulary.table_format(panel, view.index)
     shown_ranked, options = ui.planner_table(
         ranked_rows,
         {**{label: label for label in ranked_rows.columns}, "Value": shown.value_label},
-        formats={"Value": value_format, "Lower bound": value_format, "Upper bound": value_format},
+        formats={
+            "Value": value_format,
+            "Lower bound": value_format,
+            "Upper bound": value_format,
+            labels["rank_then"]: "%d",
+        },
     )
     if not bounded or not shown.ranking["rank_range"].astype(bool).any():
         hidden = ("Lower bound", "Upper bound", "Possible ranks")
+        options["column_order"] = [c for c in options["column_order"] if c not in hidden]
+    if shown.moved_since is None:  # no earlier year to compare the ranks with
+        hidden = (labels["rank_then"], labels["move"])
         options["column_order"] = [c for c in options["column_order"] if c not in hidden]
     ui.table(shown_ranked, "atlas_ranking", **options)
 ui.downloads(

@@ -12,7 +12,7 @@ from explorer.data.model import Panel
 from explorer.figures import series
 from explorer.figures.compute import Compute
 from explorer.figures.spatial import ClusterLayer, cluster_layer
-from explorer.figures.tables import map_values, ranking, why_missing, wide
+from explorer.figures.tables import map_values, rank_moves, ranking, why_missing, wide
 from explorer.present import charts, vocabulary
 from explorer.views import ViewState
 
@@ -31,6 +31,8 @@ RANK_COLUMNS = [
     "value",
     "lower",
     "upper",
+    "rank_then",
+    "move",
     "klass",
 ]
 
@@ -58,6 +60,10 @@ class AtlasFigures:
     wide_count: int
     #: Said in passing (not a warning): e.g. districts listed because there is no map.
     remark: str = ""
+    #: The first year ranks are compared with (None: the view's year is the first).
+    moved_since: int | None = None
+    #: Districts left off the map and ranking because their rank is not clear.
+    unclear: int = 0
 
     @property
     def empty(self) -> bool:
@@ -157,6 +163,13 @@ def atlas(
     values = map_values(panel, table, view.year, view.index)
     label = vocabulary.value_label(view, panel)
     ranked = ranking(values)
+    since = _first_year(panel, view, table)
+    unclear = 0
+    full = values
+    if view.clear_ranks and bounded and ranked["best"].notna().any():
+        keep = set(ranked.loc[ranked["best"] == ranked["worst"], "region"].astype(str))
+        unclear = len(ranked) - len(keep)
+        values = values.assign(value=values["value"].where(values["region"].astype(str).isin(keep)))
     common = dict(
         value_label=label,
         money=money,
@@ -177,7 +190,7 @@ def atlas(
             headline=(),
             **common,
         )
-    notices = [n for n in (why_missing(values),) if n]
+    notices = [n for n in (why_missing(full),) if n]
     classification = _classes(values["value"], view, money)
     values = values.assign(klass=classification.assign(values["value"]))
     if not mark_wide:
@@ -193,7 +206,13 @@ def atlas(
             notices.extend(n for n in (found.notice,) if n)
         else:
             chart = _index_chart(panel, view, values, classification, mark_wide, compute)
-    ranked = ranking(values)
+    ranked = _with_moves(panel, view, table, ranking(values), since)
+    if unclear:
+        notices.append(
+            f"Shown: only the districts whose rank is clear ({len(ranked)}; their bounds allow "
+            f"one rank only). Greyed out: {unclear} whose bounds overlap their neighbours', "
+            "so their rank is not clear. Turn off 'Only clear ranks' to see them all."
+        )
     return AtlasFigures(
         values,
         classification,
@@ -204,5 +223,23 @@ def atlas(
         ranking=ranked,
         headline=_headline(ranked, money, vocabulary.digits_of(panel, view.index)),
         remark=remark,
+        moved_since=since,
+        unclear=unclear,
         **common,
     )
+
+
+def _first_year(panel: Panel, view: ViewState, table: pd.DataFrame) -> int | None:
+    """The year ranks are compared with: the view's first year, when it is earlier and the
+    figure is a level (growth figures already compare two years)."""
+    first = view.year_from
+    if first is None or first >= view.year or view.index.startswith(("growth_", "mean_growth")):
+        return None
+    return int(first) if (table["year"] == first).any() else None
+
+
+def _with_moves(panel, view, table, ranked, since):
+    if since is None or ranked.empty:
+        return ranked.assign(rank_then=float("nan"), move="")
+    then = ranking(map_values(panel, table, since, view.index))
+    return rank_moves(ranked, then, since)

@@ -108,12 +108,19 @@ def ranking_table(found: AtlasFigures, kind: str) -> ReportTable:
     data = found.ranking.drop(columns=["wide"], errors="ignore")
     titles = {column: vocabulary.COLUMN_LABELS[column] for column in RANK_COLUMNS if column in data}
     titles["value"] = found.value_label
+    if found.moved_since is None:
+        titles.pop("rank_then", None)
+        titles.pop("move", None)
+    else:
+        titles["rank_then"] = f"Rank in {found.moved_since}"
+        titles["move"] = f"Move since {found.moved_since}"
     fmt = _money if found.money else _number
     cells = {
         "value": lambda row: fmt(row["value"]),
         "lower": lambda row: vocabulary.bound_text(row["lower"]) or "—",
         "upper": lambda row: vocabulary.bound_text(row["upper"]) or "—",
         "rank": lambda row: _text(row["rank"]),
+        "rank_then": lambda row: vocabulary.figure(row.get("rank_then"), money=True),
     }
     notes = [found.ranking_caution, *found.notices]
     bounds = data[["lower", "upper"]].to_numpy(dtype=float) if len(data) else np.empty((0, 2))

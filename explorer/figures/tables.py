@@ -95,16 +95,56 @@ def ranking(table: pd.DataFrame) -> pd.DataFrame:
     ranked = ranked.assign(rank=ranked["value"].rank(ascending=False, method="min").astype(int))
     ranked = ranked.reset_index(drop=True)
     words = [""] * len(ranked)
+    best = worst = np.full(len(ranked), np.nan)
     if {"lower", "upper"} <= set(ranked.columns) and len(ranked):
         lower = ranked["lower"].to_numpy(dtype=float)
         upper = ranked["upper"].to_numpy(dtype=float)
         if np.isfinite(lower).any() or np.isfinite(upper).any():
             found = from_bounds(ranked["value"], lower, upper, descending=True)
+            best, worst = found.best, found.worst
             words = [
                 f"{int(b)}" if b == w else f"{int(b)}–{int(w)}"
                 for b, w in zip(found.best, found.worst, strict=True)
             ]
-    return ranked.assign(rank_range=words)
+    return ranked.assign(rank_range=words, best=best, worst=worst)
+
+
+def rank_moves(now: pd.DataFrame, then: pd.DataFrame, year_from: int) -> pd.DataFrame:
+    """The ranking ``now`` with each district's rank in ``year_from`` and its move, in words.
+
+    A move is "clear" when the ranges of ranks the bounds allow in the two years do not
+    let the district stay where it was (:func:`explorer.stats.ranks.rank_change`); ranks
+    without bounds move by their point ranks alone, and the words say nothing of clarity.
+    """
+    from explorer.stats.ranks import RankIntervals, rank_change
+
+    earlier = then.set_index(then["region"].astype(str))
+    rows = now.assign(region=now["region"].astype(str))
+    prior = earlier.reindex(rows["region"])
+    first = RankIntervals(
+        prior["rank"].to_numpy(float), prior["best"].to_numpy(float), prior["worst"].to_numpy(float)
+    )
+    second = RankIntervals(
+        rows["rank"].to_numpy(float), rows["best"].to_numpy(float), rows["worst"].to_numpy(float)
+    )
+    change, _, _, clear = rank_change(first, second)
+    bounded = np.isfinite(first.best) & np.isfinite(second.best)
+    words = []
+    for step, sure, has in zip(change, clear, bounded, strict=True):
+        if np.isnan(step):
+            words.append(f"not ranked in {year_from}")
+            continue
+        places = abs(int(step))
+        text = (
+            "same place"
+            if places == 0
+            else f"{places} place{'s' if places > 1 else ''} "
+            + ("nearer rank 1" if step < 0 else "further from rank 1")
+        )
+        if has:
+            text += " (clear)" if sure else " (within the ranges)"
+        words.append(text)
+    return rows.assign(rank_then=prior["rank"].to_numpy(float), move=words)
 
 
 def share_table(parts: pd.DataFrame, year: Any) -> pd.DataFrame:

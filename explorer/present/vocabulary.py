@@ -402,6 +402,8 @@ WIDE_SHARE = 0.15
 COLUMN_LABELS = {
     "rank": "Rank",
     "rank_range": "Possible ranks",
+    "rank_then": "Rank in the first year",
+    "move": "Move since the first year",
     "name": "District",
     "region": "Id",
     "county": "County",
