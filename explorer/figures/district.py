@@ -276,8 +276,10 @@ def growth_of(panel: Panel, view: ViewState, compute: Compute, region: str, name
     rows = summary[(summary["region"].astype(str) == region) & (summary["year"] == view.year)]
     if own.empty:
         return Growth(None, (), f"{name} has no figures in both {first} and {view.year}.")
-    got = rows.set_index("index")["value"]
-    yearly = {k: 100.0 * float(annualise(got.get(k, np.nan), span)) for k in got.index}
+    got = rows.set_index("index")
+    yearly = {k: 100.0 * float(annualise(got.at[k, "value"], span)) for k in got.index}
+    low = {k: 100.0 * float(annualise(got.at[k, "lower"], span)) for k in got.index}
+    high = {k: 100.0 * float(annualise(got.at[k, "upper"], span)) for k in got.index}
     facts = (
         (f"Growth of the mean, {first}–{view.year} (% a year)", yearly.get("growth_mean")),
         ("Growth at the bottom 40 % (% a year)", yearly.get("growth_bottom40")),
@@ -288,24 +290,50 @@ def growth_of(panel: Panel, view: ViewState, compute: Compute, region: str, name
         ),
     )
     facts = tuple((label, vocabulary.figure(v, digits=2)) for label, v in facts)
-    curve = own.assign(rate=100.0 * annualise(own["rate"].to_numpy(float), span))
+    bounds = ""
+    if np.isfinite(low.get("growth_bottom40", np.nan)):
+        top = high.get("growth_bottom40", np.nan)
+        bounds = (
+            f" The shares of both years allow growth at the bottom 40 % of "
+            f"{vocabulary.figure(low['growth_bottom40'], digits=2)} % a year or more"
+            + (
+                f", up to {vocabulary.figure(top, digits=2)}."
+                if np.isfinite(top)
+                else "; they set no upper limit (the poorest incomes of the first year "
+                "could be near zero)."
+            )
+        )
+    curve = own.assign(
+        **{
+            column: 100.0 * annualise(own[column].to_numpy(float), span)
+            for column in ("rate", "lower", "upper")
+        }
+    )
     how = (
         "From the household records of both years; their sampling error is not included."
         if panel.kind == "units"
-        else f"From the {vocabulary.method_label(view.method).lower()} curves of both years "
-        "and the district means; incomes in the data's own price base."
+        else "From the Lorenz curves of both years "
+        f"({vocabulary.method_label(view.method).lower()}) and the district means; incomes "
+        "in the data's own price base."
     )
     chart = charts.growth_incidence(
-        curve[["p", "rate"]],
+        curve[["p", "rate", "lower", "upper"]],
         mean_growth=yearly.get("growth_mean", np.nan),
         title=f"Growth at each percentile, {name}, {first}–{view.year}",
         caption=vocabulary.wrap(
-            f"Shaded: the poorest 40 %. Dashed: growth of the mean. {how}", width=90
+            "Shaded grey: the poorest 40 %. Dashed: growth of the mean. "
+            + (
+                "Blue band: the growth every distribution with both years' shares allows. "
+                if panel.kind == "brackets"
+                else ""
+            )
+            + how,
+            width=90,
         ),
     )
     note = (
         "Above the dashed line the percentile gained faster than the mean. The curve is only "
-        "as good as the two Lorenz curves: read it with their fit."
+        "as good as the two Lorenz curves: read it with their fit." + bounds
     )
     return Growth(chart, facts, note)
 

@@ -99,12 +99,23 @@ def growth_figure(panel: Panel, compute: Any, key: str, view: Any) -> pd.DataFra
         getattr(view, "relative_to", "province"),
     )
     span = (summary["year"] - first).to_numpy(dtype=float)
-    rows = summary.assign(value=100.0 * annualise(summary["value"].to_numpy(float), span))
+    rows = summary.assign(
+        **{
+            column: 100.0 * annualise(summary[column].to_numpy(float), span)
+            for column in ("value", "lower", "upper")
+        }
+    )
     if key != "growth_gap_bottom40":
         return rows[rows["index"] == key].reset_index(drop=True)
     bottom = rows[rows["index"] == "growth_bottom40"].set_index(["region", "year"])
     mean = rows[rows["index"] == "growth_mean"].set_index(["region", "year"])["value"]
-    gap = bottom.assign(index=key, value=bottom["value"] - mean.reindex(bottom.index))
+    shift = mean.reindex(bottom.index)  # the growth of the mean is exact: bounds move with it
+    gap = bottom.assign(
+        index=key,
+        value=bottom["value"] - shift,
+        lower=bottom["lower"] - shift,
+        upper=bottom["upper"] - shift,
+    )
     return gap.reset_index()[list(summary.columns)]
 
 

@@ -876,10 +876,18 @@ def growth_incidence(
     93–99.
     """
     frame = curve.assign(percentile=100.0 * curve["p"])
+    frame = frame[np.isfinite(frame["rate"])]
     x = alt.X(
         "percentile:Q", title="Percentile (poorest on the left)", scale=alt.Scale(domain=[0, 100])
     )
-    y = alt.Y("rate:Q", title="Growth of income at the percentile (% a year)")
+    y_title = "Growth of income at the percentile (% a year)"
+    rates = frame["rate"].to_numpy(dtype=float)
+    # the bounds can run far off near the ends: the axis follows the curve and the band is
+    # cut at its edges (clamped), so the curve stays readable
+    pad = max(3.0, 0.5 * float(np.ptp(rates))) if len(rates) else 3.0
+    domain = [float(np.min(rates)) - pad, float(np.max(rates)) + pad] if len(rates) else None
+    scale = alt.Scale(domain=domain, clamp=True) if domain else alt.Undefined
+    y = alt.Y("rate:Q", title=y_title, scale=scale)
     line = (
         alt.Chart(_records(frame))
         .mark_line(strokeWidth=2, color=OKABE_ITO[0])
@@ -892,6 +900,16 @@ def growth_incidence(
             ],
         )
     )
+    layers = []
+    if {"lower", "upper"} <= set(frame.columns):
+        # only where both bounds are finite: an unbounded side has nothing to draw
+        banded = frame[np.isfinite(frame["lower"]) & np.isfinite(frame["upper"])]
+        if len(banded):
+            layers.append(
+                alt.Chart(_records(banded[["percentile", "lower", "upper"]]))
+                .mark_area(opacity=0.18, color=OKABE_ITO[0])
+                .encode(x=x, y=alt.Y("lower:Q", title=y_title, scale=scale), y2="upper:Q")
+            )
     rule = (
         alt.Chart(pd.DataFrame({"rate": [float(mean_growth)], "what": ["growth of the mean"]}))
         .mark_rule(strokeDash=[6, 4], color="#555555")
@@ -904,7 +922,9 @@ def growth_incidence(
         .mark_rect(opacity=0.08, color="#000000")
         .encode(x="start:Q", x2="end:Q")
     )
-    return (bottom + line + rule).properties(title=_title(title, caption), width=560, height=320)
+    return alt.layer(bottom, *layers, line, rule).properties(
+        title=_title(title, caption), width=560, height=320
+    )
 
 
 def curves_overlay(

@@ -34,6 +34,7 @@ __all__ = [
     "from_panel",
     "incidence",
     "since",
+    "slope_bounds",
     "weighted_quantiles",
 ]
 
@@ -163,6 +164,66 @@ def _pairs(keys, first_year, second_year):
     return regions, a, b
 
 
+def slope_bounds(P, L, p) -> tuple[np.ndarray, np.ndarray]:
+    """Bounds of ``L'(p)`` (the income at ``p`` over the mean) from ordered brackets.
+
+    For ``p`` a share ``t`` of the way through bracket ``j`` (mean slope ``s_j``), every
+    income of bracket ``j`` is at least the bracket's lower limit, itself at least the mean
+    of bracket ``j - 1`` (``s_{j-1}``, 0 below the first), and at most its upper limit,
+    itself at most ``s_{j+1}`` (unbounded above the last). Since the bracket's incomes
+    average ``s_j`` and rise through it,
+    ``max(s_{j-1}, (s_j - (1 - t) s_{j+1}) / t) <= L'(p) <= min(s_{j+1}, (s_j - t s_{j-1}) / (1 - t))``.
+    Every distribution with the published shares has its quantile inside (derived here from
+    the ordering of incomes across brackets; the same argument bounds the median in
+    :mod:`explorer.stats.welfare`).
+
+    Parameters
+    ----------
+    P, L : ndarray, shape (n, k + 1)
+        Cumulative population and income shares from (0, 0) to (1, 1).
+    p : array_like, shape (m,)
+        Percentiles strictly inside (0, 1).
+
+    Returns
+    -------
+    low, high : ndarray, shape (n, m)
+    """
+    p = np.asarray(p, dtype=float)
+    dp, dl = np.diff(P, axis=1), np.diff(L, axis=1)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        s = np.where(dp > 0, dl / dp, 0.0)
+    n, k = s.shape
+    j = np.clip((P[:, 1:-1, None] < p[None, None, :]).sum(axis=1), 0, k - 1)  # (n, m)
+    rows = np.arange(n)[:, None]
+    own = s[rows, j]
+    prev = np.where(j > 0, s[rows, np.clip(j - 1, 0, k - 1)], 0.0)
+    nxt = np.where(j < k - 1, s[rows, np.clip(j + 1, 0, k - 1)], np.inf)
+    start, width = P[rows, j], dp[rows, j]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        t = np.clip((p[None, :] - start) / width, 0.0, 1.0)
+        from_above = np.where(np.isinf(nxt), -np.inf, (own - (1 - t) * nxt) / t)
+        from_below = np.where(t < 1, (own - t * prev) / (1 - t), np.inf)
+    low = np.maximum(prev, np.nan_to_num(from_above, nan=-np.inf, neginf=-np.inf))
+    high = np.minimum(nxt, np.nan_to_num(from_below, nan=np.inf, posinf=np.inf))
+    return low, high
+
+
+def _bounded_rates(low_0, high_0, low_1, high_1, ratio):
+    """The range of g(p) = L_1'(p) / L_0'(p) * ratio - 1 given bounds on both slopes."""
+    with np.errstate(divide="ignore", invalid="ignore"):
+        low = low_1 / high_0 * ratio[:, None] - 1.0
+        high = high_1 / low_0 * ratio[:, None] - 1.0
+    return np.where(np.isnan(low), -1.0, low), np.where(np.isnan(high), np.inf, high)
+
+
+def _bound_below(g, cut, upper: bool):
+    """The mean of a bound of g over (0, cut]: infinite when the bound is, anywhere there."""
+    within = _FINE[None, :] <= cut + 1.0 / _U.size
+    bad = (~np.isfinite(g) & within).any(axis=1)
+    mean = _mean_below(np.where(within, g, 0.0), np.full(g.shape[0], cut))
+    return np.where(bad, np.inf if upper else -np.inf, mean)
+
+
 def _slopes(panel, method):
     """keys, means and the slopes ``L'(p)`` on GRID and on the fine grid of every
     district-year: from each fitted curve for brackets, from the sample quantiles over the
@@ -180,7 +241,7 @@ def _slopes(panel, method):
         total = np.add.reduceat(units.weights, units.starts)
         mean = np.add.reduceat(units.weights * units.values, units.starts) / total
         q_p, q_fine = weighted_quantiles(units, GRID), weighted_quantiles(units, _FINE)
-        return keys, mean, q_p / mean[:, None], q_fine / mean[:, None]
+        return keys, mean, q_p / mean[:, None], q_fine / mean[:, None], None
     if panel.kind != "brackets":
         raise fail(
             "growth incidence needs the distribution within districts: bracket shares with "
@@ -191,7 +252,26 @@ def _slopes(panel, method):
     keys = fits.keys.reset_index(drop=True)
     first = panel.data.groupby(["region", "year"], sort=False)["mean_income"].first()
     mean = first.reindex(pd.MultiIndex.from_frame(keys)).to_numpy(float)
-    return keys, mean, fits.slope(GRID), fits.slope(_FINE)
+    return keys, mean, fits.slope(GRID), fits.slope(_FINE), _panel_bounds(panel, keys)
+
+
+def _panel_bounds(panel, keys):
+    """Slope bounds of every district-year on GRID and the fine grid, rows as ``keys``."""
+    order, batches = lorenz.panel_points(panel)
+    where = {
+        (r, int(y)): i for i, (r, y) in enumerate(zip(keys["region"], keys["year"], strict=True))
+    }
+    position = np.array(
+        [where[(r, int(y))] for r, y in zip(order["region"], order["year"], strict=True)]
+    )
+    n = len(keys)
+    out = [np.full((n, GRID.size), np.nan), np.full((n, GRID.size), np.nan)]
+    out += [np.full((n, _FINE.size), np.nan), np.full((n, _FINE.size), np.nan)]
+    for rows, P, L in batches:
+        at = position[rows]
+        out[0][at], out[1][at] = slope_bounds(P, L, GRID)
+        out[2][at], out[3][at] = slope_bounds(P, L, _FINE)
+    return out
 
 
 def from_panel(panel, first_year, second_year, method: str = "auto", line=None):
@@ -232,7 +312,7 @@ def since(panel, first_year, method: str = "auto", line=None, later=None):
     """Growth incidence from ``first_year`` to every later year (or the years ``later``),
     with one fit of the panel: the tables of :func:`from_panel`, stacked by second year."""
     first_year = int(first_year)
-    keys, mean, s_p, s_fine = _slopes(panel, method)
+    keys, mean, s_p, s_fine, bounds = _slopes(panel, method)
     keys = keys.assign(region=keys["region"].astype(str), year=keys["year"].astype(int))
     years = sorted({int(y) for y in keys["year"]} - {first_year}) if later is None else later
     years = [y for y in years if y > first_year] if later is None else list(years)
@@ -257,6 +337,8 @@ def since(panel, first_year, method: str = "auto", line=None, later=None):
                 np.isnan(mean[a]) | np.isnan(mean[b]), "undefined: a district mean is missing", ""
             ).astype(object)
         summary, curve = _tables(got, regions, int(second), used, note, line)
+        if bounds is not None:
+            _put_bounds(summary, curve, bounds, a, b, mean[b] / mean[a])
         summaries.append(summary)
         curves.append(curve)
         seen = set(keys["region"][keys["year"].isin([first_year, int(second)])])
@@ -273,6 +355,24 @@ def since(panel, first_year, method: str = "auto", line=None, later=None):
 
 
 _SAMPLE_NOTE = "from the sample records; their sampling error is not included"
+
+
+def _put_bounds(summary, curve, bounds, a, b, ratio) -> None:
+    """Bounds of the curve and of the bottom 40 %'s growth from the brackets of both years;
+    the growth of the mean is exact (the means are given); the rate of pro-poor growth has
+    none here (its poorest H % is itself uncertain)."""
+    low_p, high_p = _bounded_rates(bounds[0][a], bounds[1][a], bounds[0][b], bounds[1][b], ratio)
+    low_f, high_f = _bounded_rates(bounds[2][a], bounds[3][a], bounds[2][b], bounds[3][b], ratio)
+    curve["lower"] = low_p.ravel()
+    curve["upper"] = high_p.ravel()
+    k = len(SUMMARY_KEYS)
+    lower = np.full((len(a), k), np.nan)
+    upper = np.full((len(a), k), np.nan)
+    lower[:, 0] = upper[:, 0] = ratio - 1.0
+    lower[:, 1] = _bound_below(low_f, 0.4, upper=False)
+    upper[:, 1] = _bound_below(high_f, 0.4, upper=True)
+    summary["lower"] = lower.ravel()
+    summary["upper"] = upper.ravel()
 
 
 def _tables(got, regions, second_year, method, note, line):
@@ -296,6 +396,8 @@ def _tables(got, regions, second_year, method, note, line):
             "year": int(second_year),
             "p": np.tile(GRID, len(regions)),
             "rate": got.rate.ravel(),
+            "lower": np.nan,
+            "upper": np.nan,
         }
     )
     return summary, curves

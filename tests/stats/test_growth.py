@@ -117,3 +117,54 @@ def test_since_stacks_every_later_year_with_one_fit():
     assert np.allclose(
         curves[curves["year"] == years[5]]["rate"].to_numpy(), one_curves["rate"].to_numpy()
     )
+
+
+def test_growth_bounds_from_the_brackets_contain_the_true_lognormal_growth():
+    """Two lognormal years given only by their decile shares: the true growth at every
+    percentile, g(p) = exp(σ0 z - σ1 z + ...) from the quantiles μ exp(σ z − σ²/2)
+    (Aitchison & Brown 1957, *The Lognormal Distribution*, the quantile function), lies
+    inside the bounds that the bracket means allow, and so does the true growth of the
+    bottom 40 % (its mean over (0, 0.4], by quadrature)."""
+    from explorer.data import demo
+
+    panel = demo.demo_panel()
+    years = sorted(int(y) for y in panel.data["year"].unique())[:2]
+    data = panel.data[panel.data["year"].isin(years)].copy()
+    regions = list(dict.fromkeys(data["region"].astype(str)))[:6]
+    data = data[data["region"].astype(str).isin(regions)]
+    p10 = np.linspace(0, 1, 11)
+    rng = np.random.default_rng(7)
+    truth = {}
+    for region in regions:
+        for year in years:
+            sigma = float(rng.uniform(0.4, 1.0))
+            mean = float(rng.uniform(10_000, 30_000))
+            lorenz = special.ndtr(special.ndtri(p10) - sigma)
+            lorenz[0], lorenz[-1] = 0.0, 1.0
+            rows = (data["region"].astype(str) == region) & (data["year"] == year)
+            data.loc[rows, "income_share"] = np.diff(lorenz)
+            data.loc[rows, "pop_share"] = 0.1
+            data.loc[rows, "mean_income"] = mean
+            truth[(region, year)] = (sigma, mean)
+    twin = dataclasses.replace(panel, data=data.reset_index(drop=True))
+    summary, curves = growth.from_panel(twin, years[0], years[1], "gq")
+
+    def quantile(p, sigma, mean):
+        return mean * np.exp(sigma * special.ndtri(p) - sigma**2 / 2)
+
+    for region in regions:
+        (s0, m0), (s1, m1) = truth[(region, years[0])], truth[(region, years[1])]
+        own = curves[curves["region"] == region]
+        true = quantile(own["p"].to_numpy(), s1, m1) / quantile(own["p"].to_numpy(), s0, m0) - 1
+        assert np.all(own["lower"].to_numpy() <= true + 1e-9)
+        assert np.all(true <= own["upper"].to_numpy() + 1e-9)
+        bottom = integrate.quad(
+            lambda p: quantile(p, s1, m1) / quantile(p, s0, m0) - 1, 0, 0.4, limit=200
+        )[0] / 0.4
+        row = summary[(summary["region"] == region) & (summary["index"] == "growth_bottom40")]
+        assert row["lower"].iloc[0] <= bottom <= row["upper"].iloc[0]
+        mean_row = summary[(summary["region"] == region) & (summary["index"] == "growth_mean")]
+        assert mean_row["lower"].iloc[0] == pytest.approx(m1 / m0 - 1, rel=1e-12)
+    # the bounds say something: inside the interior brackets the curve's range is finite
+    inner = curves[(curves["p"] > 0.1) & (curves["p"] < 0.9)]
+    assert np.isfinite(inner["upper"]).all() and (inner["lower"] > -1).any()
