@@ -514,7 +514,9 @@ def carry_edges(
     Returns
     -------
     DataFrame
-        ``region, year, target, weight, weight_kind``, one row per piece.
+        ``region, year, target, weight, weight_kind, present``, one row per piece, for
+        every district known in the year; ``present`` is False where the district has no
+        data that year (its targets cannot be rebuilt whole).
 
     Raises
     ------
@@ -537,7 +539,14 @@ def carry_edges(
     table = changes.table
     pieces = []
     for epoch_years, epoch in _epochs(years, change_years, to_vintage):
-        ids = keys.loc[keys["year"].isin(epoch_years), "region"].drop_duplicates()
+        # Every district known to exist in these years: those with data, and those the
+        # first change names as sources (so a source with no data is seen as missing).
+        ids = pd.concat(
+            [
+                keys.loc[keys["year"].isin(epoch_years), "region"],
+                table.loc[table["year"] == epoch[0], "source"] if epoch else pd.Series([], dtype=object),
+            ]
+        ).drop_duplicates()
         edges = pd.DataFrame(
             {"region": ids.to_numpy(dtype=object), "target": ids.to_numpy(dtype=object),
              "weight": 1.0, "weight_kind": "as published"}
@@ -563,10 +572,18 @@ def carry_edges(
             edges = edges.groupby(["region", "target"], as_index=False, sort=False).agg(
                 weight=("weight", "sum"), weight_kind=("weight_kind", "first")
             )
-        at = keys.loc[keys["year"].isin(epoch_years), ["region", "year"]]
-        pieces.append(at.merge(edges, on="region"))
+        every = pd.DataFrame({"year": np.asarray(epoch_years, dtype=np.int64)}).merge(
+            edges, how="cross"
+        )
+        pieces.append(every)
     out = pd.concat(pieces, ignore_index=True)
-    return out[out["weight"] > 0].sort_values(["year", "target", "region"], ignore_index=True)
+    out = out[out["weight"] > 0]
+    present = keys[["region", "year"]].drop_duplicates().assign(present=True)
+    out = out.merge(present, on=["region", "year"], how="left")
+    out["present"] = out["present"].fillna(False).astype(bool)
+    return out.sort_values(["year", "target", "region"], ignore_index=True)[
+        ["region", "year", "target", "weight", "weight_kind", "present"]
+    ]
 
 
 def _epochs(years: np.ndarray, change_years: np.ndarray, to_vintage: int):
