@@ -34,6 +34,7 @@ __all__ = [
     "ChangeTable",
     "Vintage",
     "carry_edges",
+    "check_panel_ids",
     "changes_from_frame",
     "order_vintages",
     "parse_spec",
@@ -593,3 +594,35 @@ def _epochs(years: np.ndarray, change_years: np.ndarray, to_vintage: int):
     for year, epoch in zip(years.tolist(), applies, strict=True):
         groups.setdefault(epoch, []).append(year)
     return [(ys, epoch) for epoch, ys in groups.items()]
+
+
+def check_panel_ids(keys: pd.DataFrame, vintages: Sequence[Vintage], file: str) -> list[Problem]:
+    """Panel districts missing from the vintage in force in their year, one problem each.
+
+    Parameters
+    ----------
+    keys : DataFrame
+        ``region, year`` of the panel.
+    vintages : sequence of Vintage
+        Dated (:func:`order_vintages`).
+    file : str
+        The panel's file name.
+    """
+    problems = []
+    pairs = keys[["region", "year"]].drop_duplicates()
+    for vintage, after in zip(vintages, [*vintages[1:], None], strict=True):
+        inside = pairs["year"] >= vintage.year
+        if after is not None:
+            inside &= pairs["year"] < after.year
+        rows = pairs[inside & ~pairs["region"].isin(set(vintage.ids))]
+        for region, years in rows.groupby("region", sort=True)["year"]:
+            problems.append(
+                Problem(
+                    f"district {region} has data in {_listing(sorted(years.tolist()), 4)} but is "
+                    f"not in {vintage.file}, the boundaries in force then (from {vintage.year})",
+                    "give the year each boundary file starts as FILE@YEAR, or correct the id",
+                    file=file,
+                    column="region",
+                )
+            )
+    return problems
