@@ -104,7 +104,10 @@ def _table(pieces: pd.DataFrame, mass: str, kind: str, source: Vintage, target: 
             "source": pieces["source"].astype(object).to_numpy(),
             "target": pieces["target"].astype(object).to_numpy(),
             "weight": (pieces[mass] / total).to_numpy(dtype=float),
-            "weight_kind": pieces.get("weight_kind", pd.Series(kind, index=pieces.index)).to_numpy(),
+            "weight_kind": pd.Series(
+                pieces["weight_kind"] if "weight_kind" in pieces.columns else kind,
+                index=pieces.index,
+            ).to_numpy(dtype=object),
             "line": np.int64(0),
         }
     ).sort_values(["source", "target"], ignore_index=True)

@@ -564,9 +564,10 @@ def carry_edges(
                 target=stepped["next"],
                 weight=stepped["weight"] * stepped["w"],
                 weight_kind=np.where(
-                    stepped["weight_kind"].isin(["as published", stepped["k"]]),
-                    stepped["k"],
-                    stepped["weight_kind"] + "+" + stepped["k"],
+                    (stepped["weight_kind"] == "as published")
+                    | (stepped["weight_kind"] == stepped["k"]),
+                    stepped["k"].astype(object),
+                    (stepped["weight_kind"] + "+" + stepped["k"]).astype(object),
                 ),
             )[["region", "target", "weight", "weight_kind"]]
             edges = pd.concat([edges[~moved], stepped], ignore_index=True)
