@@ -74,7 +74,7 @@ def carry(panel: Panel, args: argparse.Namespace) -> Panel:
     """``panel`` carried to the target vintage; its account printed on standard error."""
     from explorer.data import overlay, vintages
     from explorer.data.tables import read_table
-    from explorer.stats.harmonise import harmonise
+    from explorer.stats.harmonise import WAYS, harmonise, way
 
     specs = getattr(args, "boundaries", None) or []
     raw, file = None, ""
@@ -126,8 +126,8 @@ def carry(panel: Panel, args: argparse.Namespace) -> Panel:
         in_force = [v for v in dated if v.year <= target]
         geometry = in_force[-1].geometry if in_force else None
     result = harmonise(panel, changes, target, boundaries=geometry)
-    counts = Counter(result.carried["how"].str.split(" ").str[0])
-    said = ", ".join(f"{n} {word}" for word, n in sorted(counts.items()))
+    counts = Counter(way(result.carried["how"]))
+    said = ", ".join(f"{counts[w]} {w}" for w in WAYS if counts[w])
     print(f"carried to the {target} boundaries: {said} (district-years)", file=sys.stderr)
     for note in result.notes:
         print(f"note: {note}", file=sys.stderr)

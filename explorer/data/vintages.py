@@ -515,9 +515,10 @@ def carry_edges(
     Returns
     -------
     DataFrame
-        ``region, year, target, weight, weight_kind, present``, one row per piece, for
-        every district known in the year; ``present`` is False where the district has no
-        data that year (its targets cannot be rebuilt whole).
+        ``region, year, target, weight, weight_kind, present, epoch``, one row per piece,
+        for every district known in the year; ``present`` is False where the district has
+        no data that year (its targets cannot be rebuilt whole); ``epoch`` numbers the
+        groups of years the same changes apply to (their pieces are the same).
 
     Raises
     ------
@@ -539,7 +540,7 @@ def carry_edges(
         )
     table = changes.table
     pieces = []
-    for epoch_years, epoch in _epochs(years, change_years, to_vintage):
+    for number, (epoch_years, epoch) in enumerate(_epochs(years, change_years, to_vintage)):
         # Every district known to exist in these years: those with data, and those the
         # first change names as sources (so a source with no data is seen as missing).
         ids = pd.concat(
@@ -576,7 +577,7 @@ def carry_edges(
             )
         every = pd.DataFrame({"year": np.asarray(epoch_years, dtype=np.int64)}).merge(
             edges, how="cross"
-        )
+        ).assign(epoch=number)
         pieces.append(every)
     out = pd.concat(pieces, ignore_index=True)
     out = out[out["weight"] > 0]
@@ -584,7 +585,7 @@ def carry_edges(
     out = out.merge(present, on=["region", "year"], how="left")
     out["present"] = out["present"].fillna(False).astype(bool)
     return out.sort_values(["year", "target", "region"], ignore_index=True)[
-        ["region", "year", "target", "weight", "weight_kind", "present"]
+        ["region", "year", "target", "weight", "weight_kind", "present", "epoch"]
     ]
 
 

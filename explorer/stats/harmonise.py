@@ -37,9 +37,11 @@ from explorer.data.model import Panel, Problem, _listing, fail, fingerprint
 from explorer.data.vintages import ChangeTable, carry_edges
 from explorer.stats.decomposition.pseudo_units import pseudo_units
 
-__all__ = ["BRACKET_NOTE", "Harmonised", "harmonise"]
+__all__ = ["BRACKET_NOTE", "WAYS", "Harmonised", "harmonise", "way"]
 
 WHOLE = 1 - 1e-9  # a weight this close to 1 is a whole district
+#: How a district-year was carried, as the first words of its ``how``.
+WAYS = ("as published", "renamed", "split", "merged", "rebuilt", "not comparable", "not carried")
 BRACKET_NOTE = (
     "District-years rebuilt from several earlier districts are approximations: each source's "
     "distribution is rebuilt from its Lorenz fit on a quantile grid, the pieces are mixed by "
@@ -137,6 +139,12 @@ def harmonise(
 # --------------------------------------------------------------------------- the pieces
 
 
+def way(how: pd.Series) -> pd.Series:
+    """The kind of carrying a ``how`` sentence names: one of :data:`WAYS`."""
+    pattern = "^(" + "|".join(WAYS) + ")"
+    return how.astype(str).str.extract(pattern, expand=False).fillna("")
+
+
 def _with_population(edges: pd.DataFrame, panel: Panel) -> pd.DataFrame:
     """Each edge's source population (NaN when unknown) and weight x population."""
     data = panel.data
@@ -160,57 +168,62 @@ def _fmt(weight: pd.Series) -> pd.Series:
 
 
 def _describe(edges: pd.DataFrame) -> pd.DataFrame:
-    """Per target district-year: carried (all sources have data) and how, in words."""
-    edges = edges.sort_values(["year", "target", "mass"], ascending=[True, True, False])
-    grouped = edges.groupby(["year", "target"], sort=False)
-    summary = grouped.agg(
+    """Per target district-year: carried (all sources have data) and how, in words.
+
+    The words depend only on the pieces, which are the same in every year of an epoch, so
+    they are built once per epoch and target; only whether each source has data is per year.
+    """
+    pieces = edges.drop_duplicates(["epoch", "target", "region"]).sort_values(
+        ["epoch", "target", "weight", "region"], ascending=[True, True, False, True]
+    )
+    grouped = pieces.groupby(["epoch", "target"], sort=False)
+    words = grouped.agg(
         n=("region", "size"),
-        any_present=("present", "any"),
-        all_present=("present", "all"),
         first=("region", "first"),
         weight=("weight", "first"),
+        lightest=("weight", "min"),
         weight_kind=("weight_kind", "first"),
-    ).reset_index()
-    names = grouped["region"].agg(", ".join).to_numpy()
-    pieces = (edges["region"] + " (" + _fmt(edges["weight"]) + ")").groupby(
-        [edges["year"], edges["target"]], sort=False
-    ).agg(", ".join).to_numpy()
-    whole = grouped["weight"].min().to_numpy() >= WHOLE
-    absent = (
-        edges[~edges["present"]].groupby(["year", "target"], sort=False)["region"].agg(", ".join)
     )
-    n = summary["n"].to_numpy()
-    same = summary["first"].to_numpy() == summary["target"].to_numpy()
-    w = summary["weight"].to_numpy()
-    how = np.select(
-        [
-            (n == 1) & (w >= WHOLE) & same,
-            (n == 1) & (w >= WHOLE),
-            n == 1,
-            whole,
-        ],
-        [
-            "as published",
-            "renamed from " + summary["first"].astype(str),
-            "split from " + summary["first"].astype(str) + " (weight " + _fmt(summary["weight"]) + ")",
-            "merged from " + pd.Series(names, dtype=object),
-        ],
-        default="rebuilt from " + pd.Series(pieces, dtype=object),
+    words["names"] = grouped["region"].agg(", ".join)
+    words["pieces"] = (pieces["region"] + " (" + _fmt(pieces["weight"]) + ")").groupby(
+        [pieces["epoch"], pieces["target"]], sort=False
+    ).agg(", ".join)
+    words = words.reset_index()
+    n = words["n"].to_numpy()
+    w = words["weight"].to_numpy()
+    same = words["first"].to_numpy() == words["target"].to_numpy()
+    first = words["first"].astype(str)
+    words["how"] = np.select(
+        [(n == 1) & (w >= WHOLE) & same, (n == 1) & (w >= WHOLE), n == 1,
+         words["lightest"].to_numpy() >= WHOLE],
+        ["as published", "renamed from " + first,
+         "split from " + first + " (weight " + _fmt(words["weight"]) + ")",
+         "merged from " + words["names"].astype(str)],
+        default="rebuilt from " + words["pieces"].astype(str),
     )
-    summary["how"] = how
-    summary["whole"] = (n == 1) & (w >= WHOLE)
-    summary = summary[summary["any_present"]].reset_index(drop=True)
+    words["whole"] = (n == 1) & (w >= WHOLE)
+    words.loc[words["how"] == "as published", "weight_kind"] = "as published"
+    yearly = edges.groupby(["year", "target", "epoch"], as_index=False, sort=False).agg(
+        any_present=("present", "any"), all_present=("present", "all")
+    )
+    summary = yearly[yearly["any_present"]].merge(
+        words[["epoch", "target", "how", "weight_kind", "whole"]], on=["epoch", "target"]
+    )
     summary["carried"] = summary["all_present"]
-    missing = summary.set_index(["year", "target"]).index.map(absent.to_dict())
     gap = ~summary["carried"].to_numpy()
-    summary.loc[gap, "how"] = (
-        "not carried: "
-        + summary.loc[gap, "how"].astype(str)
-        + ", but "
-        + pd.Series(missing, index=summary.index)[gap].astype(str)
-        + " has no data this year"
-    )
-    summary.loc[summary["how"] == "as published", "weight_kind"] = "as published"
+    if gap.any():
+        absent = (
+            edges[~edges["present"]]
+            .groupby(["year", "target"], sort=False)["region"]
+            .agg(", ".join)
+            .rename("absent")
+            .reset_index()
+        )
+        summary = summary.merge(absent, on=["year", "target"], how="left")
+        summary.loc[gap, "how"] = (
+            "not carried: " + summary.loc[gap, "how"].astype(str) + ", but "
+            + summary.loc[gap, "absent"].astype(str) + " has no data this year"
+        )
     return summary[["year", "target", "carried", "how", "weight_kind", "whole"]]
 
 
