@@ -93,8 +93,9 @@ def main() -> None:
         ignore_index=True,
     ).sort_values(["region", "year", "bracket"], ignore_index=True)
     hierarchy = pd.DataFrame({"region": pd.unique(data["region"])})
-    panel = Panel("brackets", data, hierarchy=hierarchy,
-                  fingerprint=fingerprint("brackets", data, hierarchy))
+    panel = Panel(
+        "brackets", data, hierarchy=hierarchy, fingerprint=fingerprint("brackets", data, hierarchy)
+    )
     changes = changes_from_frame(frame, "generated changes")
 
     small = data[data["region"].isin(set(old[:20]))]
@@ -108,20 +109,28 @@ def main() -> None:
     seconds = time.perf_counter() - start
 
     ways = way(result.carried["how"]).value_counts().to_dict()
-    print(f"districts {n} (old) / {len(new)} (new), years 20, district-years "
-          f"{data.groupby(['region', 'year']).ngroups}")
+    print(
+        f"districts {n} (old) / {len(new)} (new), years 20, district-years "
+        f"{data.groupby(['region', 'year']).ngroups}"
+    )
     print(f"one batched auto fit of the panel: {fit_seconds:.2f} s")
-    print(f"harmonise to the {CHANGE} vintage: {seconds:.2f} s "
-          f"({seconds / fit_seconds:.2f} x the fit); carried: {ways}")
+    print(
+        f"harmonise to the {CHANGE} vintage: {seconds:.2f} s "
+        f"({seconds / fit_seconds:.2f} x the fit); carried: {ways}"
+    )
     peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
-    print(json.dumps({
-        "name": "harmonise",
-        "seconds": round(seconds, 3),
-        "peak_memory_mb": round(peak, 1),
-        "ratios": {"harmonise_over_fit": round(seconds / fit_seconds, 3)},
-        "fit_seconds": round(fit_seconds, 3),
-        "carried": {k: int(v) for k, v in ways.items()},
-    }))
+    print(
+        json.dumps(
+            {
+                "name": "harmonise",
+                "seconds": round(seconds, 3),
+                "peak_memory_mb": round(peak, 1),
+                "ratios": {"harmonise_over_fit": round(seconds / fit_seconds, 3)},
+                "fit_seconds": round(fit_seconds, 3),
+                "carried": {k: int(v) for k, v in ways.items()},
+            }
+        )
+    )
 
 
 if __name__ == "__main__":

@@ -17,8 +17,8 @@ from pathlib import Path
 
 import pandas as pd
 
-from explorer.data.model import DataError, Problem
 from explorer import cli_vintages
+from explorer.data.model import DataError, Problem
 from explorer.present import exports, vocabulary
 
 __all__ = ["COMMANDS", "EXIT_BAD_INPUT", "EXIT_FAILED", "EXIT_OK", "build_parser", "main"]
@@ -500,8 +500,7 @@ def run_check(args: argparse.Namespace) -> int:
             raise DataError(
                 [
                     Problem(
-                        "a panel carried across boundary changes is not stored in the "
-                        "workspace",
+                        "a panel carried across boundary changes is not stored in the workspace",
                         fix="store the panel with one --boundaries FILE, or write the carried "
                         "figures with 'rift compute ... --out FILE'",
                     )

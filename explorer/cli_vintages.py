@@ -148,9 +148,7 @@ def _derived(dated, args: argparse.Namespace, overlay):
             finer = gpd.read_file(args.finer)
         except Exception as exc:  # noqa: BLE001 - the edge
             raise at_the_edge(name, "finer layer", exc) from None
-        changes = overlay.dasymetric_weights(
-            old, new, finer, args.finer_column, finer_file=name
-        )
+        changes = overlay.dasymetric_weights(old, new, finer, args.finer_column, finer_file=name)
         how = f"by {args.finer_column} from {name}"
     else:
         changes = overlay.area_weights(old, new)

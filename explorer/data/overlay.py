@@ -78,8 +78,12 @@ def overlay(source: Vintage, target: Vintage, *, sliver: float = SLIVER_SHARE) -
             )
     old = _projected(source.geometry.rename(columns={"region": "source"}))
     new = _projected(target.geometry.rename(columns={"region": "target"})).to_crs(old.crs)
-    pieces = gpd.overlay(old[["source", "geometry"]], new[["target", "geometry"]],
-                         how="intersection", keep_geom_type=True)
+    pieces = gpd.overlay(
+        old[["source", "geometry"]],
+        new[["target", "geometry"]],
+        how="intersection",
+        keep_geom_type=True,
+    )
     pieces["area"] = pieces.geometry.area
     whole = old.set_index("source").geometry.area
     share = pieces["area"].to_numpy() / whole.reindex(pieces["source"]).to_numpy()
@@ -95,8 +99,15 @@ def overlay(source: Vintage, target: Vintage, *, sliver: float = SLIVER_SHARE) -
     return Overlay(kept, int(small.sum()), str(old.crs))
 
 
-def _table(pieces: pd.DataFrame, mass: str, kind: str, source: Vintage, target: Vintage,
-           found: Overlay, notes: list[Problem]) -> ChangeTable:
+def _table(
+    pieces: pd.DataFrame,
+    mass: str,
+    kind: str,
+    source: Vintage,
+    target: Vintage,
+    found: Overlay,
+    notes: list[Problem],
+) -> ChangeTable:
     total = pieces.groupby("source")[mass].transform("sum")
     table = pd.DataFrame(
         {
@@ -116,8 +127,9 @@ def _table(pieces: pd.DataFrame, mass: str, kind: str, source: Vintage, target: 
         Problem(
             f"{found.slivers} sliver(s) below {SLIVER_SHARE:.1%} of their district's area "
             f"left out of the {label} (areas in {found.crs})",
-            "" if not found.slivers else "check the pieces named in the overlay if that is more "
-            "than digitising noise",
+            ""
+            if not found.slivers
+            else "check the pieces named in the overlay if that is more than digitising noise",
             file=target.file,
             severity="warning",
         )
@@ -167,8 +179,9 @@ def area_weights(source: Vintage, target: Vintage, *, sliver: float = SLIVER_SHA
                 severity="warning",
             )
         )
-    return _table(pd.DataFrame(pieces.drop(columns="geometry")), "area", "area", source, target,
-                  found, notes)
+    return _table(
+        pd.DataFrame(pieces.drop(columns="geometry")), "area", "area", source, target, found, notes
+    )
 
 
 def dasymetric_weights(
@@ -240,8 +253,9 @@ def dasymetric_weights(
         per_piece = hits.groupby("piece")["mass"].sum()
     else:
         layer = layer.assign(whole=layer.geometry.area)
-        parts = gpd.overlay(layer, pieces[["piece", "geometry"]], how="intersection",
-                            keep_geom_type=True)
+        parts = gpd.overlay(
+            layer, pieces[["piece", "geometry"]], how="intersection", keep_geom_type=True
+        )
         share = np.where(parts["whole"] > 0, parts.geometry.area / parts["whole"], 0.0)
         per_piece = (parts["mass"] * share).groupby(parts["piece"]).sum()
     pieces["mass"] = per_piece.reindex(pieces["piece"]).fillna(0.0).to_numpy()
@@ -261,5 +275,6 @@ def dasymetric_weights(
     area_share = pieces["area"] / pieces.groupby("source")["area"].transform("sum")
     pieces["mass"] = np.where(empty, area_share, pieces["mass"])
     pieces["weight_kind"] = np.where(empty, "area", kind)
-    return _table(pd.DataFrame(pieces.drop(columns="geometry")), "mass", kind, source, target,
-                  found, notes)
+    return _table(
+        pd.DataFrame(pieces.drop(columns="geometry")), "mass", kind, source, target, found, notes
+    )

@@ -151,8 +151,10 @@ def order_vintages(vintages: Sequence[Vintage], first_year: int) -> tuple[Vintag
     DataError
         When two vintages start in the same year (two plain files, for instance).
     """
-    dated = [v if v.year is not None else Vintage(v.file, first_year, v.ids, v.geometry)
-             for v in vintages]
+    dated = [
+        v if v.year is not None else Vintage(v.file, first_year, v.ids, v.geometry)
+        for v in vintages
+    ]
     dated.sort(key=lambda v: v.year)
     problems = []
     for before, after in zip(dated, dated[1:], strict=False):
@@ -285,10 +287,30 @@ def _typed(frame: pd.DataFrame, file: str, problems: list[Problem]) -> pd.DataFr
     else:
         kind = np.full(len(frame), "stated", dtype=object)
     checks = (
-        ("year", ~np.isfinite(year) | (year != np.round(year)), "the year is missing or not a whole number", "write the first year of the new boundaries, e.g. 2011"),
-        ("from", np.array([s is None for s in source]), "the 'from' district is missing", "give the id of the district the piece came from"),
-        ("to", np.array([t is None for t in target]), "the 'to' district is missing", "give the id of the district the piece went to"),
-        ("weight", ~np.isfinite(weight), "the weight is missing or not a number", "give the share of the 'from' district that went to 'to', between 0 and 1"),
+        (
+            "year",
+            ~np.isfinite(year) | (year != np.round(year)),
+            "the year is missing or not a whole number",
+            "write the first year of the new boundaries, e.g. 2011",
+        ),
+        (
+            "from",
+            np.array([s is None for s in source]),
+            "the 'from' district is missing",
+            "give the id of the district the piece came from",
+        ),
+        (
+            "to",
+            np.array([t is None for t in target]),
+            "the 'to' district is missing",
+            "give the id of the district the piece went to",
+        ),
+        (
+            "weight",
+            ~np.isfinite(weight),
+            "the weight is missing or not a number",
+            "give the share of the 'from' district that went to 'to', between 0 and 1",
+        ),
     )
     for column, bad, message, fix in checks:
         for i in np.flatnonzero(bad):
@@ -434,7 +456,9 @@ def _check_cycles(table: pd.DataFrame, file: str, problems: list[Problem]) -> No
     """A district that ends (keeps no part of itself) and comes back through the changes."""
     keeps = set(
         zip(
-            *table.loc[(table["source"] == table["target"]) & (table["weight"] > 0), ["year", "source"]]
+            *table.loc[
+                (table["source"] == table["target"]) & (table["weight"] > 0), ["year", "source"]
+            ]
             .to_numpy()
             .T,
             strict=False,
@@ -471,13 +495,10 @@ def _check_cycles(table: pd.DataFrame, file: str, problems: list[Problem]) -> No
                 key = frozenset(n for n, _, _ in loop)
                 if key not in seen_cycles:
                     seen_cycles.add(key)
-                    route = " → ".join(
-                        [target] + [f"{n} ({y}, line {ln})" for n, y, ln in loop]
-                    )
+                    route = " → ".join([target] + [f"{n} ({y}, line {ln})" for n, y, ln in loop])
                     problems.append(
                         Problem(
-                            f"district {target} comes back to itself through the changes: "
-                            f"{route}",
+                            f"district {target} comes back to itself through the changes: {route}",
                             "a district that ends cannot come back under its old id: give the "
                             "later district a new id, or correct the rows",
                             file=file,
@@ -495,9 +516,7 @@ def _check_cycles(table: pd.DataFrame, file: str, problems: list[Problem]) -> No
 # --------------------------------------------------------------------------- carrying
 
 
-def carry_edges(
-    keys: pd.DataFrame, changes: ChangeTable, to_vintage: int
-) -> pd.DataFrame:
+def carry_edges(keys: pd.DataFrame, changes: ChangeTable, to_vintage: int) -> pd.DataFrame:
     """For each district-year, the districts of ``to_vintage`` it goes to and with what weight.
 
     Data of year Y are on the boundaries in force in Y, so every change of a year C with
@@ -546,12 +565,18 @@ def carry_edges(
         ids = pd.concat(
             [
                 keys.loc[keys["year"].isin(epoch_years), "region"],
-                table.loc[table["year"] == epoch[0], "source"] if epoch else pd.Series([], dtype=object),
+                table.loc[table["year"] == epoch[0], "source"]
+                if epoch
+                else pd.Series([], dtype=object),
             ]
         ).drop_duplicates()
         edges = pd.DataFrame(
-            {"region": ids.to_numpy(dtype=object), "target": ids.to_numpy(dtype=object),
-             "weight": 1.0, "weight_kind": "as published"}
+            {
+                "region": ids.to_numpy(dtype=object),
+                "target": ids.to_numpy(dtype=object),
+                "weight": 1.0,
+                "weight_kind": "as published",
+            }
         )
         for change in epoch:
             rows = table.loc[table["year"] == change, ["source", "target", "weight", "weight_kind"]]
@@ -575,9 +600,11 @@ def carry_edges(
             edges = edges.groupby(["region", "target"], as_index=False, sort=False).agg(
                 weight=("weight", "sum"), weight_kind=("weight_kind", "first")
             )
-        every = pd.DataFrame({"year": np.asarray(epoch_years, dtype=np.int64)}).merge(
-            edges, how="cross"
-        ).assign(epoch=number)
+        every = (
+            pd.DataFrame({"year": np.asarray(epoch_years, dtype=np.int64)})
+            .merge(edges, how="cross")
+            .assign(epoch=number)
+        )
         pieces.append(every)
     out = pd.concat(pieces, ignore_index=True)
     out = out[out["weight"] > 0]
@@ -610,7 +637,9 @@ def check_panel_ids(keys: pd.DataFrame, vintages: Sequence[Vintage], file: str) 
     file : str
         The panel's file name.
     """
-    problems = []
+    problems: list[Problem] = []
+    if not vintages:
+        return problems
     pairs = keys[["region", "year"]].drop_duplicates()
     for vintage, after in zip(vintages, [*vintages[1:], None], strict=True):
         inside = pairs["year"] >= vintage.year

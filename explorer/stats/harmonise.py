@@ -185,20 +185,29 @@ def _describe(edges: pd.DataFrame) -> pd.DataFrame:
         weight_kind=("weight_kind", "first"),
     )
     words["names"] = grouped["region"].agg(", ".join)
-    words["pieces"] = (pieces["region"] + " (" + _fmt(pieces["weight"]) + ")").groupby(
-        [pieces["epoch"], pieces["target"]], sort=False
-    ).agg(", ".join)
+    words["pieces"] = (
+        (pieces["region"] + " (" + _fmt(pieces["weight"]) + ")")
+        .groupby([pieces["epoch"], pieces["target"]], sort=False)
+        .agg(", ".join)
+    )
     words = words.reset_index()
     n = words["n"].to_numpy()
     w = words["weight"].to_numpy()
     same = words["first"].to_numpy() == words["target"].to_numpy()
     first = words["first"].astype(str)
     words["how"] = np.select(
-        [(n == 1) & (w >= WHOLE) & same, (n == 1) & (w >= WHOLE), n == 1,
-         words["lightest"].to_numpy() >= WHOLE],
-        ["as published", "renamed from " + first,
-         "split from " + first + " (weight " + _fmt(words["weight"]) + ")",
-         "merged from " + words["names"].astype(str)],
+        [
+            (n == 1) & (w >= WHOLE) & same,
+            (n == 1) & (w >= WHOLE),
+            n == 1,
+            words["lightest"].to_numpy() >= WHOLE,
+        ],
+        [
+            "as published",
+            "renamed from " + first,
+            "split from " + first + " (weight " + _fmt(words["weight"]) + ")",
+            "merged from " + words["names"].astype(str),
+        ],
         default="rebuilt from " + words["pieces"].astype(str),
     )
     words["whole"] = (n == 1) & (w >= WHOLE)
@@ -221,8 +230,11 @@ def _describe(edges: pd.DataFrame) -> pd.DataFrame:
         )
         summary = summary.merge(absent, on=["year", "target"], how="left")
         summary.loc[gap, "how"] = (
-            "not carried: " + summary.loc[gap, "how"].astype(str) + ", but "
-            + summary.loc[gap, "absent"].astype(str) + " has no data this year"
+            "not carried: "
+            + summary.loc[gap, "how"].astype(str)
+            + ", but "
+            + summary.loc[gap, "absent"].astype(str)
+            + " has no data this year"
         )
     return summary[["year", "target", "carried", "how", "weight_kind", "whole"]]
 
@@ -231,9 +243,12 @@ def _means(panel: Panel, use: pd.DataFrame, notes: list[str]) -> pd.DataFrame:
     rows = use.merge(panel.data[["region", "year", "mean_income"]], on=["region", "year"])
     known = panel.data["population"].notna().all()
     if not known:
+        # some populations missing: weigh every source by its change weight alone, as a
+        # panel without populations counts each district equally
+        rows = rows.assign(mass=rows["weight"])
         notes.append(
-            "Without populations the change weights alone weigh the sources' means, and "
-            "carried districts have no population."
+            "Without populations for every district the change weights alone weigh the "
+            "sources' means, and carried districts have no population."
         )
     rows = rows.assign(total=rows["mass"] * rows["mean_income"])
     out = rows.groupby(["target", "year"], as_index=False).agg(
@@ -250,8 +265,10 @@ def _means(panel: Panel, use: pd.DataFrame, notes: list[str]) -> pd.DataFrame:
 
 
 def _units(panel: Panel, use: pd.DataFrame) -> pd.DataFrame:
-    rows = panel.data.merge(use[["region", "year", "target", "weight"]].rename(
-        columns={"weight": "w"}), on=["region", "year"])
+    rows = panel.data.merge(
+        use[["region", "year", "target", "weight"]].rename(columns={"weight": "w"}),
+        on=["region", "year"],
+    )
     return pd.DataFrame(
         {
             "region": rows["target"].astype(object),
@@ -266,8 +283,8 @@ def _published(panel: Panel, use: pd.DataFrame, story: pd.DataFrame):
     whole = story[story["carried"] & story["whole"]]
     mixed = story["carried"] & ~story["whole"]
     story = story.copy()
-    story.loc[mixed, "how"] = "not comparable: " + story.loc[mixed, "how"] + (
-        "; published figures are never averaged"
+    story.loc[mixed, "how"] = (
+        "not comparable: " + story.loc[mixed, "how"] + ("; published figures are never averaged")
     )
     story.loc[mixed, "carried"] = False
     sole = use.merge(whole[["year", "target"]], on=["year", "target"])
@@ -283,10 +300,17 @@ def _brackets(panel: Panel, use: pd.DataFrame, method: str, notes: list[str]):
     mixed = use[counts > 1]
     # one source: its shares are the target's; only its population is scaled
     rows = data.merge(single[["region", "year", "target", "weight"]], on=["region", "year"])
-    one = rows.assign(region=rows["target"].astype(object), population=rows["population"] * rows["weight"])
+    one = rows.assign(
+        region=rows["target"].astype(object), population=rows["population"] * rows["weight"]
+    )
     one = one.drop(columns=["target", "weight"])
-    lost = pd.DataFrame({"year": pd.Series(dtype=np.int64), "target": pd.Series(dtype=object),
-                         "reason": pd.Series(dtype=object)})
+    lost = pd.DataFrame(
+        {
+            "year": pd.Series(dtype=np.int64),
+            "target": pd.Series(dtype=object),
+            "reason": pd.Series(dtype=object),
+        }
+    )
     if mixed.empty:
         return one, lost
     notes.append(BRACKET_NOTE)
@@ -309,8 +333,9 @@ def _mixtures(panel: Panel, mixed: pd.DataFrame, method: str):
     population = per_row["population"].reindex(index).to_numpy(dtype=float)
     mean = per_row["mean_income"].reindex(index).to_numpy(dtype=float)
     units = pseudo_units(fits, population, mean)
-    row_of = pd.Series(np.arange(len(units.keys)),
-                       index=pd.MultiIndex.from_frame(units.keys[["region", "year"]]))
+    row_of = pd.Series(
+        np.arange(len(units.keys)), index=pd.MultiIndex.from_frame(units.keys[["region", "year"]])
+    )
     rows = mixed.assign(
         row=row_of.reindex(pd.MultiIndex.from_frame(mixed[["region", "year"]])).to_numpy()
     )
@@ -327,8 +352,9 @@ def _mixtures(panel: Panel, mixed: pd.DataFrame, method: str):
     rows = rows[rows["_x"].isna()].drop(columns="_x")
     if rows.empty:
         return data.iloc[:0], lost
-    rows = rows.sort_values(["target", "year", "mass"], ascending=[True, True, False],
-                            ignore_index=True)
+    rows = rows.sort_values(
+        ["target", "year", "mass"], ascending=[True, True, False], ignore_index=True
+    )
     gid, groups = pd.factorize(pd.MultiIndex.from_frame(rows[["target", "year"]]), sort=False)
     src = rows["row"].to_numpy(dtype=np.int64)
     w = rows["weight"].to_numpy(dtype=float)
@@ -343,16 +369,20 @@ def _mixtures(panel: Panel, mixed: pd.DataFrame, method: str):
     bounds = bounds.sort_values(["g", "bracket"], ignore_index=True)
     g = bounds["g"].to_numpy(dtype=np.int64)
     upper = bounds.groupby("g")["pop_share"].cumsum().to_numpy()
-    upper = np.where(bounds.groupby("g")["bracket"].transform("max").to_numpy()
-                     == bounds["bracket"].to_numpy(), 1.0, upper)
+    upper = np.where(
+        bounds.groupby("g")["bracket"].transform("max").to_numpy() == bounds["bracket"].to_numpy(),
+        1.0,
+        upper,
+    )
     at_upper = _curve_at(curve_p, curve_l, g, upper)
     shares = np.diff(np.concatenate([[0.0], at_upper]))
     first = np.r_[True, g[1:] != g[:-1]]
     shares = np.where(first, at_upper, shares)
     totals_w = np.bincount(group, weights=weight, minlength=len(groups))
     totals_x = np.bincount(group, weights=weight * income, minlength=len(groups))
-    known = np.bincount(gid, weights=np.isfinite(rows["population"].to_numpy(dtype=float)),
-                        minlength=len(groups)) == np.bincount(gid, minlength=len(groups))
+    known = np.bincount(
+        gid, weights=np.isfinite(rows["population"].to_numpy(dtype=float)), minlength=len(groups)
+    ) == np.bincount(gid, minlength=len(groups))
     population = np.where(known, totals_w, np.nan)
     target = groups.get_level_values(0).to_numpy(dtype=object)
     year = groups.get_level_values(1).to_numpy(dtype=np.int64)
@@ -433,16 +463,32 @@ def _hierarchy(panel: Panel, edges: pd.DataFrame, regions: np.ndarray):
 def _panel(panel, data, carried, boundaries, extra, edges, to_vintage) -> Panel:
     from explorer.data.model import KIND_COLUMNS
 
-    sort = ["region", "year"] + (["bracket"] if panel.kind == "brackets" else
-                                 ["income"] if panel.kind == "units" else
-                                 ["measure"] if panel.kind == "published" else [])
+    sort = ["region", "year"] + (
+        ["bracket"]
+        if panel.kind == "brackets"
+        else ["income"]
+        if panel.kind == "units"
+        else ["measure"]
+        if panel.kind == "published"
+        else []
+    )
     data = data[list(KIND_COLUMNS[panel.kind])].sort_values(sort, ignore_index=True)
     data["region"] = data["region"].astype(str).astype(object)
     data["year"] = data["year"].astype(np.int64)
     regions = pd.unique(data["region"])
     hierarchy, problems = _hierarchy(panel, edges, regions)
-    aside = carried[~carried["carried"]][["region", "year", "how"]].rename(columns={"how": "reason"})
-    excluded = pd.concat([panel.excluded.assign(reason="before carrying: " + panel.excluded["reason"].astype(str)) if len(panel.excluded) else panel.excluded.iloc[:0], aside], ignore_index=True)
+    aside = carried[~carried["carried"]][["region", "year", "how"]].rename(
+        columns={"how": "reason"}
+    )
+    excluded = pd.concat(
+        [
+            panel.excluded.assign(reason="before carrying: " + panel.excluded["reason"].astype(str))
+            if len(panel.excluded)
+            else panel.excluded.iloc[:0],
+            aside,
+        ],
+        ignore_index=True,
+    )
     bounds = boundaries if boundaries is not None else None
     warnings = (*panel.warnings, *problems)
     return Panel(

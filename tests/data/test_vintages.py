@@ -112,7 +112,9 @@ def test_ids_unknown_to_either_vintage_are_named(write_text):
         "2011,Brennick,Elsby,0.4", "2011,Brennick,Elsbie,0.4"
     )
     problems = _problems(text, write_text)
-    unknown = {(p.row, p.column): p.message for p in problems if "is not in the boundaries" in p.message}
+    unknown = {
+        (p.row, p.column): p.message for p in problems if "is not in the boundaries" in p.message
+    }
     assert "Dunmore" in unknown[(6, "from")] and "vellmark_2000.geojson" in unknown[(6, "from")]
     assert "Elsbie" in unknown[(4, "to")] and "vellmark_2011.geojson" in unknown[(4, "to")]
 
@@ -170,7 +172,9 @@ def test_missing_columns_cells_and_pieces_listed_twice(write_text):
     assert (7, "from") in where and (8, "year") in where
     problems = _problems(GOOD + "2011,Ashfold,Corrow,0.1\n", write_text)
     assert any("listed twice" in p.message and p.row == 7 for p in problems)
-    problems = _problems(GOOD.replace(",area\n2011,Ashfold,Corrow", ",acreage\n2011,Ashfold,Corrow"), write_text)
+    problems = _problems(
+        GOOD.replace(",area\n2011,Ashfold,Corrow", ",acreage\n2011,Ashfold,Corrow"), write_text
+    )
     assert any(p.column == "weight_kind" and "acreage" in p.message for p in problems)
 
 
@@ -185,8 +189,9 @@ def test_chained_changes_multiply_their_weights():
         }
     )
     changes = changes_from_frame(frame, "changes.csv")
-    keys = pd.DataFrame({"region": ["Brennick", "Corrow", "Elsby", "Fallowmere"],
-                         "year": [2003, 2003, 2007, 2012]})
+    keys = pd.DataFrame(
+        {"region": ["Brennick", "Corrow", "Elsby", "Fallowmere"], "year": [2003, 2003, 2007, 2012]}
+    )
     edges = carry_edges(keys, changes, 2011)
     weights = {(r.year, r.region, r.target): r.weight for r in edges.itertuples()}
     transition_2005 = np.array([[0.3, 0.7], [0.0, 1.0]])  # Brennick, Corrow -> Elsby, Corrow
@@ -225,9 +230,7 @@ def _vintage(name, year, frame):
     return Vintage(name, year, tuple(frame["region"]), frame)
 
 
-OLD_MAP = _grid(
-    ["Ashfold", "Brennick"], [(10.0, 50.0, 10.1, 50.1), (10.1, 50.0, 10.3, 50.1)]
-)
+OLD_MAP = _grid(["Ashfold", "Brennick"], [(10.0, 50.0, 10.1, 50.1), (10.1, 50.0, 10.3, 50.1)])
 # The border moved east to 10.13 and Brennick became Elsby (south) and Fallowmere (north).
 NEW_MAP = gpd.GeoDataFrame(
     {"region": ["Ashfold", "Elsby", "Fallowmere"]},
@@ -241,7 +244,9 @@ NEW_MAP = gpd.GeoDataFrame(
 
 
 def test_area_weights_equal_overlay_areas_computed_directly():
-    found = area_weights(_vintage("old.geojson", 2000, OLD_MAP), _vintage("new.geojson", 2011, NEW_MAP))
+    found = area_weights(
+        _vintage("old.geojson", 2000, OLD_MAP), _vintage("new.geojson", 2011, NEW_MAP)
+    )
     got = {(r.source, r.target): r.weight for r in found.table.itertuples()}
     # the reference: every pair's intersection area in the equal-area CRS, by shapely
     old = OLD_MAP.to_crs(EQUAL_AREA_CRS)
@@ -270,15 +275,23 @@ def test_area_weights_equal_overlay_areas_computed_directly():
 def test_slivers_are_left_out_and_counted():
     # Ashfold's new border is off by 0.00005 degrees: a sliver of 0.05 % of Brennick
     shifted = NEW_MAP.copy()
-    shifted.geometry = [box(10.0, 50.0, 10.10005, 50.1), box(10.10005, 50.0, 10.3, 50.04),
-                        box(10.10005, 50.04, 10.3, 50.1)]
-    found = area_weights(_vintage("old.geojson", 2000, OLD_MAP), _vintage("new.geojson", 2011, shifted))
-    assert ("Brennick", "Ashfold") not in set(zip(found.table["source"], found.table["target"], strict=True))
+    shifted.geometry = [
+        box(10.0, 50.0, 10.10005, 50.1),
+        box(10.10005, 50.0, 10.3, 50.04),
+        box(10.10005, 50.04, 10.3, 50.1),
+    ]
+    found = area_weights(
+        _vintage("old.geojson", 2000, OLD_MAP), _vintage("new.geojson", 2011, shifted)
+    )
+    assert ("Brennick", "Ashfold") not in set(
+        zip(found.table["source"], found.table["target"], strict=True)
+    )
     (note,) = found.warnings
     assert note.message.startswith("1 sliver(s) below 0.1%")
     assert found.table.groupby("source")["weight"].sum().to_numpy() == pytest.approx(1.0)
-    kept = area_weights(_vintage("old.geojson", 2000, OLD_MAP), _vintage("new.geojson", 2011, shifted),
-                        sliver=0.0)
+    kept = area_weights(
+        _vintage("old.geojson", 2000, OLD_MAP), _vintage("new.geojson", 2011, shifted), sliver=0.0
+    )
     assert kept.warnings[0].message.startswith("0 sliver(s)")
 
 
@@ -293,7 +306,10 @@ def test_dasymetric_weights_are_population_shares_of_the_pieces():
         crs="EPSG:4326",
     )
     found = dasymetric_weights(
-        _vintage("old.geojson", 2000, OLD_MAP), _vintage("new.geojson", 2011, NEW_MAP), points, "population"
+        _vintage("old.geojson", 2000, OLD_MAP),
+        _vintage("new.geojson", 2011, NEW_MAP),
+        points,
+        "population",
     )
     got = {(r.source, r.target): r.weight for r in found.table.itertuples()}
     assert got[("Ashfold", "Ashfold")] == pytest.approx(1.0)
@@ -309,12 +325,17 @@ def test_a_source_with_no_population_in_the_finer_layer_falls_back_to_area():
         {"dwellings": [10.0]}, geometry=gpd.points_from_xy([10.05], [50.05]), crs="EPSG:4326"
     )
     found = dasymetric_weights(
-        _vintage("old.geojson", 2000, OLD_MAP), _vintage("new.geojson", 2011, NEW_MAP), points,
-        "dwellings", kind="dwellings",
+        _vintage("old.geojson", 2000, OLD_MAP),
+        _vintage("new.geojson", 2011, NEW_MAP),
+        points,
+        "dwellings",
+        kind="dwellings",
     )
     brennick = found.table[found.table["source"] == "Brennick"]
     assert set(brennick["weight_kind"]) == {"area"}
-    area = area_weights(_vintage("old.geojson", 2000, OLD_MAP), _vintage("new.geojson", 2011, NEW_MAP))
+    area = area_weights(
+        _vintage("old.geojson", 2000, OLD_MAP), _vintage("new.geojson", 2011, NEW_MAP)
+    )
     expected = area.table[area.table["source"] == "Brennick"]["weight"].to_numpy()
     assert brennick["weight"].to_numpy() == pytest.approx(expected)
     assert any("hold no dwellings" in w.message and "Brennick" in w.message for w in found.warnings)
@@ -331,5 +352,7 @@ def test_a_vintage_file_is_read_with_its_year_and_ids(tmp_path: Path):
 
 
 def test_a_derived_table_is_a_change_table():
-    found = area_weights(_vintage("old.geojson", 2000, OLD_MAP), _vintage("new.geojson", 2011, NEW_MAP))
+    found = area_weights(
+        _vintage("old.geojson", 2000, OLD_MAP), _vintage("new.geojson", 2011, NEW_MAP)
+    )
     assert isinstance(found, ChangeTable) and found.years == (2011,)

@@ -52,8 +52,9 @@ def _lognormal_rows(region, year, sigma, mean, population):
 
 
 def _brackets(*specs):
-    return validate(pd.concat([_lognormal_rows(*s) for s in specs], ignore_index=True),
-                    kind="brackets")
+    return validate(
+        pd.concat([_lognormal_rows(*s) for s in specs], ignore_index=True), kind="brackets"
+    )
 
 
 def _shares(panel, region, year=2008):
@@ -80,7 +81,7 @@ def _mixture_shares(components):
     total = float(np.dot(f, means))
     curve = [0.0]
     for p in DECILES[1:-1]:
-        q = optimize.brentq(lambda x: below(x) - p, 1e-9, 1e9, xtol=1e-12)
+        q = optimize.brentq(lambda x, p=p: below(x) - p, 1e-9, 1e9, xtol=1e-12)
         curve.append(float(np.dot(f, means * norm.cdf((np.log(q) - mu - sig**2) / sig))) / total)
     curve.append(1.0)
     return np.diff(curve)
@@ -91,7 +92,9 @@ def _mixture_shares(components):
 
 def test_a_split_district_keeps_its_distribution_and_shares_its_population():
     panel = _brackets(("Brennick", 2008, 0.6, 140.0, 5000))
-    result = harmonise(panel, _changes([("Brennick", "Elsby", 0.4), ("Brennick", "Fallowmere", 0.6)]), 2011)
+    result = harmonise(
+        panel, _changes([("Brennick", "Elsby", 0.4), ("Brennick", "Fallowmere", 0.6)]), 2011
+    )
     out = result.panel
     # by construction the pieces are drawn from Brennick, so each has its distribution
     for piece, share in (("Elsby", 0.4), ("Fallowmere", 0.6)):
@@ -100,8 +103,10 @@ def test_a_split_district_keeps_its_distribution_and_shares_its_population():
         assert rows["population"].iloc[0] == pytest.approx(5000 * share)
         assert rows["mean_income"].iloc[0] == 140.0
     how = dict(zip(result.carried["region"], result.carried["how"], strict=True))
-    assert how == {"Elsby": "split from Brennick (weight 0.4)",
-                   "Fallowmere": "split from Brennick (weight 0.6)"}
+    assert how == {
+        "Elsby": "split from Brennick (weight 0.4)",
+        "Fallowmere": "split from Brennick (weight 0.6)",
+    }
     assert result.notes == ()  # nothing was mixed, so nothing is approximate
 
 
@@ -109,7 +114,9 @@ def test_merging_two_pieces_of_one_distribution_gives_that_distribution_back():
     # two districts with the same lognormal distribution (sigma 0.7, mean 120): their
     # mixture is that distribution, whose decile shares are Aitchison & Brown's closed form
     panel = _brackets(("Corrow", 2008, 0.7, 120.0, 3000), ("Dunmere", 2008, 0.7, 120.0, 1000))
-    result = harmonise(panel, _changes([("Corrow", "Fallowmere", 1.0), ("Dunmere", "Fallowmere", 1.0)]), 2011)
+    result = harmonise(
+        panel, _changes([("Corrow", "Fallowmere", 1.0), ("Dunmere", "Fallowmere", 1.0)]), 2011
+    )
     assert _shares(result.panel, "Fallowmere") == pytest.approx(_shares(panel, "Corrow"), abs=5e-4)
     assert BRACKET_NOTE in result.notes
     assert result.carried["how"].tolist() == ["merged from Corrow, Dunmere"]
@@ -117,7 +124,9 @@ def test_merging_two_pieces_of_one_distribution_gives_that_distribution_back():
 
 def test_a_merger_of_different_districts_matches_the_mixture_closed_form():
     panel = _brackets(("Corrow", 2008, 0.5, 100.0, 3000), ("Dunmere", 2008, 0.8, 180.0, 1000))
-    result = harmonise(panel, _changes([("Corrow", "Fallowmere", 1.0), ("Dunmere", "Fallowmere", 1.0)]), 2011)
+    result = harmonise(
+        panel, _changes([("Corrow", "Fallowmere", 1.0), ("Dunmere", "Fallowmere", 1.0)]), 2011
+    )
     expected = _mixture_shares([(3000, 100.0, 0.5), (1000, 180.0, 0.8)])
     got = _shares(result.panel, "Fallowmere")
     # the error is the Lorenz fit's and the quantile grid's (pseudo_units: within 0.2 %)
@@ -145,14 +154,23 @@ def test_a_moved_border_rebuilds_the_gaining_district():
 
 
 def _means(rows):
-    return validate(pd.DataFrame(rows, columns=["region", "year", "mean_income", "population"]),
-                    kind="means")
+    return validate(
+        pd.DataFrame(rows, columns=["region", "year", "mean_income", "population"]), kind="means"
+    )
 
 
 def test_merged_means_are_the_pooled_mean_of_the_populations():
-    panel = _means([("Corrow", 2008, 100.0, 3000), ("Dunmere", 2008, 160.0, 1000),
-                    ("Corrow", 2009, 110.0, 3100), ("Dunmere", 2009, 150.0, 900)])
-    result = harmonise(panel, _changes([("Corrow", "Fallowmere", 1.0), ("Dunmere", "Fallowmere", 1.0)]), 2011)
+    panel = _means(
+        [
+            ("Corrow", 2008, 100.0, 3000),
+            ("Dunmere", 2008, 160.0, 1000),
+            ("Corrow", 2009, 110.0, 3100),
+            ("Dunmere", 2009, 150.0, 900),
+        ]
+    )
+    result = harmonise(
+        panel, _changes([("Corrow", "Fallowmere", 1.0), ("Dunmere", "Fallowmere", 1.0)]), 2011
+    )
     data = result.panel.data.set_index("year")
     # common practice: the pooled mean is sum(N_i mean_i) / sum(N_i)
     assert data.loc[2008, "mean_income"] == pytest.approx((3000 * 100 + 1000 * 160) / 4000)
@@ -162,7 +180,9 @@ def test_merged_means_are_the_pooled_mean_of_the_populations():
 
 def test_a_moved_border_moves_population_with_the_weights():
     panel = _means([("Ashfold", 2008, 100.0, 2000), ("Corrow", 2008, 200.0, 1000)])
-    result = harmonise(panel, _changes([("Ashfold", "Ashfold", 0.9), ("Ashfold", "Corrow", 0.1)]), 2011)
+    result = harmonise(
+        panel, _changes([("Ashfold", "Ashfold", 0.9), ("Ashfold", "Corrow", 0.1)]), 2011
+    )
     data = result.panel.data.set_index("region")
     assert data.loc["Ashfold", "population"] == pytest.approx(1800)
     assert data.loc["Ashfold", "mean_income"] == pytest.approx(100)
@@ -171,9 +191,16 @@ def test_a_moved_border_moves_population_with_the_weights():
 
 
 def test_years_already_on_the_target_boundaries_stay_as_published():
-    panel = _means([("Brennick", 2008, 100.0, 2000), ("Elsby", 2012, 130.0, 800),
-                    ("Fallowmere", 2012, 90.0, 1300)])
-    result = harmonise(panel, _changes([("Brennick", "Elsby", 0.4), ("Brennick", "Fallowmere", 0.6)]), 2011)
+    panel = _means(
+        [
+            ("Brennick", 2008, 100.0, 2000),
+            ("Elsby", 2012, 130.0, 800),
+            ("Fallowmere", 2012, 90.0, 1300),
+        ]
+    )
+    result = harmonise(
+        panel, _changes([("Brennick", "Elsby", 0.4), ("Brennick", "Fallowmere", 0.6)]), 2011
+    )
     later = result.carried[result.carried["year"] == 2012]
     assert later["how"].tolist() == ["as published", "as published"]
     data = result.panel.data.set_index(["region", "year"])
@@ -182,9 +209,16 @@ def test_years_already_on_the_target_boundaries_stay_as_published():
 
 
 def test_a_target_whose_source_has_no_data_that_year_is_not_carried():
-    panel = _means([("Corrow", 2008, 100.0, 3000), ("Dunmere", 2008, 160.0, 1000),
-                    ("Corrow", 2009, 110.0, 3100)])
-    result = harmonise(panel, _changes([("Corrow", "Fallowmere", 1.0), ("Dunmere", "Fallowmere", 1.0)]), 2011)
+    panel = _means(
+        [
+            ("Corrow", 2008, 100.0, 3000),
+            ("Dunmere", 2008, 160.0, 1000),
+            ("Corrow", 2009, 110.0, 3100),
+        ]
+    )
+    result = harmonise(
+        panel, _changes([("Corrow", "Fallowmere", 1.0), ("Dunmere", "Fallowmere", 1.0)]), 2011
+    )
     assert result.panel.years == (2008,)
     (aside,) = result.panel.excluded.itertuples()
     assert (aside.region, aside.year) == ("Fallowmere", 2009)
@@ -197,12 +231,24 @@ def test_a_target_whose_source_has_no_data_that_year_is_not_carried():
 def _units(seed=3):
     rng = np.random.default_rng(seed)
     frames = []
-    for region, county, scale in (("Ashfold", "North", 3.0), ("Brennick", "North", 3.4),
-                                  ("Corrow", "South", 3.8), ("Dunmere", "South", 3.1)):
+    for region, county, scale in (
+        ("Ashfold", "North", 3.0),
+        ("Brennick", "North", 3.4),
+        ("Corrow", "South", 3.8),
+        ("Dunmere", "South", 3.1),
+    ):
         n = 200
-        frames.append(pd.DataFrame({"region": region, "year": 2008, "county": county,
-                                    "income": rng.lognormal(scale, 0.6, n),
-                                    "weight": rng.uniform(0.5, 2.0, n)}))
+        frames.append(
+            pd.DataFrame(
+                {
+                    "region": region,
+                    "year": 2008,
+                    "county": county,
+                    "income": rng.lognormal(scale, 0.6, n),
+                    "weight": rng.uniform(0.5, 2.0, n),
+                }
+            )
+        )
     return validate(pd.concat(frames, ignore_index=True), kind="units", levels=["county"])
 
 
@@ -224,7 +270,9 @@ def _theil_between(incomes, weights, groups):
     frame = pd.DataFrame({"y": incomes, "w": weights, "g": groups})
     mu = np.average(frame["y"], weights=frame["w"])
     sizes = frame.groupby("g")["w"].sum()
-    means = frame.groupby("g").apply(lambda f: np.average(f["y"], weights=f["w"]), include_groups=False)
+    means = frame.groupby("g").apply(
+        lambda f: np.average(f["y"], weights=f["w"]), include_groups=False
+    )
     share = sizes * means / (sizes * means).sum()
     return float((share * np.log(means / mu)).sum())
 
@@ -233,24 +281,37 @@ def test_the_between_term_of_merged_districts_is_the_coarser_between_term_before
     # Ashfold+Brennick merge into Elsby, Corrow+Dunmere into Fallowmere: exactly the
     # counties North and South of the panel before the merger (Shorrocks 1980)
     panel = _units()
-    changes = _changes([("Ashfold", "Elsby", 1.0), ("Brennick", "Elsby", 1.0),
-                        ("Corrow", "Fallowmere", 1.0), ("Dunmere", "Fallowmere", 1.0)])
+    changes = _changes(
+        [
+            ("Ashfold", "Elsby", 1.0),
+            ("Brennick", "Elsby", 1.0),
+            ("Corrow", "Fallowmere", 1.0),
+            ("Dunmere", "Fallowmere", 1.0),
+        ]
+    )
     merged = harmonise(panel, changes, 2011).panel
     after = decompose.table(merged, by=(), index="theil_t")
     before = decompose.table(panel, by=("county",), index="theil_t")
 
     def pick(table, level):
-        rows = table[(table["level"] == level) & (table["group"] == "(all)")
-                     & (table["component"] == "between")]
+        rows = table[
+            (table["level"] == level)
+            & (table["group"] == "(all)")
+            & (table["component"] == "between")
+        ]
         return float(rows["value"].iloc[0])
 
-    direct = _theil_between(panel.data["income"], panel.data["weight"],
-                            panel.data["region"].map({"Ashfold": "N", "Brennick": "N",
-                                                      "Corrow": "S", "Dunmere": "S"}))
+    direct = _theil_between(
+        panel.data["income"],
+        panel.data["weight"],
+        panel.data["region"].map({"Ashfold": "N", "Brennick": "N", "Corrow": "S", "Dunmere": "S"}),
+    )
     assert pick(after, "region") == pytest.approx(pick(before, "county"), rel=1e-12)
     assert pick(after, "region") == pytest.approx(direct, rel=1e-12)
     assert merged.hierarchy.set_index("region")["county"].to_dict() == {
-        "Elsby": "North", "Fallowmere": "South"}
+        "Elsby": "North",
+        "Fallowmere": "South",
+    }
 
 
 # ------------------------------------------------------------------------ published
@@ -258,13 +319,24 @@ def test_the_between_term_of_merged_districts_is_the_coarser_between_term_before
 
 def test_published_figures_are_carried_only_when_whole():
     panel = validate(
-        pd.DataFrame({"region": ["Ashfold", "Brennick", "Corrow", "Dunmere"],
-                      "year": 2008, "gini": [0.31, 0.35, 0.29, 0.40]}),
+        pd.DataFrame(
+            {
+                "region": ["Ashfold", "Brennick", "Corrow", "Dunmere"],
+                "year": 2008,
+                "gini": [0.31, 0.35, 0.29, 0.40],
+            }
+        ),
         kind="published",
     )
-    changes = _changes([("Ashfold", "Ashfold", 1.0), ("Brennick", "Elsby", 0.4),
-                        ("Brennick", "Fallowmere", 0.6), ("Corrow", "Fallowmere", 1.0),
-                        ("Dunmere", "Dunmere", 1.0)])
+    changes = _changes(
+        [
+            ("Ashfold", "Ashfold", 1.0),
+            ("Brennick", "Elsby", 0.4),
+            ("Brennick", "Fallowmere", 0.6),
+            ("Corrow", "Fallowmere", 1.0),
+            ("Dunmere", "Dunmere", 1.0),
+        ]
+    )
     result = harmonise(panel, changes, 2011)
     values = result.panel.data.set_index("region")["value"].to_dict()
     assert values == {"Ashfold": 0.31, "Dunmere": 0.40}  # never averaged
@@ -276,8 +348,9 @@ def test_published_figures_are_carried_only_when_whole():
 
 
 def test_a_renamed_district_keeps_its_published_figure():
-    panel = validate(pd.DataFrame({"region": ["Dunmere"], "year": [2008], "gini": [0.4]}),
-                     kind="published")
+    panel = validate(
+        pd.DataFrame({"region": ["Dunmere"], "year": [2008], "gini": [0.4]}), kind="published"
+    )
     result = harmonise(panel, _changes([("Dunmere", "Fallowmere", 1.0)]), 2011)
     assert result.panel.data["region"].tolist() == ["Fallowmere"]
     assert result.carried["how"].tolist() == ["renamed from Dunmere"]
@@ -285,6 +358,8 @@ def test_a_renamed_district_keeps_its_published_figure():
 
 def test_the_result_is_a_panel_of_the_same_kind():
     panel = _means([("Corrow", 2008, 100.0, 3000), ("Dunmere", 2008, 160.0, 1000)])
-    result = harmonise(panel, _changes([("Corrow", "Fallowmere", 1.0), ("Dunmere", "Fallowmere", 1.0)]), 2011)
+    result = harmonise(
+        panel, _changes([("Corrow", "Fallowmere", 1.0), ("Dunmere", "Fallowmere", 1.0)]), 2011
+    )
     assert isinstance(result.panel, Panel) and result.panel.kind == "means"
     assert result.panel.fingerprint != panel.fingerprint and len(result.panel.fingerprint) == 16
