@@ -112,7 +112,6 @@ def harmonise(
     live = story[story["carried"]]
     use = edges.merge(live[["year", "target"]], on=["year", "target"])
     notes: list[str] = []
-    extra_excluded = []
     if panel.kind == "means":
         data = _means(panel, use, notes)
     elif panel.kind == "units":
@@ -132,7 +131,7 @@ def harmonise(
     carried = story.rename(columns={"target": "region"})[
         ["region", "year", "carried", "how", "weight_kind"]
     ].sort_values(["region", "year"], ignore_index=True)
-    out = _panel(panel, data, carried, boundaries, extra_excluded, edges, int(to_vintage))
+    out = _panel(panel, data, carried, boundaries, edges, int(to_vintage))
     return Harmonised(out, carried, int(to_vintage), tuple(notes))
 
 
@@ -438,6 +437,7 @@ def _hierarchy(panel: Panel, edges: pd.DataFrame, regions: np.ndarray):
     if not panel.levels:
         return pd.DataFrame({"region": regions}), []
     lookup = panel.hierarchy.set_index("region")
+    edges = edges[edges["present"]]
     best = edges.sort_values("mass", ascending=False).drop_duplicates("target")
     out = pd.DataFrame({"region": regions})
     problems = []
@@ -460,18 +460,12 @@ def _hierarchy(panel: Panel, edges: pd.DataFrame, regions: np.ndarray):
     return out, problems
 
 
-def _panel(panel, data, carried, boundaries, extra, edges, to_vintage) -> Panel:
+def _panel(panel, data, carried, boundaries, edges, to_vintage) -> Panel:
+    """The carried data as a Panel: sorted as the contract says, levels and set-asides."""
     from explorer.data.model import KIND_COLUMNS
 
-    sort = ["region", "year"] + (
-        ["bracket"]
-        if panel.kind == "brackets"
-        else ["income"]
-        if panel.kind == "units"
-        else ["measure"]
-        if panel.kind == "published"
-        else []
-    )
+    inner = {"brackets": ["bracket"], "units": ["income"], "published": ["measure"]}
+    sort = ["region", "year", *inner.get(panel.kind, [])]
     data = data[list(KIND_COLUMNS[panel.kind])].sort_values(sort, ignore_index=True)
     data["region"] = data["region"].astype(str).astype(object)
     data["year"] = data["year"].astype(np.int64)
@@ -489,7 +483,7 @@ def _panel(panel, data, carried, boundaries, extra, edges, to_vintage) -> Panel:
         ],
         ignore_index=True,
     )
-    bounds = boundaries if boundaries is not None else None
+    bounds = boundaries
     warnings = (*panel.warnings, *problems)
     return Panel(
         kind=panel.kind,

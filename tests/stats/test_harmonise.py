@@ -363,3 +363,30 @@ def test_the_result_is_a_panel_of_the_same_kind():
     )
     assert isinstance(result.panel, Panel) and result.panel.kind == "means"
     assert result.panel.fingerprint != panel.fingerprint and len(result.panel.fingerprint) == 16
+
+
+def test_rebuilt_shares_are_a_valid_lorenz_curve():
+    # common practice (Gastwirth 1972): bracket shares from a Lorenz curve are positive,
+    # sum to 1 and have non-decreasing bracket means; validate checks exactly these rules
+    panel = _brackets(
+        ("Ashfold", 2008, 0.3, 90.0, 2000),
+        ("Corrow", 2008, 1.1, 300.0, 500),
+        ("Dunmere", 2008, 0.6, 150.0, 800),
+    )
+    changes = _changes(
+        [("Ashfold", "Ashfold", 0.7), ("Ashfold", "Corrow", 0.3), ("Dunmere", "Corrow", 1.0)]
+    )
+    out = harmonise(panel, changes, 2011).panel
+    again = validate(out.data, kind="brackets")
+    assert again.excluded.empty and again.regions == ("Ashfold", "Corrow")
+
+
+def test_a_target_drawing_on_two_counties_is_put_in_its_largest_sources_with_a_warning():
+    panel = _units()
+    changes = _changes([("Brennick", "Elsby", 1.0), ("Corrow", "Elsby", 1.0)])
+    out = harmonise(panel, changes, 2011).panel
+    (warning,) = [w for w in out.warnings if "more than one county" in w.message]
+    assert "Elsby" in warning.message and warning.severity == "warning"
+    weights = panel.data.groupby("region")["weight"].sum()
+    larger = "North" if weights["Brennick"] >= weights["Corrow"] else "South"
+    assert out.hierarchy.set_index("region").loc["Elsby", "county"] == larger
