@@ -249,7 +249,7 @@ def build_parser() -> argparse.ArgumentParser:
     _out_argument(decompose)
 
     spatial = commands.add_parser("spatial", help="spatial clustering of an index or mean")
-    _panel_arguments(spatial, year=False)
+    _panel_arguments(spatial, year=False, vintages=True)
     spatial.add_argument("--index", default="gini", help="index key, or mean_income")
     spatial.add_argument(
         "--year",

@@ -79,7 +79,7 @@ def carry(panel: Panel, args: argparse.Namespace) -> Panel:
     specs = getattr(args, "boundaries", None) or []
     raw, file = None, ""
     hint = set(panel.regions)
-    if args.changes:
+    if getattr(args, "changes", None):
         file = Path(args.changes).name
         raw = read_table(args.changes, file_label=file)
         for column in ("from", "to"):
@@ -118,7 +118,7 @@ def carry(panel: Panel, args: argparse.Namespace) -> Panel:
         raise DataError(problems)
     for warning in changes.warnings:
         print(f"note: {warning.message}", file=sys.stderr)
-    target = args.to_vintage
+    target = getattr(args, "to_vintage", None)
     if target is None:
         target = dated[-1].year if dated else max(changes.years)
     geometry = None
@@ -137,7 +137,7 @@ def carry(panel: Panel, args: argparse.Namespace) -> Panel:
 def _derived(dated, args: argparse.Namespace, overlay):
     """Weights from overlaying the two vintages, said on standard error."""
     old, new = dated
-    if args.finer:
+    if getattr(args, "finer", None):
         import geopandas as gpd
 
         from explorer.data.files import at_the_edge, check_file

@@ -586,3 +586,22 @@ def test_a_change_table_is_never_overwritten(tmp_path, capsys):
     )
     assert code == 2 and "one of the input files" in err
     assert p["changes"].read_bytes() == before
+
+
+def test_carrying_back_to_an_earlier_vintage_is_refused_with_the_year_to_choose(tmp_path, capsys):
+    p = _vellmark(tmp_path)
+    code, out, err = run(
+        capsys,
+        "check",
+        str(p["panel"]),
+        "--boundaries",
+        f"{p['old']}@2000",
+        "--boundaries",
+        f"{p['new']}@2011",
+        "--changes",
+        str(p["changes"]),
+        "--to-vintage",
+        "2005",
+    )
+    assert code == 2 and out == ""
+    assert "choose a target vintage of 2011 or later" in err

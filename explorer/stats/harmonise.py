@@ -484,7 +484,12 @@ def _panel(panel, data, carried, boundaries, edges, to_vintage) -> Panel:
         ignore_index=True,
     )
     bounds = boundaries
-    warnings = (*panel.warnings, *problems)
+    # the panel's own notes are about its districts as read, before carrying
+    before = tuple(
+        replace(w, message=f"in the panel as read (before carrying): {w.message}")
+        for w in panel.warnings
+    )
+    warnings = (*before, *problems)
     return Panel(
         kind=panel.kind,
         data=data,
