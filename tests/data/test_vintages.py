@@ -356,3 +356,31 @@ def test_a_derived_table_is_a_change_table():
         _vintage("old.geojson", 2000, OLD_MAP), _vintage("new.geojson", 2011, NEW_MAP)
     )
     assert isinstance(found, ChangeTable) and found.years == (2011,)
+
+
+def test_a_finer_layer_of_small_areas_is_split_by_area_inside_each_small_area():
+    # common practice (areal weighting inside the finer unit, Goodchild & Lam 1980): a small
+    # area's population is shared over the pieces it overlaps in proportion to area
+    blocks = gpd.GeoDataFrame(
+        {"population": [400.0, 600.0]},
+        geometry=[box(10.1, 50.0, 10.16, 50.04), box(10.16, 50.0, 10.3, 50.1)],
+        crs="EPSG:4326",
+    )
+    found = dasymetric_weights(
+        _vintage("old.geojson", 2000, OLD_MAP),
+        _vintage("new.geojson", 2011, NEW_MAP),
+        blocks,
+        "population",
+        sliver=0.0,
+    )
+    got = {(r.source, r.target): r.weight for r in found.table.itertuples()}
+    # block 1 lies across the moved border at 10.13, half of it (by longitude, one band of
+    # latitude: Snyder 1987) in Ashfold, half in Elsby; block 2 splits by latitude band
+    lower = np.sin(np.radians(50.04)) - np.sin(np.radians(50.0))
+    whole = np.sin(np.radians(50.1)) - np.sin(np.radians(50.0))
+    elsby = 200 + 600 * lower / whole
+    assert got[("Brennick", "Ashfold")] == pytest.approx(200 / 1000, rel=1e-4)
+    assert got[("Brennick", "Elsby")] == pytest.approx(elsby / 1000, rel=1e-4)
+    assert got[("Brennick", "Fallowmere")] == pytest.approx(1 - (200 + elsby) / 1000, rel=1e-4)
+    # Ashfold holds no block: its weights fall back to area
+    assert set(found.table.loc[found.table["source"] == "Ashfold", "weight_kind"]) == {"area"}
