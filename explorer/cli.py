@@ -17,6 +17,7 @@ from pathlib import Path
 
 import pandas as pd
 
+from explorer import cli_vintages
 from explorer.data.model import DataError, Problem
 from explorer.present import exports, vocabulary
 
@@ -33,7 +34,11 @@ DEMO = "demo"
 
 
 def _panel_arguments(
-    parser: argparse.ArgumentParser, *, boundaries: bool = True, year: bool = True
+    parser: argparse.ArgumentParser,
+    *,
+    boundaries: bool = True,
+    year: bool = True,
+    vintages: bool = False,
 ) -> None:
     parser.add_argument(
         "panel", help="panel file (CSV, Parquet, Excel), or 'demo' for the built-in province"
@@ -41,8 +46,11 @@ def _panel_arguments(
     if boundaries:
         parser.add_argument(
             "--boundaries",
-            metavar="FILE",
-            help="district boundaries (GeoJSON, GeoPackage, zipped Shapefile, GeoParquet)",
+            metavar="FILE[@YEAR]",
+            action="append",
+            help="district boundaries (GeoJSON, GeoPackage, zipped Shapefile, GeoParquet); "
+            "repeat as FILE@YEAR for boundaries valid from YEAR (a plain FILE: from the "
+            "first year), with --changes, to carry the panel across boundary changes",
         )
     parser.add_argument(
         "--kind",
@@ -63,6 +71,8 @@ def _panel_arguments(
     )
     _office_arguments(parser, year=year)
     if boundaries:
+        if vintages:
+            cli_vintages.add_arguments(parser)
         parser.add_argument("--layer", help="GeoPackage layer to read")
         parser.add_argument(
             "--boundary-id", metavar="COL", help="boundary attribute holding the district id"
@@ -178,7 +188,7 @@ def build_parser() -> argparse.ArgumentParser:
     )
 
     check = commands.add_parser("check", help="validate a panel and its boundaries")
-    _panel_arguments(check)
+    _panel_arguments(check, vintages=True)
     check.add_argument(
         "--save",
         action="store_true",
@@ -187,7 +197,7 @@ def build_parser() -> argparse.ArgumentParser:
     check.add_argument("--data", metavar="DIR", help="workspace directory for --save")
 
     compute = commands.add_parser("compute", help="indices for every district and year")
-    _panel_arguments(compute)
+    _panel_arguments(compute, vintages=True)
     compute.add_argument(
         "--method",
         default="auto",
@@ -226,7 +236,7 @@ def build_parser() -> argparse.ArgumentParser:
     decompose = commands.add_parser(
         "decompose", help="inequality within and between districts and higher levels"
     )
-    _panel_arguments(decompose)
+    _panel_arguments(decompose, vintages=True)
     decompose.add_argument(
         "--by", default=None, help="higher level column(s), outermost first, e.g. county"
     )
@@ -239,7 +249,7 @@ def build_parser() -> argparse.ArgumentParser:
     _out_argument(decompose)
 
     spatial = commands.add_parser("spatial", help="spatial clustering of an index or mean")
-    _panel_arguments(spatial, year=False)
+    _panel_arguments(spatial, year=False, vintages=True)
     spatial.add_argument("--index", default="gini", help="index key, or mean_income")
     spatial.add_argument(
         "--year",
@@ -274,12 +284,15 @@ def _load(args: argparse.Namespace):
 
     if args.panel == DEMO:
         panel = readers.demo_panel(args.kind or "brackets")
+        if cli_vintages.wanted(args):
+            panel = cli_vintages.carry(panel, args)
         _report_set_aside(panel)
         return panel
     column_map = readers.parse_column_map(args.map) if args.map else None
+    carrying = cli_vintages.wanted(args)
     panel = readers.load_panel(
         args.panel,
-        getattr(args, "boundaries", None),
+        None if carrying else _plain_boundaries(args),
         kind=args.kind,
         column_map=column_map,
         boundary_id=getattr(args, "boundary_id", None),
@@ -292,8 +305,18 @@ def _load(args: argparse.Namespace):
         crosswalk=getattr(args, "crosswalk", None),
         levels=_levels(getattr(args, "levels", None)),
     )
+    if carrying:
+        panel = cli_vintages.carry(panel, args)
     _report_set_aside(panel)
     return panel
+
+
+def _plain_boundaries(args: argparse.Namespace) -> str | None:
+    """The one boundary file of a panel without boundary changes (a ``@YEAR`` is dropped)."""
+    from explorer.data.vintages import parse_spec
+
+    specs = getattr(args, "boundaries", None) or []
+    return parse_spec(specs[0])[0] if specs else None
 
 
 def _report_set_aside(panel) -> None:
@@ -307,10 +330,11 @@ def _report_set_aside(panel) -> None:
 
 def _inputs(args: argparse.Namespace) -> set[Path]:
     paths = set()
-    for name in ("panel", "boundaries", "view", "population", "crosswalk"):
+    for name in ("panel", "view", "population", "crosswalk"):
         value = getattr(args, name, None)
         if value and value != DEMO:
             paths.add(Path(value).resolve())
+    paths.update(p.resolve() for p in cli_vintages.paths(args))
     return paths
 
 
@@ -472,8 +496,18 @@ def run_check(args: argparse.Namespace) -> int:
             raise DataError(
                 [Problem("the demo is built in and needs no saving", fix="save your own files")]
             )
+        if cli_vintages.wanted(args):
+            raise DataError(
+                [
+                    Problem(
+                        "a panel carried across boundary changes is not stored in the workspace",
+                        fix="store the panel with one --boundaries FILE, or write the carried "
+                        "figures with 'rift compute ... --out FILE'",
+                    )
+                ]
+            )
         workspace = Workspace(Path(args.data)) if args.data else Workspace()
-        extra = (args.boundaries, args.population, args.crosswalk)
+        extra = (_plain_boundaries(args), args.population, args.crosswalk)
         sources = [Path(args.panel)] + [Path(p) for p in extra if p]
         options = {
             "kind": args.kind,

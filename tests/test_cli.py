@@ -428,3 +428,180 @@ def test_report_names_every_district_year_set_aside_on_stderr(tmp_path, capsys):
     assert code == 0, err
     assert "set aside: district CAL03, year 2015:" in err
     assert f"1 of {46 * 18} district-year(s) set aside" in err
+
+
+# --------------------------------------------------------------------------- boundary changes
+# An invented province, Vellmark: Ashfold and Brennick in 2000; from 2011 the border has
+# moved east and Brennick is split into Elsby (south) and Fallowmere (north).
+
+
+def _vellmark(tmp_path: Path) -> dict[str, Path]:
+    import geopandas as gpd
+    from shapely.geometry import box
+
+    old = gpd.GeoDataFrame(
+        {"region": ["Ashfold", "Brennick"]},
+        geometry=[box(10.0, 50.0, 10.1, 50.1), box(10.1, 50.0, 10.3, 50.1)],
+        crs="EPSG:4326",
+    )
+    new = gpd.GeoDataFrame(
+        {"region": ["Ashfold", "Elsby", "Fallowmere"]},
+        geometry=[
+            box(10.0, 50.0, 10.13, 50.1),
+            box(10.13, 50.0, 10.3, 50.05),
+            box(10.13, 50.05, 10.3, 50.1),
+        ],
+        crs="EPSG:4326",
+    )
+    paths = {"old": tmp_path / "vellmark_2000.geojson", "new": tmp_path / "vellmark_2011.geojson"}
+    old.to_file(paths["old"], driver="GeoJSON")
+    new.to_file(paths["new"], driver="GeoJSON")
+    rows = [
+        ("Ashfold", 2009, 100.0, 2000),
+        ("Brennick", 2009, 150.0, 4000),
+        ("Ashfold", 2012, 104.0, 2100),
+        ("Elsby", 2012, 120.0, 1500),
+        ("Fallowmere", 2012, 170.0, 2300),
+    ]
+    paths["panel"] = tmp_path / "means.csv"
+    pd.DataFrame(rows, columns=["region", "year", "mean_income", "population"]).to_csv(
+        paths["panel"], index=False
+    )
+    paths["changes"] = tmp_path / "changes.csv"
+    paths["changes"].write_text(
+        "year,from,to,weight\n2011,Ashfold,Ashfold,1\n2011,Brennick,Ashfold,0.15\n"
+        "2011,Brennick,Elsby,0.4\n2011,Brennick,Fallowmere,0.45\n"
+    )
+    return paths
+
+
+def test_check_carries_a_panel_across_boundary_changes(tmp_path, capsys):
+    p = _vellmark(tmp_path)
+    code, out, err = run(
+        capsys,
+        "check",
+        str(p["panel"]),
+        "--boundaries",
+        f"{p['old']}@2000",
+        "--boundaries",
+        f"{p['new']}@2011",
+        "--changes",
+        str(p["changes"]),
+    )
+    assert code == 0, err
+    assert "districts: 3 (6 district-years)" in out
+    assert "boundaries: 3 districts matched" in out
+    assert "carried to the 2011 boundaries:" in err and "1 rebuilt" in err and "2 split" in err
+
+
+def test_decompose_on_the_target_vintage_uses_its_districts(tmp_path, capsys):
+    p = _vellmark(tmp_path)
+    out_file = tmp_path / "split.csv"
+    code, _, err = run(
+        capsys,
+        "decompose",
+        str(p["panel"]),
+        "--boundaries",
+        f"{p['old']}@2000",
+        "--boundaries",
+        f"{p['new']}@2011",
+        "--changes",
+        str(p["changes"]),
+        "--out",
+        str(out_file),
+    )
+    assert code == 0, err
+    table = pd.read_csv(out_file)
+    assert set(table["year"]) == {2009, 2012}
+    # with district means only, the between-district Theil of 2009 is that of the carried
+    # means, Ashfold 1000+600 people ... written out (Theil 1967, between-group term)
+    pops = np.array([2000 + 0.15 * 4000, 0.4 * 4000, 0.45 * 4000])
+    means = np.array([(2000 * 100 + 600 * 150) / 2600, 150.0, 150.0])
+    mu = np.dot(pops, means) / pops.sum()
+    theil = float(np.dot(pops * means / (pops * means).sum(), np.log(means / mu)))
+    total = table[(table["year"] == 2009) & (table["component"] == "total")]["value"].iloc[0]
+    assert total == pytest.approx(theil, rel=1e-9)
+
+
+def test_two_vintages_without_a_change_table_get_area_weights_said_on_stderr(tmp_path, capsys):
+    p = _vellmark(tmp_path)
+    out_file = tmp_path / "indices.csv"
+    code, _, err = run(
+        capsys,
+        "compute",
+        str(p["panel"]),
+        "--boundaries",
+        f"{p['old']}@2000",
+        "--boundaries",
+        f"{p['new']}@2011",
+        "--out",
+        str(out_file),
+    )
+    assert code == 0, err
+    assert (
+        "no change table: weights by area derived by overlaying vellmark_2000.geojson (2000)" in err
+    )
+    assert "sliver(s)" in err
+
+
+def test_a_bad_change_table_exits_two_naming_line_and_column(tmp_path, capsys):
+    p = _vellmark(tmp_path)
+    p["changes"].write_text(
+        "year,from,to,weight\n2011,Ashfold,Ashfold,1\n2011,Brennick,Ashfold,0.15\n"
+        "2011,Brennick,Elsby,0.4\n2011,Brennick,Fallowmere,0.35\n"
+    )
+    code, _, err = run(
+        capsys,
+        "check",
+        str(p["panel"]),
+        "--boundaries",
+        f"{p['old']}@2000",
+        "--boundaries",
+        f"{p['new']}@2011",
+        "--changes",
+        str(p["changes"]),
+    )
+    assert code == 2
+    assert (
+        "changes.csv, line 3, column 'weight': the weights of district Brennick in 2011 sum to 0.9"
+        in err
+    )
+
+
+def test_a_change_table_is_never_overwritten(tmp_path, capsys):
+    p = _vellmark(tmp_path)
+    before = p["changes"].read_bytes()
+    code, _, err = run(
+        capsys,
+        "compute",
+        str(p["panel"]),
+        "--boundaries",
+        f"{p['old']}@2000",
+        "--boundaries",
+        f"{p['new']}@2011",
+        "--changes",
+        str(p["changes"]),
+        "--out",
+        str(p["changes"].with_suffix(".csv")),
+    )
+    assert code == 2 and "one of the input files" in err
+    assert p["changes"].read_bytes() == before
+
+
+def test_carrying_back_to_an_earlier_vintage_is_refused_with_the_year_to_choose(tmp_path, capsys):
+    p = _vellmark(tmp_path)
+    code, out, err = run(
+        capsys,
+        "check",
+        str(p["panel"]),
+        "--boundaries",
+        f"{p['old']}@2000",
+        "--boundaries",
+        f"{p['new']}@2011",
+        "--changes",
+        str(p["changes"]),
+        "--to-vintage",
+        "2005",
+    )
+    assert code == 2 and out == ""
+    assert "choose a target vintage of 2011 or later" in err
