@@ -290,6 +290,12 @@ def features_for_display(
         rounded[lost] = shapely.set_precision(geoms[lost], grid)
     oriented = shapely.orient_polygons(rounded, exterior_cw=True)
     geometry_json = shapely.to_geojson(oriented)
+    # where a district's name goes on the map: a point surely inside it (a centroid can
+    # fall outside a crescent-shaped district)
+    inside = np.full((len(geoms), 2), np.nan)
+    if present.any():
+        points = shapely.point_on_surface(geoms[present])
+        inside[present] = np.round(shapely.get_coordinates(points), digits)
 
     table = pd.DataFrame({"region": frame["region"].astype(str).to_numpy()})
     for column in ("name", "county"):
@@ -323,7 +329,11 @@ def features_for_display(
             {
                 "type": "Feature",
                 "geometry": None if geometry is None else json.loads(geometry),
-                "properties": {key: _plain(columns[key][i]) for key in keys},
+                "properties": {
+                    **{key: _plain(columns[key][i]) for key in keys},
+                    "label_x": _plain(inside[i, 0]),
+                    "label_y": _plain(inside[i, 1]),
+                },
             }
         )
     return features
@@ -352,6 +362,32 @@ def _geo_base(features: Sequence[dict], selected: Iterable[str], lifted: Sequenc
     data = alt.Data(values=_with_picked(features, selected))
     chart = alt.Chart(data).mark_geoshape(stroke="#ffffff", strokeWidth=0.6)
     return chart.transform_calculate(**{key: f"datum.properties.{key}" for key in lifted})
+
+
+def _name_labels(features: Sequence[dict], selected: Iterable[str]) -> alt.Chart | None:
+    """A text layer naming the chosen districts at a point inside each (None without any)."""
+    chosen = {str(s) for s in selected}
+    rows = [
+        {
+            "name": str(f["properties"].get("name")),
+            "label_x": f["properties"].get("label_x"),
+            "label_y": f["properties"].get("label_y"),
+        }
+        for f in features
+        if str((f.get("properties") or {}).get("region")) in chosen
+        and f["properties"].get("label_x") is not None
+    ]
+    if not rows:
+        return None
+    return (
+        alt.Chart(alt.Data(values=rows))
+        .mark_text(fontSize=12, fontWeight="bold", stroke="#ffffff", strokeWidth=3, dy=-2)
+        .encode(longitude="label_x:Q", latitude="label_y:Q", text="name:N")
+    ) + (
+        alt.Chart(alt.Data(values=rows))
+        .mark_text(fontSize=12, fontWeight="bold", color="#000000", dy=-2)
+        .encode(longitude="label_x:Q", latitude="label_y:Q", text="name:N")
+    )
 
 
 def choropleth(
@@ -397,7 +433,7 @@ def choropleth(
         scale=alt.Scale(domain=list(classes), scheme=SEQUENTIAL_SCHEME, reverse=True),
         legend=alt.Legend(orient="right", symbolType="square"),
     )
-    return (
+    shapes = (
         _geo_base(features, selected, _LIFTED)
         .transform_calculate(
             interval="isValid(datum.lower) && isValid(datum.upper) ? "
@@ -430,8 +466,16 @@ def choropleth(
             ],
         )
         .add_params(pick)
-        .project(type="mercator")
-        .properties(title=_title(title, caption), width=width, height=height)
+    )
+    return _with_labels(shapes, features, selected, title, caption, width, height)
+
+
+def _with_labels(shapes, features, selected, title, caption, width, height):
+    """The map, with the chosen districts named on it, projected to fit its districts."""
+    labels = _name_labels(features, selected)
+    chart = shapes if labels is None else alt.layer(shapes, labels)
+    return chart.project(type="mercator").properties(
+        title=_title(title, caption), width=width, height=height
     )
 
 
@@ -467,7 +511,7 @@ def clusters_map(
     """
     pick = alt.selection_point(fields=["region"], name="pick")
     domain = list(CLUSTER_COLOURS)
-    return (
+    shapes = (
         _geo_base(features, selected, ("region", "name", "picked"))
         .transform_calculate(
             cluster="isValid(datum.properties.cluster) ? lower(datum.properties.cluster) : 'no value'"
@@ -489,9 +533,8 @@ def clusters_map(
             ],
         )
         .add_params(pick)
-        .project(type="mercator")
-        .properties(title=_title(title, caption), width=width, height=height)
     )
+    return _with_labels(shapes, features, selected, title, caption, width, height)
 
 
 # --------------------------------------------------------------------------- over time

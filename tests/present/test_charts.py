@@ -80,13 +80,30 @@ def polygons_of(geometry: dict) -> list[list]:
     return list(geometry["coordinates"])
 
 
-def spec_values(chart: alt.TopLevelMixin) -> list[dict]:
-    """The inline data rows of a single-view chart's serialised spec."""
+def shape_layer(spec: dict) -> dict:
+    """The districts' layer of a map spec (the first layer when names are drawn on it)."""
+    return spec["layer"][0] if "layer" in spec else spec
+
+
+def spec_values(chart: alt.TopLevelMixin, layer: int = 0) -> list[dict]:
+    """The inline data rows of a chart's serialised spec (of one layer when layered)."""
     spec = chart.to_dict()
-    data = spec["data"]
+    view = spec["layer"][layer] if "data" not in spec and "layer" in spec else spec
+    data = view["data"]
     if "values" in data:
         return data["values"]
     return spec["datasets"][data["name"]]
+
+
+def text_marks(spec: dict) -> list[dict]:
+    """Every text layer of a spec, however deeply layered."""
+    found = []
+    for view in spec.get("layer", []):
+        mark = view.get("mark")
+        if (mark if isinstance(mark, str) else (mark or {}).get("type")) == "text":
+            found.append(view)
+        found.extend(text_marks(view))
+    return found
 
 
 def index_table() -> pd.DataFrame:
@@ -377,13 +394,13 @@ def test_choropleth_spec_has_pick_selection_tooltips_and_clockwise_rings():
     params = {p["name"]: p for p in spec["params"]}
     assert params["pick"]["select"]["type"] == "point"
     assert params["pick"]["select"]["fields"] == ["region"]
-    tooltip_titles = {t["title"] for t in spec["encoding"]["tooltip"]}
+    tooltip_titles = {t["title"] for t in shape_layer(spec)["encoding"]["tooltip"]}
     assert {"District", "Bounds / interval"} <= tooltip_titles
     values = spec_values(chart)
     first_ring = polygons_of(values[0]["geometry"])[0][0]
     assert signed_area(shapely.LinearRing(first_ring)) < 0
     assert spec["projection"]["type"] == "mercator"
-    assert spec["encoding"]["color"]["condition"]["scale"]["domain"] == list(
+    assert shape_layer(spec)["encoding"]["color"]["condition"]["scale"]["domain"] == list(
         charts.classify(values_for(grid_districts())["value"], "quantiles", 4).labels
     )
 
@@ -605,3 +622,35 @@ def test_trajectories_emphasise_chosen_districts_and_refuse_missing_county():
 )
 def test_index_labels_name_the_index_and_its_units(key, expected):
     assert expected in charts.index_label(key)
+
+
+def test_chosen_districts_are_named_on_the_map_at_a_point_inside_each():
+    """A text layer holds exactly the chosen districts' names, each at a point that lies
+    inside its district (shapely's point on surface, checked here with ``contains``)."""
+    gdf = grid_districts()
+    features = charts.features_for_display(gdf, values_for(gdf))
+    chosen = ["Q00", "Q11"]
+    spec = charts.choropleth(
+        features, value_label="Gini", classes=["a"], title="t", caption="c", selected=chosen
+    ).to_dict()
+    layers = text_marks(spec)
+    assert layers, "no text layer"
+    for layer in layers:
+        data = layer["data"]
+        rows = data["values"] if "values" in data else spec["datasets"][data["name"]]
+        names = gdf.set_index(gdf["region"].astype(str))["name"] if "name" in gdf else None
+        expected = sorted(str(names[c]) if names is not None else c for c in chosen)
+        assert sorted(r["name"] for r in rows) == expected
+        for row in rows:
+            region = next(
+                c
+                for c in chosen
+                if (names is None and c == row["name"])
+                or (names is not None and str(names[c]) == row["name"])
+            )
+            shape = gdf.set_index(gdf["region"].astype(str)).geometry[region]
+            assert shape.contains(shapely.Point(row["label_x"], row["label_y"]))
+    nothing = charts.choropleth(
+        features, value_label="Gini", classes=["a"], title="t", caption="c", selected=()
+    ).to_dict()
+    assert not text_marks(nothing)

@@ -158,9 +158,12 @@ def test_growth_bounds_from_the_brackets_contain_the_true_lognormal_growth():
         true = quantile(own["p"].to_numpy(), s1, m1) / quantile(own["p"].to_numpy(), s0, m0) - 1
         assert np.all(own["lower"].to_numpy() <= true + 1e-9)
         assert np.all(true <= own["upper"].to_numpy() + 1e-9)
-        bottom = integrate.quad(
-            lambda p: quantile(p, s1, m1) / quantile(p, s0, m0) - 1, 0, 0.4, limit=200
-        )[0] / 0.4
+        bottom = (
+            integrate.quad(
+                lambda p: quantile(p, s1, m1) / quantile(p, s0, m0) - 1, 0, 0.4, limit=200
+            )[0]
+            / 0.4
+        )
         row = summary[(summary["region"] == region) & (summary["index"] == "growth_bottom40")]
         assert row["lower"].iloc[0] <= bottom <= row["upper"].iloc[0]
         mean_row = summary[(summary["region"] == region) & (summary["index"] == "growth_mean")]
