@@ -241,7 +241,17 @@ def build_parser() -> argparse.ArgumentParser:
         "--by", default=None, help="higher level column(s), outermost first, e.g. county"
     )
     decompose.add_argument(
-        "--index", default="theil_t", help="theil_t, mld, ge_<alpha> or gini (default theil_t)"
+        "--index",
+        default="theil_t",
+        help="theil_t, mld, ge_<alpha> or gini (default theil_t); or a poverty measure that "
+        "adds up over groups (fgt_0, fgt_1, fgt_2, watts) with --poverty-line",
+    )
+    decompose.add_argument(
+        "--poverty-line",
+        metavar="LINE",
+        default="60%median",
+        help="the line of a poverty split: an amount per person per year (12000) or a share "
+        "of the province's median or mean (60%%median, the default; 50%%mean)",
     )
     decompose.add_argument("--method", default="auto", help="Lorenz method for grouped data")
     decompose.add_argument("--from", dest="year_from", type=int, help="first year of a change")
@@ -620,7 +630,14 @@ def run_decompose(args: argparse.Namespace) -> int:
     by = tuple(_split(args.by)) or tuple(panel.levels)
     if (args.year_from is None) != (args.year_to is None):
         raise DataError([Problem("--from and --to go together", fix="give both years, or neither")])
-    if args.year_from is not None:
+    from explorer.stats import poverty_levels
+
+    if args.index in poverty_levels.DECOMPOSABLE:
+        # FGT and Watts add up over groups: each district's and county's contribution
+        line = compute.poverty(args.poverty_line, "province", args.method)
+        table = poverty_levels.by_level(line, panel, args.index)
+        print(f"poverty line: {line.attrs.get('line', args.poverty_line)}", file=sys.stderr)
+    elif args.year_from is not None:
         table = compute.change(by, args.index, args.year_from, args.year_to)
     else:
         table = compute.breakdown(by, args.index, args.method)

@@ -113,3 +113,36 @@ def test_the_report_of_district_means_says_poverty_cannot_be_measured():
     parts = figures.sections(ViewState(dataset="demo-means"), panel)
     assert any("cannot be measured from district means alone" in a for a in parts.absent)
     assert not any(t.startswith("Poverty by district") for t in parts.tables)
+
+
+def test_rift_decompose_splits_a_poverty_measure_over_groups(tmp_path, capsys):
+    """`rift decompose --index fgt_0 --poverty-line 20000` on the households: the province
+    row is the pooled headcount of the records (pandas), the county rows add up to it."""
+    from explorer import cli
+
+    out = tmp_path / "split.csv"
+    code = cli.main(
+        [
+            "decompose",
+            "demo",
+            "--kind",
+            "units",
+            "--index",
+            "fgt_0",
+            "--poverty-line",
+            "20000",
+            "--out",
+            str(out),
+        ]
+    )
+    assert code == 0
+    table = pd.read_csv(out)
+    records = pd.read_csv(ROOT / "demo_data" / "households.csv", dtype={"region": str})
+    for year, rows in records.groupby("year"):
+        pooled = rows.loc[rows["income"] < LINE, "weight"].sum() / rows["weight"].sum()
+        mine = table[table["year"] == year]
+        province = mine.loc[mine["level"] == "province", "value"].iloc[0]
+        assert province == pytest.approx(pooled, abs=1e-12)
+        assert mine.loc[mine["level"] == "county", "contribution"].sum() == pytest.approx(
+            pooled, abs=1e-12
+        )
