@@ -52,15 +52,6 @@ if ui.current_view().index in ("mean_growth", *GROWTH_FIGURES) and len(panel.yea
         [int(y) for y in panel.years[:-1]],
         help="The first year of the average yearly growth (also where Timelines starts).",
     )
-# Means and published figures have no bounds, and the clusters layer draws no outline.
-if bounded and on_index:
-    ui.control(
-        vocabulary.INTERVAL_FIELD,
-        st.toggle,
-        "Mark districts whose bounds are wide",
-        help="Dashed outline where the range between lower and upper bound is more than "
-        f"{vocabulary.WIDE_SHARE:.0%} of the value: the figure is uncertain there.",
-    )
 if bounded and on_index:
     ui.control(
         "clear_ranks",
@@ -72,6 +63,21 @@ if bounded and on_index:
 view = ui.current_view()
 
 shown = figures.atlas(panel, view, opened.compute)
+# Means and published figures have no bounds, the clusters layer draws no outline, and an
+# index without finite bounds (Theil T's upper) would be outlined everywhere.
+if bounded and on_index and shown.finite_bounds:
+    ui.control(
+        vocabulary.INTERVAL_FIELD,
+        st.toggle,
+        "Mark districts whose bounds are wide",
+        help="Dashed outline where the range between lower and upper bound is more than "
+        f"{vocabulary.WIDE_SHARE:.0%} of the value: the figure is uncertain there.",
+    )
+elif bounded and on_index and panel.kind == "brackets":
+    st.caption(
+        "This index has no finite upper bound from the shares, so no district is outlined "
+        "as uncertain: read it beside the Gini or the income shares, whose bounds are finite."
+    )
 if shown.empty:
     ui.notice(shown.notices[0], "warning")
     st.stop()

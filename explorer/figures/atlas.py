@@ -6,6 +6,7 @@ import dataclasses
 from dataclasses import dataclass
 from typing import Any
 
+import numpy as np
 import pandas as pd
 
 from explorer.data.model import Panel
@@ -64,6 +65,8 @@ class AtlasFigures:
     moved_since: int | None = None
     #: Districts left off the map and ranking because their rank is not clear.
     unclear: int = 0
+    #: Whether any district has both bounds finite (else no "wide bounds" outline).
+    finite_bounds: bool = False
 
     @property
     def empty(self) -> bool:
@@ -161,6 +164,12 @@ def atlas(
     mark_wide = bool(view.show_intervals if mark_wide is None else mark_wide) and bounded
     table = series.values(panel, compute, view.index, view.method, view.year_from, view)
     values = map_values(panel, table, view.year, view.index)
+    # an index with no finite bound anywhere (Theil T's upper) would be outlined everywhere
+    finite_bounds = bool(
+        len(values)
+        and np.isfinite(values[["lower", "upper"]].to_numpy(dtype=float)).all(axis=1).any()
+    )
+    mark_wide = mark_wide and finite_bounds
     label = vocabulary.value_label(view, panel)
     ranked = ranking(values)
     since = _first_year(panel, view, table)
@@ -225,6 +234,7 @@ def atlas(
         remark=remark,
         moved_since=since,
         unclear=unclear,
+        finite_bounds=finite_bounds,
         **common,
     )
 

@@ -1152,7 +1152,7 @@ def interval_strip(
     year: int | None = None,
     title: str | None = None,
     caption: str = "Dot: the estimate; bar: its bounds (grouped data) or interval (unit data).",
-) -> alt.FacetChart:
+) -> alt.FacetChart | alt.VConcatChart:
     """Every index of one district-year with its bounds or interval, one row per index.
 
     Parameters
@@ -1165,8 +1165,9 @@ def interval_strip(
 
     Returns
     -------
-    alt.FacetChart
-        Each index has its own value axis, since the indices have different units.
+    alt.FacetChart or alt.VConcatChart
+        One block per kind of index (0–1 indices and shares, ratios, the entropy family),
+        each with one value axis and its title, shared by the block's rows.
     """
     rows = table
     if region is not None:
@@ -1190,8 +1191,44 @@ def interval_strip(
         else "Indices with their intervals"
     )
     tips = [alt.Tooltip("label:N", title="Index")] + _interval_tooltips(data, "Value")
-    axis_title = "Value (units as in the row's label)"
-    x = alt.X("value:Q", title=axis_title, scale=alt.Scale(zero=False))
+    data["kind"] = [_strip_kind(i) for i in data["index"]]
+    # one shared axis per kind of index, titled once, so rows of one kind can be compared
+    parts = [
+        _strip_part(data[data["kind"] == kind], _STRIP_AXES[kind], tips)
+        for kind in _STRIP_AXES
+        if (data["kind"] == kind).any()
+    ]
+    if not parts:
+        parts = [_strip_part(data, "Value", tips)]
+    chart = parts[0] if len(parts) == 1 else alt.vconcat(*parts, spacing=18)
+    return chart.properties(title=_title(title, caption))
+
+
+#: The axis of each kind of index on the strip of a district's indices.
+_STRIP_AXES = {
+    "unit": "0–1 scale (Gini, Atkinson, income shares, poverty rates; 0 = equal or no poverty)",
+    "ratio": "Ratio (Palma, S80/S20, coefficient of variation)",
+    "entropy": "Entropy scale (Theil, mean log deviation, GE, Watts; 0 = equal, no upper limit)",
+}
+
+
+def _strip_kind(key: str) -> str:
+    """Which axis an index shares on the strip (:data:`_STRIP_AXES`)."""
+    if key in ("palma", "s80_s20", "cv"):
+        return "ratio"
+    if key in ("theil_t", "mld", "watts") or key.startswith("ge_"):
+        return "entropy"
+    return "unit"
+
+
+def _strip_part(data: pd.DataFrame, axis_title: str, tips) -> alt.FacetChart:
+    """Rows of one kind of index: one row each, one shared value axis with its title."""
+    x = alt.X(
+        "value:Q",
+        title=axis_title,
+        scale=alt.Scale(zero=False),
+        axis=alt.Axis(tickCount=6, labelOverlap=True),
+    )
     colour = alt.Color("method:N", title="Method", scale=alt.Scale(range=list(OKABE_ITO)))
     method = alt.Y("method:N", title=None)
     layers = alt.layer(
@@ -1220,15 +1257,18 @@ def interval_strip(
         .transform_filter("datum.unbounded")
         .mark_text(text="→ no finite upper bound", align="left", dx=8, fontSize=10)
         .encode(x=x, y=method),
-        data=data,
+        data=_records(data),
     )
     return (
         layers.properties(width=420, height=alt.Step(18))
         .facet(
-            row=alt.Row("label:N", title=None, header=alt.Header(labelAngle=0, labelAlign="left"))
+            row=alt.Row(
+                "label:N",
+                title=None,
+                header=alt.Header(labelAngle=0, labelAlign="left", labelLimit=260),
+            )
         )
-        .resolve_scale(x="independent")
-        .properties(title=_title(title, caption))
+        .resolve_scale(x="shared")
     )
 
 

@@ -46,6 +46,10 @@ CI_CHOICES = (None, "bootstrap")
 ALL_DISTRICTS = "(all)"
 
 _OUTSIDE_NOTE = "the fitted curve gives a value outside the bounds the bracket shares allow"
+_FIXED_NOTE = (
+    "the published shares fix this value (a share at a bracket boundary); the fitted curve "
+    "differs there, so the fixed value is shown"
+)
 
 
 # ---------------------------------------------------------------------------- checks
@@ -166,19 +170,29 @@ def _brackets(panel, methods, indices) -> pd.DataFrame:
             fits = lorenz.fit_panel(panel, method)
             got = fits.indices(indices)
         notes = []
+        values = {}
         for key in indices:
             value = got[key].value
+            # where the two bounding curves agree the published points fix the index (a share
+            # at a bracket boundary): the fixed value is shown, and how far the fit was off
+            fixed = np.isfinite(lower_bound[key]) & np.isclose(
+                lower_bound[key], upper_bound[key], rtol=1e-12, atol=1e-15
+            )
+            off = fixed & ~np.isclose(value, lower_bound[key], rtol=1e-6, atol=1e-9)
+            fixed_note = np.where(off, _FIXED_NOTE, "").astype(object)
+            value = np.where(fixed, lower_bound[key], value)
+            values[key] = value
             slack = 1e-9 * np.maximum(1.0, np.abs(value))
             with np.errstate(invalid="ignore"):
                 outside = (value < lower_bound[key] - slack) | (value > upper_bound[key] + slack)
             outside_note = np.where(outside, _OUTSIDE_NOTE, "")
             extra = bound_note[key] if method != "upper" else np.full(len(value), "")
-            notes.append(_join_notes(got[key].note, outside_note, extra))
+            notes.append(_join_notes(got[key].note, outside_note, extra, fixed_note))
         blocks.append(
             _block(
                 fits.keys,
                 indices,
-                [got[k].value for k in indices],
+                [values[k] for k in indices],
                 [lower_bound[k] for k in indices],
                 [upper_bound[k] for k in indices],
                 method,

@@ -654,3 +654,42 @@ def test_chosen_districts_are_named_on_the_map_at_a_point_inside_each():
         features, value_label="Gini", classes=["a"], title="t", caption="c", selected=()
     ).to_dict()
     assert not text_marks(nothing)
+
+
+def _axis_titles(spec, found=None):
+    """Every x title in a spec, however nested."""
+    found = [] if found is None else found
+    if isinstance(spec, dict):
+        x = spec.get("encoding", {}).get("x")
+        if isinstance(x, dict) and x.get("title"):
+            found.append(x["title"])
+        for value in spec.values():
+            _axis_titles(value, found)
+    elif isinstance(spec, list):
+        for value in spec:
+            _axis_titles(value, found)
+    return found
+
+
+def test_the_index_strip_has_one_axis_per_kind_of_index_titled_once():
+    """Rows of one kind (0–1 indices, ratios, the entropy family) share one scale; no title
+    repeated per row, and an unbounded upper bound is said in words, not drawn to infinity."""
+    rows = pd.DataFrame(
+        {
+            "region": "Q1",
+            "year": 2020,
+            "index": ["gini", "top10_share", "palma", "theil_t", "mld"],
+            "value": [0.32, 0.25, 1.3, 0.18, 0.17],
+            "lower": [0.31, 0.24, 1.2, 0.17, 0.16],
+            "upper": [0.33, 0.26, 1.4, np.inf, np.inf],
+            "method": "curve",
+        }
+    )
+    spec = charts.interval_strip(rows, title="t").to_dict()
+    blocks = spec["vconcat"]
+    assert len(blocks) == 3
+    assert all(block["resolve"]["scale"]["x"] == "shared" for block in blocks)
+    titles = set(_axis_titles(spec))
+    assert titles == set(charts._STRIP_AXES.values())
+    assert "units as in the row's label" not in json.dumps(spec)
+    assert "Infinity" not in json.dumps(spec) and "inf" not in json.dumps(spec["datasets"])

@@ -160,7 +160,10 @@ def test_growth_bounds_from_the_brackets_contain_the_true_lognormal_growth():
         assert np.all(true <= own["upper"].to_numpy() + 1e-9)
         bottom = (
             integrate.quad(
-                lambda p: quantile(p, s1, m1) / quantile(p, s0, m0) - 1, 0, 0.4, limit=200
+                lambda p, s0=s0, m0=m0, s1=s1, m1=m1: quantile(p, s1, m1) / quantile(p, s0, m0) - 1,
+                0,
+                0.4,
+                limit=200,
             )[0]
             / 0.4
         )

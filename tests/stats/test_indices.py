@@ -246,3 +246,25 @@ def test_inputs_are_not_modified(quintile_panel):
     indices.compute(quintile_panel, methods=("auto", "pchip"))
     indices.fits(quintile_panel, ("auto",))
     pd.testing.assert_frame_equal(quintile_panel.data, before)
+
+
+def test_shares_at_bracket_boundaries_are_the_published_shares_for_every_method():
+    """With decile shares, the top 10 % share is 1 − L(0.9) and the bottom 40 % share L(0.4)
+    exactly (common practice: a share at a published boundary is read off the table); every
+    method shows that value, and says so where its own curve differs."""
+    from explorer.data import demo
+
+    panel = demo.demo_panel()
+    data = panel.data
+    first = data.groupby(["region", "year"], sort=False)
+    top = first["income_share"].apply(lambda s: float(s.iloc[-1]))
+    bottom = first["income_share"].apply(lambda s: float(s.iloc[:4].sum()))
+    for method in ("gq", "beta", "lognormal", "pchip", "auto"):
+        table = indices.compute(panel, methods=(method,), indices=("top10_share", "bottom40_share"))
+        table = table.assign(region=table["region"].astype(str))
+        for key, expected in (("top10_share", top), ("bottom40_share", bottom)):
+            rows = table[table["index"] == key].set_index(["region", "year"])["value"]
+            want = expected.rename(index=str, level=0).reindex(rows.index)
+            assert np.allclose(rows.to_numpy(), want.to_numpy(), atol=1e-12), (method, key)
+        if method == "gq":
+            assert table["note"].str.contains("fix this value").any()
