@@ -5,8 +5,9 @@
 
 Starts the app on the demo (loopback only), drives Debian's Chromium with playwright, and
 times each change from the click or key press until the map's new title has been drawn by
-Vega. The baseline, measured in the same run, is a full reload of the same view: what a
-user would otherwise wait for. Needs /usr/bin/chromium. The last line is one JSON object.
+Vega; then the first load of a fresh server and the first click on each other page (from
+the click until its charts are drawn). The baseline, measured in the same run, is a full
+reload of the same view: what a user would otherwise wait for. Needs /usr/bin/chromium. The last line is one JSON object.
 """
 
 from __future__ import annotations
@@ -47,6 +48,18 @@ DRAWN = (
 )
 
 
+#: Pages whose first visit is timed, by their title in the navigation.
+FIRST_VISITS = ("Timelines", "Breakdown", "District sheet", "Compare")
+#: True once the page titled ``arg`` is up and every chart on it has been drawn by Vega.
+PAGE_DRAWN = """(title) => {
+  const heading = [...document.querySelectorAll('h1')].some(h => h.innerText.trim() === title);
+  const running = document.querySelector('[data-testid="stStatusWidget"]');
+  const charts = document.querySelectorAll('.vega-embed');
+  const drawn = [...charts].every(c => c.querySelector('svg, canvas'));
+  return heading && !running && charts.length > 0 && drawn;
+}"""
+
+
 def free_port() -> int:
     with socket.socket() as sock:
         sock.bind(("127.0.0.1", 0))
@@ -81,8 +94,10 @@ def main() -> None:
                 browser = p.chromium.launch(executable_path="/usr/bin/chromium", args=ARGS)
                 page = browser.new_page(viewport={"width": 1400, "height": 1000})
                 url = f"http://127.0.0.1:{port}/"
+                t0 = time.perf_counter()
                 page.goto(url)
                 page.wait_for_function(DRAWN, arg="Gini coefficient", timeout=60_000)
+                first_load = time.perf_counter() - t0  # nothing computed or cached yet
                 reload, index, year = [], [], []
                 for _ in range(max(2, changes // 2)):
                     t0 = time.perf_counter()
@@ -112,6 +127,15 @@ def main() -> None:
                     page.wait_for_function(DRAWN, arg=f", {shown}", timeout=60_000)
                     year.append(time.perf_counter() - t0)
                     page.wait_for_timeout(500)
+                # the first click on each other page: its figures are computed on arrival
+                first_visit = {}
+                for title in FIRST_VISITS:
+                    link = page.locator('[data-testid="stSidebarNav"] a', has_text=title).first
+                    t0 = time.perf_counter()
+                    link.click()
+                    page.wait_for_function(PAGE_DRAWN, arg=title, timeout=120_000)
+                    first_visit[title] = time.perf_counter() - t0
+                    page.wait_for_timeout(500)
                 browser.close()
         finally:
             serving.stop_server(server, timeout=30)
@@ -122,6 +146,8 @@ def main() -> None:
         "index_change_max_s": round(max(index), 3),
         "year_change_median_s": round(statistics.median(year), 3),
         "year_change_max_s": round(max(year), 3),
+        "first_load_s": round(first_load, 3),
+        **{f"first_visit_{t.split()[0].lower()}_s": round(v, 3) for t, v in first_visit.items()},
     }
     for key, value in figures.items():
         print(f"{key:>24}: {value}")
@@ -135,6 +161,7 @@ def main() -> None:
                 "ratios": {
                     "index_change_to_reload": round(statistics.median(index) / base, 3),
                     "year_change_to_reload": round(statistics.median(year) / base, 3),
+                    "first_load_to_reload": round(first_load / base, 3),
                 },
                 "figures": figures,
             }
