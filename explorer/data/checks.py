@@ -191,7 +191,13 @@ class Cells:
     def of(cls, table: pd.DataFrame, column: str, rows: Rows) -> Cells:
         """The cells of ``column`` on every row."""
         values, miss, text = numbers(table[column])
-        raw = table[column].to_numpy(dtype=object)
+        series = table[column]
+        # a column read as numbers holds no text: its cells as written are the numbers
+        # (an object copy of millions of unit records would cost more than the data)
+        numeric = pd.api.types.is_numeric_dtype(series.dtype) and not pd.api.types.is_bool_dtype(
+            series.dtype
+        )
+        raw = series.to_numpy(dtype=float) if numeric else series.to_numpy(dtype=object)
         return cls(values, miss, text, raw, rows.gid, rows.line, column)
 
     def check(

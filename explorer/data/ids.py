@@ -36,6 +36,13 @@ def id_strings(raw: pd.Series) -> np.ndarray:
 
     Text is kept exactly (``"007"`` stays ``"007"``); only numbers are written out.
     """
+    if isinstance(raw.dtype, pd.CategoricalDtype):
+        # each distinct id made text once; the rows share those strings (a large file of
+        # unit records holds few districts and millions of rows)
+        names = id_strings(pd.Series(raw.cat.categories.to_numpy(dtype=object), dtype=object))
+        codes = raw.cat.codes.to_numpy()
+        out = np.append(names, None).astype(object)[np.where(codes < 0, len(names), codes)]
+        return out
     miss = missing_cells(raw)
     if pd.api.types.is_float_dtype(raw.dtype):
         v = raw.to_numpy(dtype=float)

@@ -277,7 +277,103 @@ def _frame_from_rows(
     return frame
 
 
+#: Text files at least this large are first tried as a plain table (one header line, then
+#: rows): read typed, straight from the file, without holding every cell as text.
+PLAIN_READ_BYTES = 4_000_000
+
+
+def _plain_csv(path: Path, file: str) -> pd.DataFrame | None:
+    """A large CSV read typed in one pass, or None when it is not a plain table.
+
+    Holding every cell of a large unit-record file as text first costs dozens of times the
+    file's size; a plain table (UTF-8, a full header on line 1, numbers with a decimal
+    point) is read by the C parser straight into floats and categorical text instead. Any
+    irregularity (a title line, a note, a footnote, a text cell in a number column) makes
+    this return None, and the careful reader, which names each such line, reads the file.
+    The result has the careful reader's shape: index = line - 2, text columns as text.
+    """
+    with path.open("rb") as handle:
+        start = handle.read(HEAD_BYTES)
+    if len(start) == HEAD_BYTES and b"\n" in start:
+        start = start[: start.rindex(b"\n") + 1]
+    try:
+        text = start.decode("utf-8-sig")
+    except UnicodeDecodeError:
+        return None
+    lines = text.splitlines()
+    if len(lines) < 3 or not lines[0].strip():
+        return None
+    delimiter = _pick_delimiter([ln for ln in lines[:50] if ln.strip()])
+    sample = list(csv.reader(lines[: min(len(lines), 2000)], delimiter=delimiter))
+    header = [h.strip() for h in sample[0]]
+    if len(header) < 2 or len(header) > MAX_COLUMNS or any(not h for h in header):
+        return None
+    if len(set(h.lower() for h in header)) < len(header):
+        return None
+    body = [row for row in sample[1:] if any(c.strip() for c in row)]
+    if not body or any(len(row) != len(header) for row in body):
+        return None
+    frame_sample = pd.DataFrame(body, columns=header)
+    if _decimal_style(frame_sample, delimiter) != (".", None):
+        return None
+    numeric, textual = [], []
+    for name in header:
+        cells = frame_sample[name].str.strip()
+        cells = cells[~cells.str.lower().isin(_MISSING)]
+        if cells.empty:
+            return None  # a column with nothing in the sample: let the careful reader say so
+        if cells.str.match(_LEADING_ZERO).any():
+            textual.append(name)
+        elif pd.to_numeric(cells, errors="coerce").notna().all():
+            numeric.append(name)
+        else:
+            textual.append(name)
+    missing = sorted(_MISSING | {m.upper() for m in _MISSING} | {m.title() for m in _MISSING})
+    try:
+        frame = pd.read_csv(
+            path,
+            sep=delimiter,
+            header=0,
+            names=header,
+            dtype={**{n: "float64" for n in numeric}, **{n: "category" for n in textual}},
+            na_values={n: missing for n in numeric} | {n: [""] for n in textual},
+            keep_default_na=False,
+            skip_blank_lines=False,
+            skipinitialspace=True,
+            encoding="utf-8-sig",
+            engine="c",
+        )
+    except (ValueError, pd.errors.ParserError, UnicodeDecodeError, csv.Error, OverflowError):
+        return None
+    frame.index = np.arange(len(frame))  # line - 2
+    if numeric and textual:
+        # a line of text with no number at all is a note or a footnote, not a row
+        no_number = frame[numeric].isna().all(axis=1).to_numpy()
+        some_text = frame[textual].notna().any(axis=1).to_numpy()
+        if (no_number & some_text).any():
+            return None
+    blank = frame.isna().all(axis=1).to_numpy()
+    if blank.any():
+        frame = frame[~blank]
+    for name in textual:  # categories as the careful reader gives text: stripped
+        categories = frame[name].cat.categories
+        stripped = categories.astype(str).str.strip()
+        if not (stripped == categories).all():
+            if pd.Index(stripped).has_duplicates:
+                return None
+            frame[name] = frame[name].cat.rename_categories(stripped)
+    return frame
+
+
 def _read_csv(path: Path, file: str, head: int | None = None) -> pd.DataFrame:
+    if head is None:
+        try:
+            large = path.stat().st_size >= PLAIN_READ_BYTES
+        except OSError:
+            large = False
+        plain = _plain_csv(path, file) if large else None
+        if plain is not None:
+            return plain
     try:
         if head is None:
             raw = path.read_bytes()

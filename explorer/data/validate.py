@@ -175,7 +175,7 @@ def _keys(table: pd.DataFrame, line: np.ndarray, log: Log) -> tuple[np.ndarray, 
             column="region",
         )
     year, year_miss, year_text = numbers(table["year"])
-    raw = table["year"].to_numpy(dtype=object)
+    column = table["year"]
     for mask, what in (
         (year_miss, "the year is missing"),
         (year_text, "the year is text, not a number"),
@@ -184,7 +184,9 @@ def _keys(table: pd.DataFrame, line: np.ndarray, log: Log) -> tuple[np.ndarray, 
     ):
         if mask.any():
             log.add(
-                f"{what}, on {mask.sum()} line(s): {value_list(line[mask], raw[mask])}",
+                # the offending cells only: the whole column as objects would cost a lot
+                f"{what}, on {mask.sum()} line(s): "
+                f"{value_list(line[mask], column[mask].to_numpy(dtype=object))}",
                 "write years as whole numbers such as 2019 (for a fiscal year 2019/20 use its first year)",
                 row=line[mask][0],
                 column="year",
@@ -207,7 +209,7 @@ def _district_years(table: pd.DataFrame, region, year, line) -> Rows:
     code, year_i, line = code[order], year_i[order], line[order]
     new_group = np.r_[True, (code[1:] != code[:-1]) | (year_i[1:] != year_i[:-1])]
     return Rows(
-        table=table.iloc[keep].iloc[order],
+        table=table.iloc[keep[order]],  # one copy of the table, not two
         code=code,
         names=np.asarray(names, dtype=object),
         year=year_i,
