@@ -46,7 +46,7 @@ class Compute(Protocol):
     def welfare(self, method: str) -> pd.DataFrame: ...
 
     def growth(
-        self, year_from: int, method: str, line: str, relative_to: str
+        self, year_from: int, method: str, line: str, relative_to: str, to: int | None = None
     ) -> tuple[pd.DataFrame, pd.DataFrame]: ...
 
     def clusters(
@@ -166,15 +166,24 @@ class PlainCompute:
         return welfare.compute(self.panel, methods=(method,))
 
     def growth(
-        self, year_from: int, method: str, line: str, relative_to: str
+        self, year_from: int, method: str, line: str, relative_to: str, to: int | None = None
     ) -> tuple[pd.DataFrame, pd.DataFrame]:
-        """Growth incidence from ``year_from`` to every later year
+        """Growth incidence from ``year_from`` to every later year, or to ``to`` alone
         (:func:`explorer.stats.growth.since`), the poorest H % set by ``line``."""
         from explorer.stats import growth, poverty_lines
 
         method = method if self.panel.kind == "brackets" else "auto"
         parsed = poverty_lines.parse_line(line, scope=relative_to)
-        return growth.since(self.panel, int(year_from), method, parsed)
+        panel = self.panel
+        if to is not None:
+            # only the two years are fitted (a relative line is the province's of each year,
+            # so the first year's line is the same on the two-year panel)
+            import dataclasses
+
+            keep = panel.data["year"].isin([int(year_from), int(to)])
+            panel = dataclasses.replace(panel, data=panel.data[keep].reset_index(drop=True))
+        later = None if to is None else (int(to),)
+        return growth.since(panel, int(year_from), method, parsed, later=later)
 
     def clusters(
         self, values: pd.Series, permutations: int = MAP_PERMUTATIONS

@@ -270,7 +270,9 @@ def growth_of(panel: Panel, view: ViewState, compute: Compute, region: str, name
             (),
             f"Growth needs a first year before {view.year}: choose one under 'Growth since'.",
         )
-    summary, curves = compute.growth(first, view.method, view.poverty_line, view.relative_to)
+    summary, curves = compute.growth(
+        first, view.method, view.poverty_line, view.relative_to, to=int(view.year)
+    )
     span = int(view.year) - first
     own = curves[(curves["region"].astype(str) == region) & (curves["year"] == view.year)]
     rows = summary[(summary["region"].astype(str) == region) & (summary["year"] == view.year)]

@@ -70,8 +70,8 @@ def _welfare(_panel, fingerprint: str, scope: str, method: str):
 
 
 @st.cache_data(show_spinner="Measuring growth at every percentile…", max_entries=32)
-def _growth(_panel, fingerprint: str, scope: str, year_from: int, method, line, relative_to):
-    summary, curves = plain.PlainCompute(_panel).growth(year_from, method, line, relative_to)
+def _growth(_panel, fingerprint: str, scope: str, year_from: int, method, line, relative_to, to):
+    summary, curves = plain.PlainCompute(_panel).growth(year_from, method, line, relative_to, to)
     left_out = summary.attrs.get("left_out", [])
     summary = tidy(summary)
     summary.attrs["left_out"] = left_out  # named on the page, so it must survive the cache
@@ -160,9 +160,10 @@ class CachedCompute:
         method = method if self.panel.kind == "brackets" else "auto"
         return _welfare(*self._key(), method)
 
-    def growth(self, year_from: int, method: str, line: str, relative_to: str):
+    def growth(self, year_from: int, method: str, line: str, relative_to: str, to=None):
         method = method if self.panel.kind == "brackets" else "auto"
-        return _growth(*self._key(), int(year_from), method, line, relative_to)
+        to = None if to is None else int(to)
+        return _growth(*self._key(), int(year_from), method, line, relative_to, to)
 
     def map_features(self, values: pd.DataFrame) -> list[dict[str, Any]]:
         return _map_features(*self._key(), values)

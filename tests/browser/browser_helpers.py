@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import time
 from pathlib import Path
 
 ROOT = Path(__file__).resolve().parents[2]
@@ -26,6 +27,16 @@ def settle(page, timeout: float = 60_000) -> None:
         "() => !document.querySelector('[data-testid=\"stStatusWidget\"]')",
         timeout=timeout,
     )
+    # The running indicator shows only after a moment: a page still computing its first
+    # figures can look finished. Wait until the page's text stops changing.
+    deadline = time.monotonic() + timeout / 1000
+    before = None
+    while time.monotonic() < deadline:
+        now = page.locator('[data-testid="stMain"]').inner_text()
+        if now == before:
+            break
+        before = now
+        page.wait_for_timeout(700)
 
 
 def shot(page, name: str) -> Path:
