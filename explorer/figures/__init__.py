@@ -14,6 +14,7 @@ from explorer.figures.breakdown import (
     change,
     split_index,
 )
+from explorer.figures.brief import Briefing, briefing
 from explorer.figures.compute import Compute, PlainCompute
 from explorer.figures.district import Comparison, DistrictFigures, compare, district
 from explorer.figures.report import ReportSections, report_for_view, report_html, sections
@@ -24,6 +25,7 @@ from explorer.figures.timelines import Convergence, TimelineFigures, convergence
 __all__ = [
     "AtlasFigures",
     "BreakdownFigures",
+    "Briefing",
     "ChangeFigures",
     "ClusterLayer",
     "Comparison",
@@ -36,6 +38,7 @@ __all__ = [
     "TimelineFigures",
     "atlas",
     "breakdown",
+    "briefing",
     "change",
     "cluster_layer",
     "compare",
