@@ -495,7 +495,8 @@ class _Builder:
         index, instead = split_index(view)
         split = breakdown(panel, view, self.compute)
         label = _lower(vocabulary.index_label(index))
-        said = [Sentence(instead)] if instead else []
+        # the Breakdown page's own sentence, said of that page
+        said = [Sentence(instead.replace("this page", "the Breakdown page"))] if instead else []
         shares = split.shares
         if panel.kind == "means":  # district means hold nothing inside districts
             shares = shares[~((shares["level"] == "district") & (shares["component"] == "within"))]

@@ -414,7 +414,9 @@ def ranking_title(kind: str, key: str = "") -> str:
     if key in POVERTY_HELP:
         return f"Districts ranked (1 = highest {index_label(key).split(' FGT')[0].lower()})"
     if kind == "published":
-        return f"Districts ranked (1 = highest {index_label(key).lower() or 'figure'}, as published)"
+        return (
+            f"Districts ranked (1 = highest {index_label(key).lower() or 'figure'}, as published)"
+        )
     if kind == "means":
         return {
             "mean_ratio": "Districts ranked (1 = furthest above the province mean)",
@@ -562,7 +564,9 @@ def poverty_line_words(view: Any) -> str:
     line = parse_line(getattr(view, "poverty_line", "60%median"))
     if not line.relative:
         return f"{line.amount:,.0f} per person a year"
-    whose = "each district's own" if getattr(view, "relative_to", "") == "district" else "the province"
+    whose = (
+        "each district's own" if getattr(view, "relative_to", "") == "district" else "the province"
+    )
     return f"{100 * line.fraction:g}% of {whose} {line.base}"
 
 
@@ -603,6 +607,11 @@ def filter_text(view: Any, panel: Any) -> str:
     word = groups_word(levels[-1], plural=len(chosen) > 1) if levels else "groups"
     names = ", ".join(chosen[:-1]) + (" and " if len(chosen) > 1 else "") + chosen[-1]
     return f", only the districts of the {word} {names}"
+
+
+def briefing_heading(view: Any, panel: Any) -> str:
+    """The title of a briefing: which data and which year."""
+    return f"Briefing: {dataset_name(view, panel)}{filter_text(view, panel)}, {view.year}"
 
 
 def describe_view(view: Any, panel: Any) -> str:
