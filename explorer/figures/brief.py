@@ -25,7 +25,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from explorer.data.model import Panel
+from explorer.data.model import DataError, Panel
 from explorer.figures import series
 from explorer.figures.breakdown import breakdown, change, split_index
 from explorer.figures.compute import MAP_PERMUTATIONS, Compute
@@ -291,14 +291,18 @@ class _Builder:
         else:
             from explorer.figures.timelines import province_series
 
-            line = province_series(panel, view, self.compute)
-            if line is None:
-                said.append(
-                    Sentence(
-                        f"There is no province figure for {words.label}: it is not computed "
-                        "for the pooled province."
+            try:
+                line = province_series(panel, view, self.compute)
+            except DataError as error:
+                said.append(_cannot("There is no province figure", error))
+            else:
+                if line is None:
+                    said.append(
+                        Sentence(
+                            f"There is no province figure for {words.label}: it is not "
+                            "computed for the pooled province."
+                        )
                     )
-                )
         if line is not None:
             line = self.table("province", line[["year", "value"]])
             said.extend(self._province(line))
@@ -416,9 +420,22 @@ class _Builder:
         ranked = ranking(values)
         self.wide = int(wide(values).sum()) if len(values) else 0
         self.values = values
+        ranked = ranked.assign(year=view.year)
         ranked = self.table(
             "ranking",
-            ranked[["region", "name", "county", "value", "lower", "upper", "rank", "rank_range"]],
+            ranked[
+                [
+                    "region",
+                    "name",
+                    "county",
+                    "year",
+                    "value",
+                    "lower",
+                    "upper",
+                    "rank",
+                    "rank_range",
+                ]
+            ],
         )
         if len(ranked) < 2:
             return [
@@ -443,8 +460,10 @@ class _Builder:
                 text,
                 Source(
                     "ranking",
-                    _cells({"region": top["region"]}, *_range_columns(top))
-                    + _cells({"region": bottom["region"]}, *_range_columns(bottom)),
+                    _cells({"region": top["region"], "year": view.year}, *_range_columns(top))
+                    + _cells(
+                        {"region": bottom["region"], "year": view.year}, *_range_columns(bottom)
+                    ),
                 ),
             )
         ]
@@ -466,8 +485,8 @@ class _Builder:
         (best_top, worst_top), (best_low, worst_low) = (
             _rank_span(r["rank_range"]) for r in (top, bottom)
         )
-        cells = _cells({"region": top["region"]}, "rank_range") + _cells(
-            {"region": bottom["region"]}, "rank_range"
+        cells = _cells({"region": top["region"], "year": view.year}, "rank_range") + _cells(
+            {"region": bottom["region"], "year": view.year}, "rank_range"
         )
         if worst_top < best_low:
             text = (
@@ -493,14 +512,17 @@ class _Builder:
         if panel.kind == "published":
             return []
         index, instead = split_index(view)
-        split = breakdown(panel, view, self.compute)
+        try:
+            split = breakdown(panel, view, self.compute)
+        except DataError as error:
+            return [_cannot("The province's inequality cannot be split", error)]
         label = _lower(vocabulary.index_label(index))
         # the Breakdown page's own sentence, said of that page
         said = [Sentence(instead.replace("this page", "the Breakdown page"))] if instead else []
         shares = split.shares
         if panel.kind == "means":  # district means hold nothing inside districts
             shares = shares[~((shares["level"] == "district") & (shares["component"] == "within"))]
-        shares = self.table("split", shares)
+        shares = self.table("split", shares.assign(year=view.year))
         first = False
         for level in dict.fromkeys(shares["level"]):
             rows = shares[shares["level"] == level]
@@ -524,7 +546,10 @@ class _Builder:
                         tuple(
                             c
                             for r in rows.itertuples(index=False)
-                            for c in _cells({"level": level, "component": r.component}, "share")
+                            for c in _cells(
+                                {"year": view.year, "level": level, "component": r.component},
+                                "share",
+                            )
                         ),
                     ),
                 )
@@ -536,7 +561,10 @@ class _Builder:
 
     def _change(self, index: str) -> list[Sentence]:
         view = self.view
-        moved = change(self.panel, view, self.compute, index)
+        try:
+            moved = change(self.panel, view, self.compute, index)
+        except DataError as error:
+            return [_cannot("The change cannot be split", error)]
         if moved is None:
             return [
                 Sentence(
@@ -551,6 +579,7 @@ class _Builder:
         if total.empty or parts.empty:
             return said
         top = parts.loc[parts["value"].abs().idxmax()]
+        span = str(top["year"])
         label = _lower(vocabulary.index_label(moved.index))
         number = lambda v: vocabulary.figure(vocabulary.tidy_zero(pd.Series([v]))[0], digits=4)  # noqa: E731
         share = vocabulary.percent(vocabulary.tidy_zero(pd.Series([top["share"]]))[0])
@@ -562,9 +591,14 @@ class _Builder:
                 f"{number(top['value'])} ({share} of the change).",
                 Source(
                     "change",
-                    _cells({"level": "total", "component": "total"}, "value")
+                    _cells({"year": span, "level": "total", "component": "total"}, "value")
                     + _cells(
-                        {"level": top["level"], "group": "(all)", "component": top["component"]},
+                        {
+                            "year": span,
+                            "level": top["level"],
+                            "group": "(all)",
+                            "component": top["component"],
+                        },
                         "value",
                         "share",
                     ),
@@ -628,8 +662,9 @@ class _Builder:
                 more = len(members) - _MOST_CLUSTER_NAMES
                 said.append(
                     Sentence(
-                        f"{len(members)} district(s) form {cluster} clusters ({words}): {listed}"
-                        + (f" and {more} more." if more > 0 else "."),
+                        f"{len(members)} district(s) form {cluster} clusters ({words})"
+                        + (": " if more <= 0 else ", among them ")
+                        + f"{listed}.",
                         Source("cluster counts", _cells({"cluster": cluster}, "districts")),
                     )
                 )
@@ -674,7 +709,9 @@ class _Builder:
         ranked = ranking(map_values(panel, table, view.year, "fgt_0"))
         ranked = self.table(
             "poverty ranking",
-            ranked[["region", "name", "value", "lower", "upper", "rank", "rank_range"]],
+            ranked.assign(year=view.year)[
+                ["region", "name", "year", "value", "lower", "upper", "rank", "rank_range"]
+            ],
         )
         if ranked.empty:
             return said
@@ -683,10 +720,10 @@ class _Builder:
             f"The highest headcount ratio is in {_district(top)}, "
             f"{self.words.with_range(top, 'fgt_0')}"
         )
-        cells = _cells({"region": top["region"]}, *_range_columns(top))
+        cells = _cells({"region": top["region"], "year": view.year}, *_range_columns(top))
         if top["rank_range"]:
             text += f"; its possible ranks are {top['rank_range']}"
-            cells += _cells({"region": top["region"]}, "rank_range")
+            cells += _cells({"region": top["region"], "year": view.year}, "rank_range")
         said.append(Sentence(text + ".", Source("poverty ranking", cells)))
         return said
 
@@ -696,7 +733,10 @@ class _Builder:
             return []
         table = series.values(panel, self.compute, "poverty_rate", view.method, view=view)
         ranked = ranking(map_values(panel, table, view.year, "poverty_rate"))
-        ranked = self.table("poverty ranking", ranked[["region", "name", "value", "rank"]])
+        ranked = self.table(
+            "poverty ranking",
+            ranked.assign(year=view.year)[["region", "name", "year", "value", "rank"]],
+        )
         if ranked.empty:
             return []
         top = ranked.iloc[0].to_dict()
@@ -706,7 +746,9 @@ class _Builder:
                 f"The source publishes a poverty rate; in {view.year} it is highest in "
                 f"{_district(top)}, {self.words.number(top['value'], 'poverty_rate')} "
                 f"({scale}, as published).",
-                Source("poverty ranking", _cells({"region": top["region"]}, "value")),
+                Source(
+                    "poverty ranking", _cells({"region": top["region"], "year": view.year}, "value")
+                ),
             )
         ]
 
@@ -726,12 +768,13 @@ class _Builder:
         stated = {k: str(v) for k, v in given.items() if v}
         frame = pd.DataFrame(
             {
-                "fact": ["kind", "districts", "first_year", "last_year", *stated],
+                "fact": ["kind", "districts", "first_year", "last_year", "set_aside", *stated],
                 "value": [
                     vocabulary.KIND_LABELS.get(panel.kind, panel.kind),
                     str(len(panel.regions)),
                     str(panel.years[0]),
                     str(panel.years[-1]),
+                    str(len(panel.excluded)),
                     *stated.values(),
                 ],
             }
@@ -796,18 +839,25 @@ class _Builder:
             f"{r.name} ({r.region}) {r.year}: {r.reason}" for r in shown.itertuples()
         )
         more = len(rows) - len(shown)
-        cells = tuple(
+        cells = _cells({"fact": "set_aside"}, "value", table="facts") + tuple(
             c
             for r in shown.itertuples()
             for c in _cells({"region": r.region, "year": r.year}, "reason")
         )
         return [
             Sentence(
-                f"{len(rows)} district-year(s) were set aside and are in no figure: {listed}"
-                + (f"; and {more} more." if more > 0 else "."),
+                f"{len(rows)} district-year(s) were set aside and are in no figure"
+                + (": " if more <= 0 else ", among them ")
+                + f"{listed}.",
                 Source("set aside", cells),
             )
         ]
+
+
+def _cannot(what: str, error: DataError) -> Sentence:
+    """Why a figure is missing, in the words of the data check that refused it."""
+    reason = error.problems[0].message.rstrip(".") if error.problems else str(error)
+    return Sentence(f"{what}: {reason}.")
 
 
 def _rank_span(text: str) -> tuple[int, int]:
