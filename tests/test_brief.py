@@ -66,7 +66,9 @@ def _shown(told: Briefing, panel, table: str, column: str, value) -> list[str]:
         return [vocabulary.percent(value, 0)]
     if table in ("cluster counts", "clusters"):
         return [str(int(value))]
-    key = ("poverty_rate" if panel.kind == "published" else "fgt_0") if "poverty" in table else index
+    key = (
+        ("poverty_rate" if panel.kind == "published" else "fgt_0") if "poverty" in table else index
+    )
     return [
         vocabulary.figure(
             value, money=series.is_money(panel, key), digits=vocabulary.digits_of(panel, key)
@@ -285,7 +287,10 @@ def test_the_driver_of_the_change_is_the_largest_term():
     # Mookherjee & Shorrocks (1982), Economic Journal 92: 886-902: the terms and the
     # residual add up to the total change (checked here before naming the largest term).
     total = terms[terms["component"] == "total"]["value"].iloc[0]
-    assert abs(parts["value"].sum() + terms[terms["component"] == "residual"]["value"].sum() - total) < 1e-9
+    assert (
+        abs(parts["value"].sum() + terms[terms["component"] == "residual"]["value"].sum() - total)
+        < 1e-9
+    )
     text = told.paragraph("split").text
     assert vocabulary.part_label(top["component"], top["level"]) in text
 
@@ -325,13 +330,17 @@ def _view_file(tmp_path, **fields):
 def test_rift_brief_writes_text_and_markdown(tmp_path, capsys):
     view = _view_file(tmp_path, dataset="demo-means", districts=("CAL01",))
     panel = readers.demo_panel("means")
-    told = briefing(panel, ViewState(dataset="demo-means", districts=("CAL01",)), PlainCompute(panel))
+    told = briefing(
+        panel, ViewState(dataset="demo-means", districts=("CAL01",)), PlainCompute(panel)
+    )
     assert cli.main(["brief", str(view), "--out", str(tmp_path / "b.txt")]) == 0
     text = (tmp_path / "b.txt").read_text(encoding="utf-8")
     assert text.startswith("Briefing: Demo: district means, 2025")
     for paragraph in told.paragraphs:
         assert f"{paragraph.title}\n{paragraph.text}" in text
-    assert cli.main(["brief", str(view), "--format", "markdown", "--out", str(tmp_path / "b.md")]) == 0
+    assert (
+        cli.main(["brief", str(view), "--format", "markdown", "--out", str(tmp_path / "b.md")]) == 0
+    )
     markdown = (tmp_path / "b.md").read_text(encoding="utf-8")
     assert markdown.startswith("# Briefing")
     assert [line[3:] for line in markdown.splitlines() if line.startswith("## ")] == [

@@ -248,7 +248,9 @@ def _range_columns(row: Mapping[str, Any]) -> tuple[str, ...]:
 
 
 def _district(row: Mapping[str, Any]) -> str:
-    return f"{row['name']} ({row['region']})"
+    """``Port Idrel (CAL01)``; the id alone where the district has no other name."""
+    name, region = str(row["name"]), str(row["region"])
+    return region if name == region else f"{name} ({region})"
 
 
 # --------------------------------------------------------------------------- paragraphs
@@ -369,7 +371,7 @@ class _Builder:
             if view.year not in mine.index:
                 continue
             now = mine.loc[view.year]
-            name = f"{now['name']} ({region})"
+            name = _district({"name": now["name"], "region": region})
             keys = {"region": region, "year": view.year}
             said.append(
                 Sentence(

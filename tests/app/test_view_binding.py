@@ -30,7 +30,7 @@ NOT_VIEW_SETTINGS = {
 #: Keys with these starts belong to reading an uploaded file (its column map, sheet, layer).
 UPLOAD_PREFIXES = ("in_",)
 
-PAGES = ("atlas", "timelines", "breakdown", "district", "intake")
+PAGES = ("atlas", "timelines", "breakdown", "district", "briefing", "intake")
 
 
 def _widgets(at: AppTest) -> list[Widget]:
