@@ -90,8 +90,7 @@ def check_every_number(told: Briefing, panel) -> int:
             frame = told.tables[sentence.source.table_of(cell)]
             hit = np.ones(len(frame), dtype=bool)
             for key, value in cell.keys:
-                if key != "table":
-                    hit &= (frame[key] == value).to_numpy()
+                hit &= (frame[key] == value).to_numpy()
                 keys.update(re.findall(r"\d+", str(value)))
             assert hit.sum() == 1, (sentence.text, cell)
             value = frame.loc[hit, cell.column].iloc[0]
