@@ -280,6 +280,7 @@ def test_page_names_are_our_own():
         "Timelines",
         "Breakdown",
         "District sheet",
+        "Briefing",
         "Intake",
     ]
 
