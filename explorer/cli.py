@@ -1,4 +1,4 @@
-"""The ``rift`` command line: app, check, compute, decompose, spatial, report.
+"""The ``rift`` command line: app, check, compute, decompose, spatial, report, brief.
 
 Every command reads its panel through :func:`explorer.data.load.load_panel`, so the command line
 and the app accept exactly the same files. Problems with the input are printed one per
@@ -278,6 +278,12 @@ def build_parser() -> argparse.ArgumentParser:
     report.add_argument("view", help="view file (.json) saved from the app")
     report.add_argument("--out", metavar="FILE.html", required=True)
     report.add_argument("--data", metavar="DIR", help="workspace holding the view's dataset")
+
+    brief = commands.add_parser("brief", help="a saved view in a few paragraphs of plain words")
+    brief.add_argument("view", help="view file (.json) saved from the app")
+    brief.add_argument("--format", choices=("text", "markdown"), default="text")
+    brief.add_argument("--out", metavar="FILE", help="write here (default: standard output)")
+    brief.add_argument("--data", metavar="DIR", help="workspace holding the view's dataset")
     return parser
 
 
@@ -740,6 +746,41 @@ def run_report(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
+def run_brief(args: argparse.Namespace) -> int:
+    """The briefing of a view file as text or Markdown (:mod:`explorer.figures.brief`)."""
+    from explorer import figures, views
+    from explorer.data import catalog
+
+    view, notices = views.from_json(_read_view_file(Path(args.view)))
+    for notice in notices:
+        print(f"note: {notice}", file=sys.stderr)
+    out = Path(args.out) if args.out else None
+    if out is not None and out.resolve() in _inputs(args):
+        raise DataError(
+            [
+                Problem(
+                    "the briefing would overwrite the view file",
+                    file=str(out),
+                    fix="choose another --out name",
+                )
+            ]
+        )
+    panel = catalog.open_dataset(view.dataset, args.data)
+    _report_set_aside(panel)
+    told = figures.briefing(panel, view, figures.PlainCompute(panel))
+    heading = vocabulary.briefing_heading(told.view, panel)
+    text = told.as_markdown(heading) if args.format == "markdown" else told.as_text(heading)
+    if out is None:
+        sys.stdout.write(text)
+        return EXIT_OK
+    out.parent.mkdir(parents=True, exist_ok=True)
+    temporary = out.with_name(f".{out.name}.part")
+    temporary.write_text(text, encoding="utf-8")
+    os.replace(temporary, out)
+    print(f"wrote {out}", file=sys.stderr)
+    return EXIT_OK
+
+
 COMMANDS = {
     "app": run_app,
     "check": run_check,
@@ -747,6 +788,7 @@ COMMANDS = {
     "decompose": run_decompose,
     "spatial": run_spatial,
     "report": run_report,
+    "brief": run_brief,
 }
 
 

@@ -16,6 +16,7 @@ from explorer.figures.breakdown import (
     poverty_split,
     split_index,
 )
+from explorer.figures.brief import Briefing, briefing
 from explorer.figures.compute import Compute, PlainCompute
 from explorer.figures.district import Comparison, DistrictFigures, compare, district
 from explorer.figures.report import ReportSections, report_for_view, report_html, sections
@@ -27,6 +28,7 @@ from explorer.figures.timelines import Convergence, TimelineFigures, convergence
 __all__ = [
     "AtlasFigures",
     "BreakdownFigures",
+    "Briefing",
     "ChangeFigures",
     "ClusterLayer",
     "CompareFigures",
@@ -41,6 +43,7 @@ __all__ = [
     "TimelineFigures",
     "atlas",
     "breakdown",
+    "briefing",
     "change",
     "cluster_layer",
     "compare",

@@ -17,6 +17,7 @@ from explorer.data.model import Panel
 from explorer.figures import report_tables
 from explorer.figures.atlas import AtlasFigures, atlas
 from explorer.figures.breakdown import breakdown, change, poverty_split
+from explorer.figures.brief import briefing
 from explorer.figures.compute import Compute, PlainCompute
 from explorer.figures.district import district
 from explorer.figures.settle import settle
@@ -43,6 +44,8 @@ class ReportSections:
     notes: list[str]
     cautions: list[str]
     absent: list[str] = field(default_factory=list)
+    #: The briefing's paragraphs as (title, sentences), printed first.
+    briefing: tuple[tuple[str, tuple[str, ...]], ...] = ()
 
 
 def _map_section(found: AtlasFigures, kind: str, tables: dict, built: dict, absent: list) -> None:
@@ -194,7 +197,11 @@ def sections(view: ViewState, panel: Panel, compute: Compute | None = None) -> R
         income_concept=panel.income_concept,
         change=changed,
     )
-    return ReportSections(view, _panel_info(view, panel), tables, built, notes, warnings, absent)
+    told = briefing(panel, view, compute)
+    said = tuple((p.title, tuple(s.text for s in p.sentences)) for p in told.paragraphs)
+    return ReportSections(
+        view, _panel_info(view, panel), tables, built, notes, warnings, absent, said
+    )
 
 
 def report_html(view: ViewState, panel: Panel, compute: Compute | None = None) -> str:
@@ -209,6 +216,7 @@ def report_html(view: ViewState, panel: Panel, compute: Compute | None = None) -
         cautions=parts.cautions,
         facts_line=_facts_line(panel),
         absent=parts.absent,
+        briefing=parts.briefing,
     )
 
 

@@ -211,6 +211,17 @@ def _figure(name: str, chart: alt.TopLevelMixin, facts_line: str = "") -> str:
     return f"<figure><figcaption>{_e(name + said)}</figcaption>{svg}</figure>"
 
 
+def _briefing(paragraphs: Sequence[tuple[str, Sequence[str]]]) -> str:
+    """The briefing's paragraphs, every sentence escaped (names come from the data)."""
+    if not paragraphs:
+        return ""
+    body = "".join(
+        f"<h3>{_e(title)}</h3><p>{' '.join(_e(s) for s in sentences)}</p>"
+        for title, sentences in paragraphs
+    )
+    return f"<section class='briefing'><h2>Briefing</h2>{body}</section>"
+
+
 def _footer(name: object, fingerprint: object, when: str) -> str:
     """The line on every printed page: which data, which version of them, when."""
     return (
@@ -236,6 +247,7 @@ def build_report(
     generated: datetime | None = None,
     facts_line: str = "",
     absent: Sequence[str] = (),
+    briefing: Sequence[tuple[str, Sequence[str]]] = (),
 ) -> str:
     """The view as one self-contained HTML document.
 
@@ -263,6 +275,8 @@ def build_report(
         title and in every figure's caption.
     absent : sequence of str
         One sentence per section the view leaves out, saying why.
+    briefing : sequence of (str, sequence of str)
+        The briefing's paragraphs, each a title and its sentences, printed at the top.
 
     Returns
     -------
@@ -289,6 +303,7 @@ def build_report(
         f"<p class='meta'>Generated {_e(when)} · data fingerprint "
         f"<code>{_e(fingerprint)}</code></p>",
         f"<p class='facts'>{_e(facts_line)}</p>" if facts_line else "",
+        _briefing(briefing),
         "<h2>Read this first</h2>",
         _list(list(cautions), "cautions"),
         "<h2>The data</h2>",

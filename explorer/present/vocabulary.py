@@ -328,7 +328,43 @@ PAGES: dict[str, Page] = {
     "breakdown": Page("Breakdown", ":material/stacked_bar_chart:", "breakdown.py"),
     "district": Page("District sheet", ":material/description:", "district.py"),
     "compare": Page("Compare", ":material/compare_arrows:", "compare.py"),
+    "briefing": Page("Briefing", ":material/summarize:", "briefing.py"),
     "intake": Page("Intake", ":material/upload_file:", "intake.py"),
+}
+
+#: Briefing paragraph key -> its title (explorer.figures.brief).
+BRIEFING_PARAGRAPHS = {
+    "level": "The province",
+    "districts": "The districts at either end",
+    "split": "Within and between groups",
+    "clusters": "Where similar districts sit together",
+    "poverty": "Poverty",
+    "data": "The data and the cautions",
+}
+#: Table a briefing sentence cites -> its name where the sources are listed.
+BRIEFING_TABLES = {
+    "province": "Province figure by year (Timelines)",
+    "districts": "Chosen districts by year (Timelines)",
+    "ranking": "District ranking (Map)",
+    "split": "Split of the province's index (Breakdown)",
+    "change": "Change terms (Breakdown)",
+    "clusters": "Global Moran's I (Map, local clusters)",
+    "cluster counts": "Districts in each kind of cluster (Map, local clusters)",
+    "poverty province": "Province headcount ratio by year (Timelines)",
+    "poverty ranking": "District ranking by headcount ratio (Map)",
+    "view": "The view's settings",
+    "facts": "The dataset's facts",
+    "set aside": "District-years set aside",
+    "cautions": "Cautions",
+    "rules": "The briefing's rules (rise or fall without bounds; clustering level)",
+}
+#: Column titles of the table listing where each briefing sentence comes from.
+BRIEFING_SOURCE_COLUMNS = {
+    "paragraph": "Paragraph",
+    "sentence": "Sentence",
+    "table": "Table",
+    "rows": "Rows",
+    "columns": "Columns",
 }
 
 #: Built-in dataset id -> (name in the dataset list, kind of demo data).
@@ -660,6 +696,11 @@ def filter_text(view: Any, panel: Any) -> str:
     word = groups_word(levels[-1], plural=len(chosen) > 1) if levels else "groups"
     names = ", ".join(chosen[:-1]) + (" and " if len(chosen) > 1 else "") + chosen[-1]
     return f", only the districts of the {word} {names}"
+
+
+def briefing_heading(view: Any, panel: Any) -> str:
+    """The title of a briefing: which data and which year."""
+    return f"Briefing: {dataset_name(view, panel)}{filter_text(view, panel)}, {view.year}"
 
 
 def describe_view(view: Any, panel: Any) -> str:

@@ -107,7 +107,7 @@ def _every_markdown_text(at: AppTest) -> list[tuple[str, str]]:
 
 
 @pytest.mark.parametrize(
-    "name", ["atlas", "timelines", "breakdown", "district", "compare", "intake"]
+    "name", ["atlas", "timelines", "breakdown", "district", "compare", "briefing", "intake"]
 )
 def test_dataset_facts_and_names_with_markup_are_text_in_every_element(app, tmp_path, name):
     from explorer.data.dataset_store import DatasetFacts
@@ -127,7 +127,7 @@ def test_dataset_facts_and_names_with_markup_are_text_in_every_element(app, tmp_
     assert any(plain(LINK) in text for _, text in texts), texts
 
 
-@pytest.mark.parametrize("name", ["atlas", "timelines", "breakdown", "district", "compare"])
+@pytest.mark.parametrize("name", ["atlas", "timelines", "breakdown", "district", "compare", "briefing"])
 def test_names_with_markup_are_shown_as_typed_on_every_page(app, tmp_path, name):
     dataset = _hostile_demo(tmp_path / "workspace")
     app.query_params.update({"d": dataset, "sel": "BRE01,BRE02"})

@@ -30,7 +30,7 @@ NOT_VIEW_SETTINGS = {
 #: Keys with these starts belong to reading an uploaded file (its column map, sheet, layer).
 UPLOAD_PREFIXES = ("in_",)
 
-PAGES = ("atlas", "timelines", "breakdown", "district", "compare", "intake")
+PAGES = ("atlas", "timelines", "breakdown", "district", "compare", "briefing", "intake")
 
 
 def _widgets(at: AppTest) -> list[Widget]:
