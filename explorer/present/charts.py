@@ -517,6 +517,7 @@ def trajectories(
     title: str | None = None,
     caption: str | None = None,
     label: str | None = None,
+    carried: pd.DataFrame | None = None,
 ) -> alt.Chart:
     """One line per district over the years, chosen districts emphasised.
 
@@ -536,6 +537,11 @@ def trajectories(
     title, caption : str, optional
     label : str, optional
         The value axis's title; by default the index's.
+    carried : DataFrame, optional
+        ``region, year, carried``: district-years carried across boundary changes, with
+        the words saying how (``carried to the 2011 boundaries: merged from A, B``); drawn
+        as hollow points on the chosen districts' lines, the words in the legend and the
+        tooltip.
 
     Returns
     -------
@@ -550,6 +556,7 @@ def trajectories(
         raise ValueError("trajectories by county need a 'county' column in the table")
     chosen = [str(h) for h in highlight]
     rows["role"] = np.where(rows["region"].astype(str).isin(chosen), "highlight", "district")
+    rows = _with_carried(rows, carried)
     parts = [rows]
     if province is not None and len(province):
         line = _records(province[["year", "value"]])
@@ -590,6 +597,23 @@ def trajectories(
                 x=x, y=y, color=colour, detail="region:N", tooltip=tips
             )
         )
+        if (data["carried"] != "").any():
+            # hollow points over the filled ones: the years carried, the words in the legend
+            layers.append(
+                highlighted.transform_filter("datum.carried !== ''")
+                .mark_point(filled=True, fill="#ffffff", size=110, strokeWidth=2.5, opacity=1)
+                .encode(
+                    x=x,
+                    y=y,
+                    color=alt.Color("name:N", scale=alt.Scale(range=list(OKABE_ITO)), legend=None),
+                    shape=alt.Shape(
+                        "carried:N",
+                        title="Hollow points",
+                        legend=alt.Legend(orient="bottom", direction="vertical", labelLimit=0),
+                    ),
+                    tooltip=[*tips, alt.Tooltip("carried:N", title="Boundary changes")],
+                )
+            )
     if province is not None and len(province):
         layers.append(
             base.transform_filter("datum.role === 'province'")
@@ -607,6 +631,19 @@ def trajectories(
             facet=alt.Facet("county:N", title="County"), columns=3, title=_title(title, caption)
         )
     return chart.properties(title=_title(title, caption), width=620, height=360)
+
+
+def _with_carried(rows: pd.DataFrame, carried: pd.DataFrame | None) -> pd.DataFrame:
+    """Each row's words on how it was carried ('' where it was not): chosen districts only."""
+    rows = rows.assign(carried="")
+    if carried is None or carried.empty:
+        return rows
+    said = carried.assign(region=carried["region"].astype(str), year=carried["year"].astype(int))
+    said = said.drop_duplicates(["region", "year"]).set_index(["region", "year"])["carried"]
+    keys = pd.MultiIndex.from_arrays([rows["region"].astype(str), rows["year"].astype(int)])
+    words = said.reindex(keys).fillna("").to_numpy(dtype=object)
+    rows["carried"] = np.where(rows["role"].to_numpy() == "highlight", words, "")
+    return rows
 
 
 def rank_over_time(

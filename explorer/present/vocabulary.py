@@ -823,7 +823,8 @@ def carried_label(to_vintage: int, how: str) -> str:
 
 CARRIED_MARK = "carried"  # the marks' series name in charts
 CARRIED_CAPTION = (
-    "Hollow points are district-years carried to the {year} boundaries from earlier "
+    "Hollow points on the chosen districts' lines are district-years carried to the {year} "
+    "boundaries from earlier "
     "districts (weights {weights}); each point's tooltip says how. Carried figures assume "
     "each piece has its district's distribution: read them as estimates, and prefer "
     "years kept as published before ranking districts for funds."
