@@ -569,6 +569,7 @@ def trajectories(
         parts.append(line)
     data = pd.concat(parts, ignore_index=True)
     data["year"] = data["year"].astype(int)
+    data["carried"] = data["carried"].fillna("").astype(object)
     tips = [alt.Tooltip("name:N", title="District"), alt.Tooltip("year:O", title="Year")]
     tips += _interval_tooltips(data, label)
     x = _YEAR_X
