@@ -602,15 +602,24 @@ def trajectories(
             # hollow points over the filled ones: the years carried, the words in the legend
             layers.append(
                 highlighted.transform_filter("datum.carried !== ''")
-                .mark_point(filled=True, fill="#ffffff", size=110, strokeWidth=2.5, opacity=1)
+                .mark_point(filled=False, fill="#ffffff", size=110, strokeWidth=2.5, opacity=1)
                 .encode(
                     x=x,
                     y=y,
-                    color=alt.Color("name:N", scale=alt.Scale(range=list(OKABE_ITO)), legend=None),
+                    stroke=alt.Stroke(
+                        "name:N", scale=alt.Scale(range=list(OKABE_ITO)), legend=None
+                    ),
                     shape=alt.Shape(
                         "carried:N",
                         title="Hollow points",
-                        legend=alt.Legend(orient="bottom", direction="vertical", labelLimit=0),
+                        legend=alt.Legend(
+                            orient="bottom",
+                            direction="vertical",
+                            labelLimit=0,
+                            symbolFillColor="#ffffff",
+                            symbolStrokeColor="#444444",
+                            symbolStrokeWidth=2,
+                        ),
                     ),
                     tooltip=[*tips, alt.Tooltip("carried:N", title="Boundary changes")],
                 )
