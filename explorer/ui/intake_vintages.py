@@ -207,9 +207,3 @@ def carry(panel: Any, panel_name: str, first: Any, changes: Changes, folder_path
 def sources(changes: Changes) -> list[tuple[str, bytes]]:
     """The files of the changes as (name, bytes), stored with the dataset."""
     return [(u.name, u.getvalue()) for u in changes.uploads()]
-
-
-def said(lines: list[str]) -> None:
-    """What carrying said (weights derived, slivers, approximations), as notices."""
-    for line in lines:
-        show.notice(line, "info")
