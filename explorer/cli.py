@@ -512,19 +512,13 @@ def run_check(args: argparse.Namespace) -> int:
             raise DataError(
                 [Problem("the demo is built in and needs no saving", fix="save your own files")]
             )
-        if cli_vintages.wanted(args):
-            raise DataError(
-                [
-                    Problem(
-                        "a panel carried across boundary changes is not stored in the workspace",
-                        fix="store the panel with one --boundaries FILE, or write the carried "
-                        "figures with 'rift compute ... --out FILE'",
-                    )
-                ]
-            )
         workspace = Workspace(Path(args.data)) if args.data else Workspace()
-        extra = (_plain_boundaries(args), args.population, args.crosswalk)
+        carried = cli_vintages.wanted(args)
+        extra = (None if carried else _plain_boundaries(args), args.population, args.crosswalk)
         sources = [Path(args.panel)] + [Path(p) for p in extra if p]
+        if carried:
+            # every boundary vintage, the change table and the finer layer make the dataset
+            sources += cli_vintages.paths(args)
         options = {
             "kind": args.kind,
             "column_map": args.map,
@@ -537,6 +531,8 @@ def run_check(args: argparse.Namespace) -> int:
             "population": Path(args.population).name if args.population else None,
             "crosswalk": _crosswalk_pairs(args.crosswalk),
         }
+        if carried:
+            options["carrying"] = cli_vintages.options(args)
         dataset = workspace.add(panel, sources, options)
         print(f"saved as dataset {dataset} in {workspace.root}")
     return EXIT_BAD_INPUT if set_aside else EXIT_OK

@@ -15,9 +15,10 @@ import sys
 from collections import Counter
 from pathlib import Path
 
+from explorer.data.carrying import with_carrying
 from explorer.data.model import DataError, Panel, Problem
 
-__all__ = ["add_arguments", "carry", "paths", "wanted"]
+__all__ = ["add_arguments", "carry", "options", "paths", "wanted"]
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
@@ -68,6 +69,17 @@ def paths(args: argparse.Namespace) -> list[Path]:
         if value:
             out.append(Path(value))
     return out
+
+
+def options(args: argparse.Namespace) -> dict:
+    """The carrying options that make a stored dataset what it is (part of its id)."""
+    from explorer.data.vintages import parse_spec
+
+    return {
+        "vintages": [parse_spec(s)[1] for s in getattr(args, "boundaries", None) or []],
+        "to_vintage": getattr(args, "to_vintage", None),
+        "finer_column": args.finer_column if getattr(args, "finer", None) else None,
+    }
 
 
 def carry(panel: Panel, args: argparse.Namespace) -> Panel:
@@ -131,7 +143,29 @@ def carry(panel: Panel, args: argparse.Namespace) -> Panel:
     print(f"carried to the {target} boundaries: {said} (district-years)", file=sys.stderr)
     for note in result.notes:
         print(f"note: {note}", file=sys.stderr)
-    return result.panel
+    return with_carrying(result.panel, _account(result, dated, args))
+
+
+def _account(result, dated, args: argparse.Namespace):
+    """What the stored dataset keeps of the carrying: record, files and their sizes."""
+    from explorer.data.carrying import new_carrying
+    from explorer.data.vintages import parse_spec
+
+    sizes = {}
+    for spec in getattr(args, "boundaries", None) or []:
+        path = Path(parse_spec(spec)[0])
+        sizes[path.name] = path.stat().st_size
+    if getattr(args, "changes", None):
+        changes = {"weights": "table", "file": Path(args.changes).name}
+        changes["bytes"] = Path(args.changes).stat().st_size
+    elif getattr(args, "finer", None):
+        changes = {"weights": "finer", "file": Path(args.finer).name}
+        changes["bytes"] = Path(args.finer).stat().st_size
+        changes["column"] = args.finer_column
+    else:
+        changes = {"weights": "area"}
+    triples = [(v.file, v.year, sizes.get(v.file, 0)) for v in dated]
+    return new_carrying(result.to_vintage, result.carried, triples, changes, result.notes)
 
 
 def _derived(dated, args: argparse.Namespace, overlay):

@@ -7,11 +7,11 @@ default, and a plain-language notice says what was ignored.
 
 Link keys (short, so links stay readable):
 
-========== ======================= ====================================================
+========== ======================= ============================================================
 key        field                   form
-========== ======================= ====================================================
+========== ======================= ============================================================
 ``d``      ``dataset``             dataset id
-``pg``     ``page``                map, timelines, breakdown, district, briefing, intake
+``pg``     ``page``                map, timelines, breakdown, district, compare, briefing, intake
 ``y``      ``year``                4-digit year
 ``y0``     ``year_from``           4-digit year
 ``y1``     ``year_to``             4-digit year
@@ -31,7 +31,7 @@ key        field                   form
 ``pr``     ``relative_to``         province or district (whose median or mean)
 ``cy``     ``compare_years``       comma-separated years (Compare: one district, 2–6 years)
 ``rk``     ``clear_ranks``         1 or 0 (Map: only districts whose rank is clear)
-========== ======================= =========================================
+========== ======================= ============================================================
 Fields at their default are left out of a link. A view file is JSON:
 ``{"rift_view": 1, "dataset": "demo", "page": "map", ...}`` with the field names above.
 """

@@ -62,6 +62,8 @@ if against is not None:
 view = ui.current_view()
 sheet = figures.district(panel, view, opened.compute)
 ui.markdown("**{}**", sheet.heading)
+if sheet.carried:
+    ui.notice(sheet.carried, "info")
 
 if panel.kind == "means":
     st.info("District means only: no Lorenz curve or inequality inside the district.")

@@ -4,7 +4,7 @@ import streamlit as st
 
 from explorer import ui
 from explorer.data.model import DataError
-from explorer.ui import intake
+from explorer.ui import intake, intake_vintages
 
 opened = ui.open_view()
 view, panel = opened.view, opened.panel
@@ -38,11 +38,14 @@ with upload_tab:
         type=["csv", "txt", "tsv", "xlsx"],
         key="intake_population",
     )
+    changes = intake_vintages.boundary_changes(boundary_files)
     if panel_file is not None:
         options = intake.reading_options(panel_file, boundary_files, population_file)
         if st.button("Read and check", type="primary", key="intake_read"):
             try:
-                loaded = intake.read_upload(panel_file, boundary_files, options, population_file)
+                loaded = intake.read_upload(
+                    panel_file, boundary_files, options, population_file, changes
+                )
             except DataError as error:
                 ui.problems(error, heading="The files could not be used")
             else:

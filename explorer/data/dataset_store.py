@@ -33,6 +33,7 @@ from explorer.data.atomic import (
     temp_name,
     write_text_atomic,
 )
+from explorer.data.carrying import RECORD_COLUMNS, Carrying, carrying_of, with_carrying
 from explorer.data.model import KIND_COLUMNS, DataError, Panel, Problem, fail
 from explorer.data.naming import as_text, display_name
 
@@ -399,6 +400,9 @@ class DatasetStore:
         tables = {"data": panel.data, "hierarchy": panel.hierarchy, "excluded": excluded}
         if panel.boundaries is not None:
             tables["boundaries"] = panel.boundaries
+        carrying = carrying_of(panel)
+        if carrying is not None:
+            tables["carried"] = carrying.record
         for name, frame in tables.items():
             path = folder / f"{name}.parquet"
             # A shallow copy without attrs: pandas stores attrs as JSON, and readers'
@@ -427,6 +431,7 @@ class DatasetStore:
             "years": years,
             "warnings": [_problem_record(w) for w in panel.warnings],
             "files": files,
+            **({"carrying": carrying.manifest()} if carrying is not None else {}),
         }
 
     def _complete(self, folder: Path) -> bool:
@@ -538,6 +543,7 @@ class DatasetStore:
         if "boundaries.parquet" in manifest["files"]:
             boundaries = self._read_boundaries(ident)
         self._check_tables(ident, manifest, frames, boundaries)
+        carrying = self._read_carrying(ident, manifest)
 
         try:
             warnings = tuple(Problem(**w) for w in manifest["warnings"])
@@ -560,11 +566,38 @@ class DatasetStore:
         if not facts.name:
             facts = dataclasses.replace(facts, name=str(manifest["name"] or ""))
         try:
-            return with_facts(Panel(**{k: v for k, v in values.items() if k in names}), facts)
+            panel = with_facts(Panel(**{k: v for k, v in values.items() if k in names}), facts)
         except DataError:
             raise
         except (TypeError, ValueError) as exc:
             raise _damaged(ident, f"its tables do not form a panel ({exc})", ident) from None
+        return with_carrying(panel, carrying) if carrying is not None else panel
+
+    def _read_carrying(self, ident: str, manifest: dict[str, Any]) -> Carrying | None:
+        """The account of a carried dataset: its record table and its manifest entry.
+
+        A dataset stored before carried panels could be stored has neither and opens as
+        before; one with only one of the two, or a malformed entry, is damaged.
+        """
+        entry = manifest.get("carrying")
+        listed = "carried.parquet" in manifest["files"]
+        if entry is None and not listed:
+            return None
+        where = f"{ident}/carried.parquet"
+        if not listed:
+            raise _damaged(ident, "carried.parquet is missing", where)
+        if not isinstance(entry, dict):
+            raise _damaged(ident, "its manifest lacks a valid 'carrying'", f"{ident}/{_MANIFEST}")
+        record = self._read_table(ident, "carried")
+        missing = [c for c in RECORD_COLUMNS if c not in record.columns]
+        if missing:
+            raise _damaged(ident, f"carried.parquet lacks the columns {', '.join(missing)}", where)
+        try:
+            return Carrying.from_manifest(entry, record)
+        except (KeyError, TypeError, ValueError) as exc:
+            raise _damaged(
+                ident, f"its account of carrying is malformed ({exc})", f"{ident}/{_MANIFEST}"
+            ) from None
 
     def _read_table(self, ident: str, table: str) -> pd.DataFrame:
         path = self.datasets_dir / ident / f"{table}.parquet"

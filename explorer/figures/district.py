@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Any
 
 import numpy as np
@@ -10,6 +10,7 @@ import pandas as pd
 
 from explorer.data.model import Panel
 from explorer.figures import series
+from explorer.figures.carried import district_note
 from explorer.figures.compute import Compute
 from explorer.figures.tables import (
     county_level,
@@ -69,6 +70,8 @@ class DistrictFigures:
     and growth of the view's year as label, value pairs). For published figures
     ``published`` lists the district's figures of the year with their rank and scale, and
     ``means_chart`` draws the view's figure over time. The index parts are then None.
+    ``carried`` is the note of the district's years carried across boundary changes
+    (None when none were).
     """
 
     region: str
@@ -87,6 +90,7 @@ class DistrictFigures:
     published: pd.DataFrame | None = None
     welfare: pd.DataFrame | None = None
     growth: Growth | None = None
+    carried: str | None = None
 
 
 def district_heading(panel: Panel, region: str, year: int) -> tuple[str, str]:
@@ -150,8 +154,14 @@ def _lorenz(panel, view, compute, region, name):
 
 
 def district(panel: Panel, view: ViewState, compute: Compute) -> DistrictFigures:
-    """The sheet of the view's first district (the panel's first if none is chosen)."""
+    """The sheet of the view's first district (the panel's first if none is chosen), with
+    the note of its years carried across boundary changes."""
     region = view.districts[0] if view.districts else str(panel.regions[0])
+    sheet = _sheet(panel, view, compute, region)
+    return replace(sheet, carried=district_note(panel, region))
+
+
+def _sheet(panel: Panel, view: ViewState, compute: Compute, region: str) -> DistrictFigures:
     name, heading = district_heading(panel, region, view.year)
     if panel.kind == "means":
         return _means_sheet(panel, view, region, name, heading)

@@ -14,6 +14,7 @@ import numpy as np
 
 from explorer.data import catalog
 from explorer.data.model import Panel
+from explorer.figures import carried as carried_figures
 from explorer.figures import report_tables
 from explorer.figures.atlas import AtlasFigures, atlas
 from explorer.figures.breakdown import breakdown, change, poverty_split
@@ -185,6 +186,11 @@ def sections(view: ViewState, panel: Panel, compute: Compute | None = None) -> R
             "District sheet: no district is chosen in this view; choose one on the Map or "
             "the District sheet."
         )
+    carried = carried_figures.report_table(
+        panel, dict(zip(*(names(panel)[c] for c in ("region", "name")), strict=True))
+    )
+    if carried is not None:
+        tables[vocabulary.CARRIED_REPORT_TITLE] = carried
     if len(panel.excluded):
         named = dict(zip(*(names(panel)[c] for c in ("region", "name")), strict=True))
         tables["District-years set aside, with the reason"] = report_tables.set_aside_table(

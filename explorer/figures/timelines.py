@@ -8,6 +8,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from explorer.data.carrying import carried_years, carrying_of
 from explorer.data.model import Panel
 from explorer.figures import series
 from explorer.figures.compute import Compute
@@ -127,7 +128,8 @@ def convergence(panel: Panel) -> Convergence:
 @dataclass(frozen=True)
 class TimelineFigures:
     """The Timelines page: district series, the province line and convergence (None for
-    published figures, which carry no district means to compare)."""
+    published figures, which carry no district means to compare); ``carried`` the chosen
+    districts' points carried across boundary changes (:func:`carried_marks`)."""
 
     series: pd.DataFrame | None
     province: pd.DataFrame | None
@@ -135,6 +137,7 @@ class TimelineFigures:
     highlighted: pd.DataFrame | None
     convergence: Convergence | None
     notices: tuple[str, ...]
+    carried: pd.DataFrame | None = None
 
 
 def timelines(
@@ -148,6 +151,7 @@ def timelines(
     province = province_series(panel, view, compute)
     label = vocabulary.value_label(view, panel)
     province_words = " Dashed black: the whole province."
+    marks = carried_marks(panel, view, lines)
     chart = charts.trajectories(
         lines,
         index=view.index,
@@ -159,7 +163,9 @@ def timelines(
         caption=vocabulary.wrap(
             vocabulary.caption(view, panel, every_year=True)
             + (province_words if province is not None else "")
+            + _carried_caption(panel, marks)
         ),
+        carried=marks,
     )
     highlighted = None
     if view.districts:
@@ -177,4 +183,32 @@ def timelines(
             if panel.kind == "published"
             else "No province line for this index: it is not computed for the pooled province.",
         )
-    return TimelineFigures(lines, province, chart, highlighted, trend, notices)
+    return TimelineFigures(lines, province, chart, highlighted, trend, notices, marks)
+
+
+def carried_marks(panel: Panel, view: ViewState, lines: pd.DataFrame) -> pd.DataFrame:
+    """The chosen districts' drawn district-years that were carried across boundary changes.
+
+    Returns
+    -------
+    DataFrame
+        ``region, year, how, carried`` (``carried``: "carried to the <year> boundaries:
+        <how>"), one row per point that gets a hollow mark; empty when nothing was carried.
+    """
+    found = carried_years(panel, view.districts).assign(carried="")
+    carrying = carrying_of(panel)
+    if found.empty or carrying is None:
+        return found
+    drawn = lines[["region", "year"]].drop_duplicates().astype({"year": "int64"})
+    found = found.merge(drawn, on=["region", "year"])
+    found["carried"] = [vocabulary.carried_label(carrying.to_vintage, h) for h in found["how"]]
+    return found.reset_index(drop=True)
+
+
+def _carried_caption(panel: Panel, marks: pd.DataFrame) -> str:
+    carrying = carrying_of(panel)
+    if carrying is None or carried_years(panel).empty:
+        return ""
+    return " " + vocabulary.CARRIED_CAPTION.format(
+        year=carrying.to_vintage, weights=carrying.weights_said()
+    )

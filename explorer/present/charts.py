@@ -560,6 +560,7 @@ def trajectories(
     title: str | None = None,
     caption: str | None = None,
     label: str | None = None,
+    carried: pd.DataFrame | None = None,
 ) -> alt.Chart:
     """One line per district over the years, chosen districts emphasised.
 
@@ -579,6 +580,11 @@ def trajectories(
     title, caption : str, optional
     label : str, optional
         The value axis's title; by default the index's.
+    carried : DataFrame, optional
+        ``region, year, carried``: district-years carried across boundary changes, with
+        the words saying how (``carried to the 2011 boundaries: merged from A, B``); drawn
+        as hollow points on the chosen districts' lines, the words in the legend and the
+        tooltip.
 
     Returns
     -------
@@ -593,6 +599,7 @@ def trajectories(
         raise ValueError("trajectories by county need a 'county' column in the table")
     chosen = [str(h) for h in highlight]
     rows["role"] = np.where(rows["region"].astype(str).isin(chosen), "highlight", "district")
+    rows = _with_carried(rows, carried)
     parts = [rows]
     if province is not None and len(province):
         line = _records(province[["year", "value"]])
@@ -605,6 +612,7 @@ def trajectories(
         parts.append(line)
     data = pd.concat(parts, ignore_index=True)
     data["year"] = data["year"].astype(int)
+    data["carried"] = data["carried"].fillna("").astype(object)
     tips = [alt.Tooltip("name:N", title="District"), alt.Tooltip("year:O", title="Year")]
     tips += _interval_tooltips(data, label)
     x = _YEAR_X
@@ -633,6 +641,32 @@ def trajectories(
                 x=x, y=y, color=colour, detail="region:N", tooltip=tips
             )
         )
+        if (data["carried"] != "").any():
+            # hollow points over the filled ones: the years carried, the words in the legend
+            layers.append(
+                highlighted.transform_filter("datum.carried !== ''")
+                .mark_point(filled=False, fill="#ffffff", size=110, strokeWidth=2.5, opacity=1)
+                .encode(
+                    x=x,
+                    y=y,
+                    stroke=alt.Stroke(
+                        "name:N", scale=alt.Scale(range=list(OKABE_ITO)), legend=None
+                    ),
+                    shape=alt.Shape(
+                        "carried:N",
+                        title="Hollow points",
+                        legend=alt.Legend(
+                            orient="bottom",
+                            direction="vertical",
+                            labelLimit=0,
+                            symbolFillColor="#ffffff",
+                            symbolStrokeColor="#444444",
+                            symbolStrokeWidth=2,
+                        ),
+                    ),
+                    tooltip=[*tips, alt.Tooltip("carried:N", title="Boundary changes")],
+                )
+            )
     if province is not None and len(province):
         layers.append(
             base.transform_filter("datum.role === 'province'")
@@ -650,6 +684,19 @@ def trajectories(
             facet=alt.Facet("county:N", title="County"), columns=3, title=_title(title, caption)
         )
     return chart.properties(title=_title(title, caption), width=620, height=360)
+
+
+def _with_carried(rows: pd.DataFrame, carried: pd.DataFrame | None) -> pd.DataFrame:
+    """Each row's words on how it was carried ('' where it was not): chosen districts only."""
+    rows = rows.assign(carried="")
+    if carried is None or carried.empty:
+        return rows
+    said = carried.assign(region=carried["region"].astype(str), year=carried["year"].astype(int))
+    said = said.drop_duplicates(["region", "year"]).set_index(["region", "year"])["carried"]
+    keys = pd.MultiIndex.from_arrays([rows["region"].astype(str), rows["year"].astype(int)])
+    words = said.reindex(keys).fillna("").to_numpy(dtype=object)
+    rows["carried"] = np.where(rows["role"].to_numpy() == "highlight", words, "")
+    return rows
 
 
 def rank_over_time(

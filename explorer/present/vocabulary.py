@@ -807,3 +807,74 @@ def no_bound_text(kind: str) -> str:
 def money(low: float, high: float) -> str:
     """A class of incomes in whole currency units with thousands separators."""
     return f"{low:,.0f} – {high:,.0f}"
+
+
+# --------------------------------------------------------------------------- boundary changes
+
+#: The Intake page's "Boundary changes" part.
+VINTAGE_WORDS = {
+    "part": "Boundary changes (optional): districts that split, merge or move",
+    "intro": (
+        "When districts changed during the panel's years, give each year's figures on the "
+        "boundaries in force that year, add the later boundary file(s) with the year each "
+        "is valid from, and say where the change weights come from. Every year is then "
+        "carried to the districts of one set of boundaries, and each page says which "
+        "years were carried and how."
+    ),
+    "first_year": "The boundary file above is valid from (0: the panel's first year)",
+    "ordinal": {1: "second", 2: "third"},
+    "later_file": "A {n} boundary file (one file: GeoJSON, GeoPackage, zipped Shapefile, "
+    "GeoParquet)",
+    "later_year": "Valid from year",
+    "weights": "The change weights come from",
+    "weights_from": {
+        "table": "A change table (year, from, to, weight)",
+        "area": "The overlay of the boundary files (shares of area)",
+        "finer": "A finer layer of population (points or small areas)",
+    },
+    "table_file": "Change table: one row per piece (year, from, to, weight[, weight_kind])",
+    "finer_file": "Finer layer (points or small areas with a population count)",
+    "finer_column": "The finer layer's count to weigh by",
+    "target": "Carry every year to the boundaries valid from",
+    "latest": "the latest",
+    "none_yet": "No later boundary file: the panel is read on the one set of boundaries.",
+    "no_table": (
+        "the change weights are to come from a change table, but none was uploaded",
+        "upload the change table, or choose the overlay of the boundary files",
+    ),
+    "no_finer": (
+        "the change weights are to come from a finer layer, but none was uploaded",
+        "upload the finer layer, or choose the overlay of the boundary files",
+    ),
+    "first_file": (
+        "carrying across boundary changes needs the first boundaries as one file",
+        "upload the first boundaries as one file above (zip a Shapefile's parts together)",
+    ),
+    "no_year": (
+        "the {n} boundary file {file} has no year",
+        "give the year from which its boundaries are valid",
+    ),
+}
+
+
+def carried_label(to_vintage: int, how: str) -> str:
+    """The legend and caption words of a carried district-year."""
+    return f"carried to the {to_vintage} boundaries: {how}"
+
+
+CARRIED_MARK = "carried"  # the marks' series name in charts
+CARRIED_CAPTION = (
+    "Hollow points on the chosen districts' lines are district-years carried to the {year} "
+    "boundaries from earlier "
+    "districts (weights {weights}); each point's tooltip says how. Carried figures assume "
+    "each piece has its district's distribution: read them as estimates, and prefer "
+    "years kept as published before ranking districts for funds."
+)
+CARRIED_NOTE_TITLE = "Years carried to the {year} boundaries"
+CARRIED_REPORT_TITLE = "District-years carried across boundary changes"
+CARRIED_REPORT_INTRO = (
+    "Every year was carried to the districts of the {year} boundaries (weights {weights}). "
+    "The district-years below are not as published: each was made from earlier districts "
+    "as said. Read them as estimates before ranking districts for funds."
+)
+CARRIED_COLUMNS = {"region": "District", "years": "Years", "how": "How it was carried"}

@@ -365,20 +365,41 @@ def read_upload(
     boundary_files: Any,
     options: dict[str, Any],
     population_file: Any = None,
+    changes: Any = None,
 ):
-    """Read and validate the uploaded files; raises DataError with every problem."""
+    """Read and validate the uploaded files; raises DataError with every problem.
+
+    With boundary changes (:class:`explorer.ui.intake_vintages.Changes`) the panel is read
+    without boundaries and carried to the target vintage; the carried panel is returned.
+    """
     from explorer import data as readers
+    from explorer.ui import intake_vintages
 
     boundary_files = _as_list(boundary_files)
     st.session_state["intake_crosswalk"] = options.get("crosswalk") or {}
+    later = [u for u, _ in changes.later] if changes is not None else []
+    extra = [changes.table, changes.finer] if changes is not None else [None, None]
     with st.status("Reading and checking the files…", expanded=True) as status:
-        with _on_disk(panel_file, boundary_files or None, population_file) as paths:
-            panel_path, boundary_path, population_path = paths
+        with _on_disk(panel_file, boundary_files or None, population_file, *extra, *later) as paths:
+            panel_path, boundary_path, population_path, table_path, finer_path = paths[:5]
             show.caption(f"Reading {panel_file.name}…")
             try:
                 loaded = readers.load_panel(
-                    panel_path, boundary_path, population=population_path, **options
+                    panel_path,
+                    None if changes is not None else boundary_path,
+                    population=population_path,
+                    **options,
                 )
+                if changes is not None:
+                    show.caption(vocabulary.VINTAGE_WORDS["part"].split(":")[0] + "…")
+                    loaded, said = intake_vintages.carry(
+                        loaded,
+                        panel_file.name,
+                        boundary_path,
+                        changes,
+                        {"later": paths[5:], "table": table_path, "finer": finer_path},
+                    )
+                    st.session_state.setdefault("rift_carry_said", {})[loaded.fingerprint] = said
             except DataError:
                 status.update(label="The files have problems", state="error")
                 raise
@@ -387,9 +408,13 @@ def read_upload(
                 raise _unreadable(panel_file.name, error) from error
         status.update(label=f"Read {loaded.data.shape[0]:,} rows", state="complete")
     uploads = [panel_file, *boundary_files] + ([population_file] if population_file else [])
+    stored = _stored_options(options, population_file)
+    if changes is not None:
+        uploads += changes.uploads()
+        stored["carrying"] = changes.options()
     st.session_state.setdefault("rift_upload_sources", {})[loaded.fingerprint] = (
         [(u.name, u.getvalue()) for u in uploads],
-        _stored_options(options, population_file),
+        stored,
     )
     return loaded
 
@@ -442,6 +467,7 @@ def summary(panel: Any, dataset_id: str) -> None:
                 "reason": "Why it was left out",
             },
         )
+    _carried_summary(panel)
     from explorer.data.workspace import equal_weight_notice
 
     notice = equal_weight_notice(panel)
@@ -465,6 +491,32 @@ def summary(panel: Any, dataset_id: str) -> None:
             state.update(dataset=saved)
             st.session_state["intake_last"] = None
             st.rerun()
+
+
+def _carried_summary(panel: Any) -> None:
+    """How a carried panel was carried: what carrying said, then each district-year's way."""
+    from explorer.data.carrying import carrying_of
+
+    carrying = carrying_of(panel)
+    if carrying is None:
+        return
+    for line in st.session_state.get("rift_carry_said", {}).get(panel.fingerprint, []):
+        show.notice(line, "info")
+    show.markdown(
+        "**{}** (weights {})",
+        vocabulary.CARRIED_NOTE_TITLE.format(year=carrying.to_vintage),
+        carrying.weights_said(),
+    )
+    show.table(
+        carrying.record[["region", "year", "carried", "how"]],
+        "intake_carried",
+        column_config={
+            "region": vocabulary.CARRIED_COLUMNS["region"],
+            "year": st.column_config.NumberColumn("Year", format="%d"),
+            "carried": "Carried",
+            "how": vocabulary.CARRIED_COLUMNS["how"],
+        },
+    )
 
 
 UNIT_LABELS = {
