@@ -127,7 +127,9 @@ def test_dataset_facts_and_names_with_markup_are_text_in_every_element(app, tmp_
     assert any(plain(LINK) in text for _, text in texts), texts
 
 
-@pytest.mark.parametrize("name", ["atlas", "timelines", "breakdown", "district", "compare", "briefing"])
+@pytest.mark.parametrize(
+    "name", ["atlas", "timelines", "breakdown", "district", "compare", "briefing"]
+)
 def test_names_with_markup_are_shown_as_typed_on_every_page(app, tmp_path, name):
     dataset = _hostile_demo(tmp_path / "workspace")
     app.query_params.update({"d": dataset, "sel": "BRE01,BRE02"})
