@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import dataclasses
+
 import json
 import tempfile
 from collections.abc import Iterator
@@ -606,8 +608,15 @@ def summary_text(item: str, value: Any) -> str:
     return str(value)
 
 
+#: Session key of what the last rename or delete did (said once, after the rerun).
+_FLASH = "intake_stored_done"
+
+
 def stored_datasets() -> None:
     """The workspace's datasets, with a button to open one."""
+    done = st.session_state.pop(_FLASH, None)
+    if done:
+        show.notice(done, "success")
     try:
         listing = data.workspace().list()
         damaged = data.workspace().damaged()
@@ -624,15 +633,44 @@ def stored_datasets() -> None:
         st.info("No saved datasets yet. Bring in a panel and save it to the workspace.")
         return
     show.table(listing, "intake_stored")
+    rows = listing.set_index("id")
+    labels = data.saved_labels(listing)  # what tells same-named datasets apart
     chosen = st.selectbox(
         "Open a saved dataset",
         list(listing["id"]),
-        format_func=lambda i: str(listing.set_index("id").loc[i, "name"]),
+        format_func=lambda ident: labels.get(ident, ident),
         key="intake_open_choice",
     )
     if st.button("Open", key="intake_open"):
         state.update(dataset=str(chosen))
         st.rerun()
+    _rename_or_delete(str(chosen), str(rows.loc[chosen, "name"]))
+
+
+def _rename_or_delete(ident: str, name: str) -> None:
+    """Rename the chosen stored dataset, or delete it after a confirmation."""
+    with st.expander("Rename or delete this dataset"):
+        new = st.text_input("New name", value=name, key="intake_rename_name", max_chars=120)
+        if st.button("Rename", key="intake_rename"):
+            cleaned = new.strip()
+            if not cleaned:
+                show.notice("A dataset needs a name: type one before renaming.", "warning")
+            else:
+                facts = data.workspace().facts(ident)
+                data.workspace().set_facts(ident, dataclasses.replace(facts, name=cleaned))
+                st.session_state[_FLASH] = f"Renamed to “{cleaned}” (id {ident})."
+                st.rerun()
+        sure = st.checkbox(
+            f"Yes, delete “{show.plain(name)}” and its files from the workspace",
+            key="intake_delete_confirm",
+        )
+        if st.button("Delete", key="intake_delete", disabled=not sure):
+            data.workspace().remove(ident)
+            if state.current_view().dataset == ident:
+                state.update(dataset="demo")  # the view must not point at what is gone
+            st.session_state.pop("intake_delete_confirm", None)
+            st.session_state[_FLASH] = f"Deleted “{name}” (id {ident}) and its files."
+            st.rerun()
 
 
 def results_out(opened: state.OpenView) -> None:

@@ -75,3 +75,38 @@ def test_ids_beginning_alike_are_shown_long_enough_to_differ():
     assert labels["99cdef0123456789"].endswith(" · 99cdef0123")
     assert labels["abcdef0123456789"].endswith(" · abcdef0123")
     assert all(label.startswith("deciles · brackets · 2026-01-05 · ") for label in labels.values())
+
+
+def test_renaming_and_deleting_one_of_three_same_named_datasets_touches_only_it(app, tmp_path):
+    """The Intake page renames the chosen dataset, and deletes it only once confirmed; the
+    other two of the same name stay, with their files."""
+    from explorer.data.workspace import Workspace
+
+    saved = _save_three_of_one_name(tmp_path)
+    store = Workspace(tmp_path / "workspace")
+    target, kept = saved["Tanvery"], [saved["Brennhollow"], saved["Ferrowdown"]]
+    run(app)
+    app.switch_page(page("intake"))
+    run(app)
+    app.selectbox(key="intake_open_choice").set_value(target)
+    run(app)
+    app.text_input(key="intake_rename_name").set_value("Tanvery deciles, 2008–2025")
+    app.button(key="intake_rename").click()
+    run(app)
+    names = store.list().set_index("id")["name"]
+    assert names[target] == "Tanvery deciles, 2008–2025"
+    assert all(names[k] == "deciles" for k in kept)
+    assert any("Renamed to" in s.value for s in app.success)
+    # delete: refused until confirmed
+    app.selectbox(key="intake_open_choice").set_value(target)
+    run(app)
+    assert app.button(key="intake_delete").disabled
+    app.checkbox(key="intake_delete_confirm").check()
+    run(app)
+    app.button(key="intake_delete").click()
+    run(app)
+    left = set(store.list()["id"])
+    assert target not in left and set(kept) <= left
+    assert not (tmp_path / "workspace" / "datasets" / target).exists()
+    for ident in kept:
+        assert store.open(ident).regions is not None

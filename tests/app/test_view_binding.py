@@ -26,6 +26,9 @@ NOT_VIEW_SETTINGS = {
     "out_view_in": "a view file to apply; what it holds becomes the view",
     "out_view_name": "the name a view is saved under, not part of what is looked at",
     "intake_stored": "picks a stored dataset to open; the dataset then is the view's dataset",
+    "intake_open_choice": "picks a stored dataset to open; the dataset then is the view's dataset",
+    "intake_rename_name": "a new name for a stored dataset, an action on the workspace",
+    "intake_delete_confirm": "confirms deleting a stored dataset, an action on the workspace",
 }
 #: Keys with these starts belong to reading an uploaded file (its column map, sheet, layer).
 UPLOAD_PREFIXES = ("in_",)
