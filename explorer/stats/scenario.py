@@ -45,6 +45,7 @@ from explorer.data.model import DataError, fail
 __all__ = [
     "SCENARIO_VERSION",
     "STEP_KINDS",
+    "TABLES",
     "Growth",
     "Levy",
     "Move",
@@ -55,6 +56,8 @@ __all__ = [
 
 SCENARIO_VERSION = 1
 STEP_KINDS = ("transfer", "levy", "growth", "move")
+#: The tables of a result, in the order they are written.
+TABLES = ("indices", "poverty", "decomposition", "budget", "gain")
 DECILES = 10
 _FORM = (
     'a JSON object such as {"rift_scenario": 1, "steps": [{"kind": "transfer", '

@@ -17,13 +17,12 @@ import pandas as pd
 from explorer.data.model import DataError, Panel, fail
 from explorer.stats import decompose, growth, indices, measures, poverty, poverty_lines, welfare
 from explorer.stats.decomposition.panel_units import _panel_units
-from explorer.stats.scenario import Scenario
+from explorer.stats.scenario import TABLES, Scenario
 from explorer.stats.scenario_steps import Budget, Units, run
 
 __all__ = ["GRID_NOTE", "TABLES", "ScenarioResult", "apply"]
 
 PROVINCE = indices.ALL_DISTRICTS
-TABLES = ("indices", "poverty", "decomposition", "budget", "gain")
 DECOMPOSED = ("theil_t", "mld")
 PERCENTILES = np.arange(1, 100) / 100.0
 
