@@ -79,7 +79,9 @@ def read_scenario(path: Path):
     except OSError as error:
         raise _problem(path, f"cannot read the scenario file: {error.strerror or error}", fix)
     if len(raw) > MAX_SCENARIO_FILE_BYTES:
-        raise _problem(path, "the scenario file is larger than 1 MB; a scenario is a few lines", fix)
+        raise _problem(
+            path, "the scenario file is larger than 1 MB; a scenario is a few lines", fix
+        )
     try:
         text = raw.decode("utf-8-sig")
     except UnicodeDecodeError:

@@ -439,8 +439,10 @@ class Scenario:
                     "Build steps with Transfer, Levy, Growth or Move.",
                     column=f"steps[{i}]",
                 )
-            if isinstance(s, Levy) and s.balance and not any(
-                isinstance(t, Transfer) for t in steps[:i]
+            if (
+                isinstance(s, Levy)
+                and s.balance
+                and not any(isinstance(t, Transfer) for t in steps[:i])
             ):
                 raise fail(
                     f"step {i + 1} (levy) is set to balance the budget, but no transfer "

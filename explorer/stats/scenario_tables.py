@@ -77,9 +77,7 @@ class ScenarioResult:
     def tables(self) -> dict[str, pd.DataFrame]:
         """Every table by name (:data:`TABLES`), each with the year as its first column."""
         return {
-            name: getattr(self, name).assign(year=self.year)[
-                ["year", *getattr(self, name).columns]
-            ]
+            name: getattr(self, name).assign(year=self.year)[["year", *getattr(self, name).columns]]
             for name in TABLES
         }
 
