@@ -27,6 +27,7 @@ import argparse
 import json
 import os
 import sys
+from dataclasses import replace
 from pathlib import Path
 
 from explorer.data.model import DataError, Problem
@@ -77,7 +78,8 @@ def read_scenario(path: Path):
         with path.open("rb") as handle:
             raw = handle.read(MAX_SCENARIO_FILE_BYTES + 1)
     except OSError as error:
-        raise _problem(path, f"cannot read the scenario file: {error.strerror or error}", fix)
+        message = f"cannot read the scenario file: {error.strerror or error}"
+        raise _problem(path, message, fix) from None
     if len(raw) > MAX_SCENARIO_FILE_BYTES:
         raise _problem(
             path, "the scenario file is larger than 1 MB; a scenario is a few lines", fix
@@ -112,7 +114,18 @@ def run(args: argparse.Namespace) -> int:
     panel = catalog.open_dataset(view.dataset, args.data)
     cli._report_set_aside(panel)
     line = poverty_lines.parse_line(view.poverty_line, scope=view.relative_to)
-    result = apply(panel, scenario, view.year, line=line, method=view.method)
+    try:
+        result = apply(panel, scenario, view.year, line=line, method=view.method)
+    except DataError as error:
+        # a step that does not fit the data (a district the year lacks): the scenario file's
+        raise DataError(
+            [
+                replace(p, file=str(args.scenario))
+                if (p.column or "").startswith("steps[") and not p.file
+                else p
+                for p in error.problems
+            ]
+        ) from None
     tables = result.tables()
     if out.suffix.lower() in (".csv", ".parquet"):
         for note in result.notes:
