@@ -16,7 +16,7 @@ import pandas as pd
 
 from explorer.data.model import DataError, Panel, fail
 from explorer.stats import decompose, growth, indices, measures, poverty, poverty_lines, welfare
-from explorer.stats.decomposition.panel_units import _panel_units
+from explorer.stats.decomposition.panel_units import _level_labels, _panel_units
 from explorer.stats.scenario import TABLES, Scenario
 from explorer.stats.scenario_steps import Budget, Units, run
 
@@ -132,32 +132,40 @@ def _units(panel: Panel, year: int, method: str) -> tuple[Units, str, pd.DataFra
 # ----------------------------------------------------------------------------- tables
 
 
-def _as_panel(panel: Panel, units: Units, year: int) -> Panel:
-    data = pd.DataFrame(
-        {
-            "region": units.regions[units.code],
-            "year": np.full(units.code.size, year, dtype=np.int64),
-            "income": units.income,
-            "weight": units.weight,
-        }
-    )
-    return Panel(kind="units", data=data, levels=panel.levels, hierarchy=panel.hierarchy)
+@dataclass(frozen=True, eq=False)
+class _Sorted:
+    """One state's units sorted twice, shared by every table: by district, and pooled."""
+
+    units: Units
+    by_district: measures.SortedUnits
+    whole: measures.SortedUnits
+
+    @classmethod
+    def of(cls, units: Units) -> _Sorted:
+        return cls(
+            units,
+            measures.sort_units(units.income, units.weight, units.code),
+            measures.sort_units(units.income, units.weight, None),
+        )
+
+    @property
+    def regions(self) -> np.ndarray:
+        """District id of each group of ``by_district``, in its order."""
+        return self.units.regions[np.asarray(self.by_district.labels, dtype=np.int64)]
 
 
-def _index_table(panel: Panel, units: Units, year: int, keys) -> pd.DataFrame:
-    table = indices.compute(_as_panel(panel, units, year), indices=keys)[
-        ["region", "index", "value", "note"]
-    ]
-    whole = measures.compute(measures.sort_units(units.income, units.weight, None), keys)
-    province = pd.DataFrame(
-        {
-            "region": PROVINCE,
-            "index": list(keys),
-            "value": [whole[k].value[0] for k in keys],
-            "note": [whole[k].note[0] for k in keys],
-        }
-    )
-    return pd.concat([table, province], ignore_index=True)
+def _index_table(state: _Sorted, keys) -> pd.DataFrame:
+    """Every index of every district and of the province, the engine of unit records."""
+    frames = []
+    for sorted_units, region in ((state.by_district, state.regions), (state.whole, [PROVINCE])):
+        got = measures.compute(sorted_units, keys)
+        frames += [
+            pd.DataFrame(
+                {"region": region, "index": key, "value": got[key].value, "note": got[key].note}
+            )
+            for key in keys
+        ]
+    return pd.concat(frames, ignore_index=True)
 
 
 def _joined(before: pd.DataFrame, after: pd.DataFrame, on: list[str]) -> pd.DataFrame:
@@ -175,42 +183,32 @@ def _joined(before: pd.DataFrame, after: pd.DataFrame, on: list[str]) -> pd.Data
     return out
 
 
-def _line_amounts(line, units: Units) -> tuple[np.ndarray, float]:
-    """One line per district, fixed on the incomes before; the province's line (or NaN)."""
-    n = len(units.regions)
+def _line_amounts(line, state: _Sorted) -> tuple[np.ndarray, float]:
+    """One line per district (in ``by_district`` order), fixed on the incomes before, and
+    the province's line (NaN when each district has its own)."""
+    n = state.by_district.n_groups
     if not line.relative:
-        z = poverty_lines.resolve(line, n=n)
-        return z, float(line.amount)
-    by_district = measures.sort_units(units.income, units.weight, units.code)
+        return poverty_lines.resolve(line, n=n), float(line.amount)
     if line.base == "median":
-        district = welfare.weighted_median(by_district)
-        whole = welfare.weighted_median(measures.sort_units(units.income, units.weight, None))
+        district = welfare.weighted_median(state.by_district)
+        whole = welfare.weighted_median(state.whole)
     else:
-        totals = np.bincount(units.code, weights=units.weight, minlength=n)
-        district = np.bincount(units.code, weights=units.weight * units.income, minlength=n)
-        district = district / totals
-        whole = np.array([np.sum(units.weight * units.income) / np.sum(units.weight)])
+        w, y = state.by_district.weights, state.by_district.values
+        starts = state.by_district.starts
+        district = np.add.reduceat(w * y, starts) / np.add.reduceat(w, starts)
+        whole = np.array([np.dot(w, y) / w.sum()])
     z = poverty_lines.resolve(line, district_base=district, province_base=np.repeat(whole, n))
     return z, (float(line.fraction * whole[0]) if line.scope == "province" else np.nan)
 
 
-def _poverty_table(units: Units, z: np.ndarray, z_province: float) -> pd.DataFrame:
-    sorted_units = measures.sort_units(units.income, units.weight, units.code)
-    got = poverty.measure_units(sorted_units, z[np.asarray(sorted_units.labels, dtype=np.int64)])
+def _poverty_table(state: _Sorted, z: np.ndarray, z_province: float) -> pd.DataFrame:
+    got = poverty.measure_units(state.by_district, z)
     rows = [
-        pd.DataFrame(
-            {
-                "region": units.regions[np.asarray(sorted_units.labels, dtype=np.int64)],
-                "index": key,
-                "line": z[np.asarray(sorted_units.labels, dtype=np.int64)],
-                "value": got[key][0],
-            }
-        )
+        pd.DataFrame({"region": state.regions, "index": key, "line": z, "value": got[key][0]})
         for key in poverty.POVERTY_INDICES
     ]
     if np.isfinite(z_province):
-        whole = measures.sort_units(units.income, units.weight, None)
-        total = poverty.measure_units(whole, np.array([z_province]))
+        total = poverty.measure_units(state.whole, np.array([z_province]))
         rows.append(
             pd.DataFrame(
                 {
@@ -226,27 +224,51 @@ def _poverty_table(units: Units, z: np.ndarray, z_province: float) -> pd.DataFra
     return out
 
 
-def _poverty(before: Units, after: Units, z: np.ndarray, z_province: float) -> pd.DataFrame:
+def _poverty(before: _Sorted, after: _Sorted, z: np.ndarray, z_province: float) -> pd.DataFrame:
     first = _poverty_table(before, z, z_province)
     out = _joined(first, _poverty_table(after, z, z_province), ["region", "index"])
     out.insert(2, "line", first["line"].to_numpy())
     return out
 
 
-def _decomposition(panel: Panel, units: Units, year: int, keys) -> pd.DataFrame:
-    as_panel = _as_panel(panel, units, year)
+def _split_rows(split, names: list[str], labels: list[np.ndarray]) -> pd.DataFrame:
+    """A GE split as the rows of :func:`explorer.stats.decompose.table` (one year)."""
+    rows = [("total", decompose.ALL, "total", split.total)]
+    for k, name in enumerate(names):
+        rows.append((name, decompose.ALL, "between", split.between[k]))
+        own = labels[k][split.group_codes[k][:, -1]]
+        rows += [(name, g, "between", v) for g, v in zip(own, split.between_groups[k], strict=True)]
+    finest = labels[-1][split.group_codes[-1][:, -1]]
+    rows.append((names[-1], decompose.ALL, "within", split.within))
+    rows += [(names[-1], g, "within", v) for g, v in zip(finest, split.within_groups, strict=True)]
+    out = pd.DataFrame(rows, columns=["level", "group", "component", "value"])
+    with np.errstate(divide="ignore", invalid="ignore"):
+        out["share"] = out["value"] / split.total if split.total else np.nan
+    return out
+
+
+def _decomposition(panel: Panel, units: Units, keys) -> pd.DataFrame:
+    """The GE splits by level, from integer codes (no per-unit labels are built)."""
+    by = tuple(panel.levels)
+    per_district = _level_labels(panel, by, units.regions.astype(str))
+    level_codes, labels = [], []
+    for names in [*per_district, units.regions.astype(str)]:
+        codes, uniques = pd.factorize(names, sort=True)
+        level_codes.append(codes[units.code])
+        labels.append(np.asarray(uniques, dtype=object))
     frames = []
     for key in keys:
-        table = decompose.table(as_panel, by=tuple(panel.levels), index=key).drop(columns="year")
-        table.attrs = {}  # the excluded list: none here, the units are whole
-        frames.append(table.assign(index=key))
+        split = decompose.ge_split(
+            units.income, units.weight, level_codes, decompose.parse_ge_alpha(key)
+        )
+        frames.append(_split_rows(split, [*by, "region"], labels).assign(index=key))
     return pd.concat(frames, ignore_index=True)
 
 
-def _decomposition_table(panel, before, after, year, keys) -> tuple[pd.DataFrame, list[str]]:
+def _decomposition_table(panel, before, after, keys) -> tuple[pd.DataFrame, list[str]]:
     try:
-        a = _decomposition(panel, before, year, keys)
-        b = _decomposition(panel, after, year, keys)
+        a = _decomposition(panel, before, keys)
+        b = _decomposition(panel, after, keys)
     except DataError as error:
         reason = "; ".join(p.message for p in error.problems)
         return pd.DataFrame(
@@ -281,11 +303,8 @@ def _budget_table(budgets: list[Budget], regions: np.ndarray) -> pd.DataFrame:
     return pd.concat(frames, ignore_index=True)[columns]
 
 
-def _gain_table(before: Units, after: Units) -> pd.DataFrame:
-    q = [
-        growth.weighted_quantiles(measures.sort_units(u.income, u.weight, None), PERCENTILES)[0]
-        for u in (before, after)
-    ]
+def _gain_table(before: _Sorted, after: _Sorted) -> pd.DataFrame:
+    q = [growth.weighted_quantiles(s.whole, PERCENTILES)[0] for s in (before, after)]
     with np.errstate(divide="ignore", invalid="ignore"):
         rate = np.where(q[0] > 0, q[1] / q[0] - 1.0, np.nan)
     return pd.DataFrame(
@@ -356,10 +375,11 @@ def apply(
     year = _year(panel, year)
     line = line if isinstance(line, poverty_lines.PovertyLine) else poverty_lines.parse_line(line)
     keys = tuple(index_keys)
-    before, approximation, dropped = _units(panel, year, method)
-    after, budgets = run(before, scenario.steps)
+    units, approximation, dropped = _units(panel, year, method)
+    changed, budgets = run(units, scenario.steps)
+    before, after = _Sorted.of(units), _Sorted.of(changed)
     z, z_province = _line_amounts(line, before)
-    decomposition, problems = _decomposition_table(panel, before, after, year, tuple(decomposed))
+    decomposition, problems = _decomposition_table(panel, units, changed, tuple(decomposed))
     notes = [n for n in (approximation,) if n]
     notes.append(f"poverty line {line.label()}, resolved on the incomes before and held fixed")
     notes += problems
@@ -368,14 +388,10 @@ def apply(
     return ScenarioResult(
         scenario=scenario,
         year=year,
-        indices=_joined(
-            _index_table(panel, before, year, keys),
-            _index_table(panel, after, year, keys),
-            ["region", "index"],
-        ),
+        indices=_joined(_index_table(before, keys), _index_table(after, keys), ["region", "index"]),
         poverty=_poverty(before, after, z, z_province),
         decomposition=decomposition,
-        budget=_budget_table(budgets, before.regions),
+        budget=_budget_table(budgets, units.regions),
         gain=_gain_table(before, after),
         notes=tuple(notes),
         approximation=approximation,

@@ -17,6 +17,7 @@ from scipy.stats import norm
 
 from explorer.data.model import DataError
 from explorer.data.validate import validate
+from explorer.stats import decompose
 from explorer.stats.scenario import Growth, Levy, Move, Scenario, Transfer, apply
 
 RELATIVE = (
@@ -390,3 +391,17 @@ def test_apply_refuses_unknown_districts_means_panels_and_missing_years():
     broke = Scenario((Transfer(bottom_deciles=9, amount=1e7), Levy(top_deciles=1, balance=True)))
     with pytest.raises(DataError, match="would take"):
         apply(panel, broke)
+
+
+def test_the_before_split_is_the_decomposition_table_of_the_same_records():
+    """The scenario's GE split comes from the same code as explorer.stats.decompose.table;
+    on unit records its 'before' column is that table's values row for row (the parts add
+    up to the pooled index, Shorrocks 1980)."""
+    panel = unit_panel()
+    result = apply(panel, Scenario((Growth(rate=0.01),)), line=10000)
+    on = ["level", "group", "component"]
+    for key in ("theil_t", "mld"):
+        direct = decompose.table(panel, by=("county",), index=key).set_index(on)["value"]
+        ours = result.decomposition.query("index == @key").set_index(on)["before"]
+        assert len(ours) == len(direct)
+        assert np.allclose(ours.reindex(direct.index).to_numpy(), direct.to_numpy(), rtol=1e-12)
