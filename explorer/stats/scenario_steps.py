@@ -17,7 +17,7 @@ from explorer.data.model import fail
 from explorer.stats import measures, welfare
 from explorer.stats.scenario import DECILES, Growth, Levy, Move, Transfer
 
-__all__ = ["Budget", "Units", "province_median", "run"]
+__all__ = ["Budget", "Units", "income_order", "province_median", "run", "sorted_units"]
 
 
 @dataclass(frozen=True)
@@ -54,6 +54,34 @@ def _sums(units: Units, values: np.ndarray) -> np.ndarray:
     return np.bincount(units.code, weights=values, minlength=len(units.regions))
 
 
+def income_order(units: Units) -> tuple[np.ndarray, np.ndarray]:
+    """Positions by income in the province, and by (district, income).
+
+    One float sort; the district order is a stable sort of the small integer codes in
+    that order (a radix sort in NumPy), so it is the order ``np.lexsort`` would give.
+    """
+    pooled = np.argsort(units.income, kind="stable")
+    key = units.code.astype(np.min_scalar_type(max(len(units.regions) - 1, 0)))
+    return pooled, pooled[np.argsort(key[pooled], kind="stable")]
+
+
+def sorted_units(units: Units, order: np.ndarray, by_district: bool) -> measures.SortedUnits:
+    """The units in ``order`` as the measures engine takes them (incomes already checked)."""
+    if by_district:
+        sizes = np.bincount(units.code, minlength=len(units.regions))
+        codes = np.repeat(np.arange(sizes.size, dtype=np.int64), sizes)
+        starts = (np.cumsum(sizes) - sizes).astype(np.int64)
+        labels = np.arange(sizes.size, dtype=np.int64)
+    else:
+        codes = np.zeros(order.size, dtype=np.int64)
+        starts = np.zeros(1, dtype=np.int64)
+        labels = np.array(["(all)"], dtype=object)
+    arrays = (units.income[order], units.weight[order], codes, starts, order)
+    for array in arrays:
+        array.setflags(write=False)
+    return measures.SortedUnits(*arrays[:4], labels=labels, order=arrays[4])
+
+
 def _province_share(units: Units) -> np.ndarray:
     """Each unit's midpoint cumulative population share in the province."""
     order = np.argsort(units.income, kind="stable")
@@ -66,7 +94,7 @@ def _province_share(units: Units) -> np.ndarray:
 
 def _district_share(units: Units) -> np.ndarray:
     """Each unit's midpoint cumulative population share inside its own district."""
-    order = np.lexsort((units.income, units.code))
+    order = income_order(units)[1]
     w = units.weight[order]
     code = units.code[order]
     cum = np.cumsum(w)
@@ -80,7 +108,8 @@ def _district_share(units: Units) -> np.ndarray:
 
 def province_median(units: Units) -> float:
     """The weighted median of the province, as the relative poverty lines take it."""
-    return float(welfare.weighted_median(measures.sort_units(units.income, units.weight))[0])
+    pooled = np.argsort(units.income, kind="stable")
+    return float(welfare.weighted_median(sorted_units(units, pooled, False))[0])
 
 
 def _chosen(units: Units, districts: tuple[str, ...], step: int, kind: str) -> np.ndarray:

@@ -18,7 +18,7 @@ from explorer.data.model import DataError, Panel, fail
 from explorer.stats import decompose, growth, indices, measures, poverty, poverty_lines, welfare
 from explorer.stats.decomposition.panel_units import _level_labels, _panel_units
 from explorer.stats.scenario import TABLES, Scenario
-from explorer.stats.scenario_steps import Budget, Units, run
+from explorer.stats.scenario_steps import Budget, Units, income_order, run, sorted_units
 
 __all__ = ["GRID_NOTE", "TABLES", "ScenarioResult", "apply"]
 
@@ -142,10 +142,9 @@ class _Sorted:
 
     @classmethod
     def of(cls, units: Units) -> _Sorted:
+        pooled, by_district = income_order(units)
         return cls(
-            units,
-            measures.sort_units(units.income, units.weight, units.code),
-            measures.sort_units(units.income, units.weight, None),
+            units, sorted_units(units, by_district, True), sorted_units(units, pooled, False)
         )
 
     @property
@@ -157,8 +156,8 @@ class _Sorted:
 def _index_table(state: _Sorted, keys) -> pd.DataFrame:
     """Every index of every district and of the province, the engine of unit records."""
     frames = []
-    for sorted_units, region in ((state.by_district, state.regions), (state.whole, [PROVINCE])):
-        got = measures.compute(sorted_units, keys)
+    for group, region in ((state.by_district, state.regions), (state.whole, [PROVINCE])):
+        got = measures.compute(group, keys)
         frames += [
             pd.DataFrame(
                 {"region": region, "index": key, "value": got[key].value, "note": got[key].note}
