@@ -16,6 +16,8 @@ import pandas as pd
 
 from explorer.data.model import DataError, Panel, fail
 from explorer.stats import decompose, growth, indices, measures, poverty, poverty_lines, welfare
+from explorer.stats.decomposition.checks import _check_arrays, parse_ge_alpha
+from explorer.stats.decomposition.ge import _ge_tree
 from explorer.stats.decomposition.panel_units import _level_labels, _panel_units
 from explorer.stats.scenario import TABLES, Scenario
 from explorer.stats.scenario_steps import Budget, Units, income_order, run, sorted_units
@@ -122,8 +124,9 @@ def _units(panel: Panel, year: int, method: str) -> tuple[Units, str, pd.DataFra
             )
         approximation = GRID_NOTE
     raw = _panel_units(one, method)
-    regions, code = np.unique(raw.region.astype(str), return_inverse=True)
-    units = Units(regions.astype(object), code.astype(np.int64), raw.income.copy(), raw.weight)
+    code, regions = pd.factorize(raw.region, sort=True)
+    regions = np.asarray(regions, dtype=str).astype(object)
+    units = Units(regions, code.astype(np.int64), raw.income.copy(), raw.weight)
     if not np.all(np.isfinite(units.income)):
         raise fail("some incomes are not finite.", "Check the panel's incomes.", column="income")
     return units, approximation, raw.dropped
@@ -230,24 +233,25 @@ def _poverty(before: _Sorted, after: _Sorted, z: np.ndarray, z_province: float) 
     return out
 
 
-def _split_rows(split, names: list[str], labels: list[np.ndarray]) -> pd.DataFrame:
+def _split_rows(tree, names: list[str], labels: list[np.ndarray]) -> pd.DataFrame:
     """A GE split as the rows of :func:`explorer.stats.decompose.table` (one year)."""
-    rows = [("total", decompose.ALL, "total", split.total)]
+    total = float(tree.total[0])
+    rows = [("total", decompose.ALL, "total", total)]
     for k, name in enumerate(names):
-        rows.append((name, decompose.ALL, "between", split.between[k]))
-        own = labels[k][split.group_codes[k][:, -1]]
-        rows += [(name, g, "between", v) for g, v in zip(own, split.between_groups[k], strict=True)]
-    finest = labels[-1][split.group_codes[-1][:, -1]]
-    rows.append((names[-1], decompose.ALL, "within", split.within))
-    rows += [(names[-1], g, "within", v) for g, v in zip(finest, split.within_groups, strict=True)]
+        rows.append((name, decompose.ALL, "between", float(tree.components[k, 0])))
+        own = labels[k][tree.node_codes[k][:, -1]]
+        rows += [(name, g, "between", v) for g, v in zip(own, tree.between_nodes[k], strict=True)]
+    finest = labels[-1][tree.node_codes[-1][:, -1]]
+    rows.append((names[-1], decompose.ALL, "within", float(tree.components[-1, 0])))
+    rows += [(names[-1], g, "within", v) for g, v in zip(finest, tree.within_nodes, strict=True)]
     out = pd.DataFrame(rows, columns=["level", "group", "component", "value"])
-    with np.errstate(divide="ignore", invalid="ignore"):
-        out["share"] = out["value"] / split.total if split.total else np.nan
+    out["share"] = out["value"] / total if total else np.nan
     return out
 
 
 def _decomposition(panel: Panel, units: Units, keys) -> pd.DataFrame:
-    """The GE splits by level, from integer codes (no per-unit labels are built)."""
+    """The GE splits by level through the decompositions' own tree (Shorrocks 1980), from
+    integer codes 0..k-1 of every level, so no label is built or hashed per unit."""
     by = tuple(panel.levels)
     per_district = _level_labels(panel, by, units.regions.astype(str))
     level_codes, labels = [], []
@@ -255,12 +259,13 @@ def _decomposition(panel: Panel, units: Units, keys) -> pd.DataFrame:
         codes, uniques = pd.factorize(names, sort=True)
         level_codes.append(codes[units.code])
         labels.append(np.asarray(uniques, dtype=object))
+    root = np.zeros(units.code.size, dtype=np.int64)
     frames = []
     for key in keys:
-        split = decompose.ge_split(
-            units.income, units.weight, level_codes, decompose.parse_ge_alpha(key)
-        )
-        frames.append(_split_rows(split, [*by, "region"], labels).assign(index=key))
+        alpha = parse_ge_alpha(key)
+        _check_arrays(units.income, units.weight, alpha)
+        tree = _ge_tree(units.income, units.weight, root, level_codes, alpha)
+        frames.append(_split_rows(tree, [*by, "region"], labels).assign(index=key))
     return pd.concat(frames, ignore_index=True)
 
 
