@@ -122,8 +122,21 @@ def _units(panel: Panel, year: int, method: str) -> tuple[Units, str, pd.DataFra
                 "revenues are in money and districts weigh by their people.",
                 column="population",
             )
+        if not np.isfinite(one.data["mean_income"].to_numpy(dtype=float)).any():
+            raise fail(
+                f"a scenario on grouped data needs each district's mean income; {year} has "
+                "none, so the shares cannot be turned into money.",
+                "Add a mean_income column (one value per district and year).",
+                column="mean_income",
+            )
         approximation = GRID_NOTE
     raw = _panel_units(one, method)
+    if raw.income.size == 0:
+        reasons = "; ".join(f"{r.region}: {r.reason}" for r in raw.dropped.head(8).itertuples())
+        raise fail(
+            f"no district of {year} could be rebuilt from its shares ({reasons}).",
+            "Choose another Lorenz method or year, or check the shares.",
+        )
     code, regions = pd.factorize(raw.region, sort=True)
     regions = np.asarray(regions, dtype=str).astype(object)
     units = Units(regions, code.astype(np.int64), raw.income.copy(), raw.weight)
@@ -387,6 +400,8 @@ def apply(
     notes = [n for n in (approximation,) if n]
     notes.append(f"poverty line {line.label()}, resolved on the incomes before and held fixed")
     notes += problems
+    if panel.kind == "units" and np.all(units.weight == 1.0):
+        notes.append("the records carry no weights: people and money count records, not people")
     notes += [f"left out: district {r.region}: {r.reason}" for r in dropped.itertuples()]
     notes.append(CAUTION)
     return ScenarioResult(

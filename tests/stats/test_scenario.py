@@ -388,6 +388,12 @@ def test_apply_refuses_unknown_districts_means_panels_and_missing_years():
     )
     with pytest.raises(DataError, match="no distribution inside"):
         apply(means, Scenario((Growth(rate=0.1),)))
+    grouped, _, _ = lognormal_panels(n=10)
+    for column, words in (("population", "population"), ("mean_income", "mean income")):
+        frame = grouped.data.assign(**{column: np.nan}).merge(grouped.hierarchy, on="region")
+        bare = validate(frame, kind="brackets", levels=["county"])
+        with pytest.raises(DataError, match=words):
+            apply(bare, Scenario((Growth(rate=0.1),)))
     broke = Scenario((Transfer(bottom_deciles=9, amount=1e7), Levy(top_deciles=1, balance=True)))
     with pytest.raises(DataError, match="would take"):
         apply(panel, broke)
