@@ -1,4 +1,4 @@
-"""The ``rift`` command line: app, check, compute, decompose, spatial, report, brief.
+"""The ``rift`` command line: app, check, compute, decompose, spatial, report, brief, scenario.
 
 Every command reads its panel through :func:`explorer.data.load.load_panel`, so the command line
 and the app accept exactly the same files. Problems with the input are printed one per
@@ -17,7 +17,7 @@ from pathlib import Path
 
 import pandas as pd
 
-from explorer import cli_vintages
+from explorer import cli_scenario, cli_vintages
 from explorer.data.model import DataError, Problem
 from explorer.present import exports, vocabulary
 
@@ -284,6 +284,7 @@ def build_parser() -> argparse.ArgumentParser:
     brief.add_argument("--format", choices=("text", "markdown"), default="text")
     brief.add_argument("--out", metavar="FILE", help="write here (default: standard output)")
     brief.add_argument("--data", metavar="DIR", help="workspace holding the view's dataset")
+    cli_scenario.add_parser(commands)
     return parser
 
 
@@ -346,7 +347,7 @@ def _report_set_aside(panel) -> None:
 
 def _inputs(args: argparse.Namespace) -> set[Path]:
     paths = set()
-    for name in ("panel", "view", "population", "crosswalk"):
+    for name in ("panel", "view", "scenario", "population", "crosswalk"):
         value = getattr(args, name, None)
         if value and value != DEMO:
             paths.add(Path(value).resolve())
@@ -785,6 +786,7 @@ COMMANDS = {
     "spatial": run_spatial,
     "report": run_report,
     "brief": run_brief,
+    "scenario": cli_scenario.run,
 }
 
 
