@@ -46,8 +46,16 @@ class Compute(Protocol):
     def welfare(self, method: str) -> pd.DataFrame: ...
 
     def growth(
-        self, year_from: int, method: str, line: str, relative_to: str, to: int | None = None
+        self,
+        year_from: int,
+        method: str,
+        line: str,
+        relative_to: str,
+        to: int | None = None,
+        region: str | None = None,
     ) -> tuple[pd.DataFrame, pd.DataFrame]: ...
+
+    def district_fits(self, region: str, year: int, methods: Sequence[str]) -> pd.DataFrame: ...
 
     def clusters(
         self, values: pd.Series, permutations: int = MAP_PERMUTATIONS
@@ -67,14 +75,23 @@ def tidy(table: pd.DataFrame) -> pd.DataFrame:
 
 def lorenz_curves(panel: Panel, region: str, year: int, methods: Sequence[str]) -> pd.DataFrame:
     """Every method's Lorenz curve for one district-year on a shared grid of 101 points."""
+    import dataclasses
+
     from explorer.stats import lorenz
 
     grid = np.linspace(0.0, 1.0, 101)
+    # each curve is fitted to its own district-year only: the fits do not depend on others
+    data = panel.data
+    keep = (data["region"].astype(str) == str(region)) & (data["year"] == int(year))
+    panel = dataclasses.replace(panel, data=data[keep].reset_index(drop=True))
+    region = str(region)
     rows = []
     for method in methods:
         fitted = lorenz.fit_panel(panel, method)
         keys = tidy(fitted.keys)
-        hit = np.flatnonzero((keys["region"] == region).to_numpy() & (keys["year"] == year))
+        hit = np.flatnonzero(
+            (keys["region"].astype(str) == region).to_numpy() & (keys["year"] == year)
+        )
         if hit.size == 0:
             continue
         values = fitted.evaluate(grid)[hit[0]]
@@ -166,24 +183,54 @@ class PlainCompute:
         return welfare.compute(self.panel, methods=(method,))
 
     def growth(
-        self, year_from: int, method: str, line: str, relative_to: str, to: int | None = None
+        self,
+        year_from: int,
+        method: str,
+        line: str,
+        relative_to: str,
+        to: int | None = None,
+        region: str | None = None,
     ) -> tuple[pd.DataFrame, pd.DataFrame]:
-        """Growth incidence from ``year_from`` to every later year, or to ``to`` alone
-        (:func:`explorer.stats.growth.since`), the poorest H % set by ``line``."""
+        """Growth incidence from ``year_from`` to every later year, or to ``to`` alone, of
+        every district or of ``region`` alone (:func:`explorer.stats.growth.since`), the
+        poorest H % set by ``line``."""
+        import dataclasses
+
         from explorer.stats import growth, poverty_lines
 
         method = method if self.panel.kind == "brackets" else "auto"
         parsed = poverty_lines.parse_line(line, scope=relative_to)
         panel = self.panel
-        if to is not None:
-            # only the two years are fitted (a relative line is the province's of each year,
-            # so the first year's line is the same on the two-year panel)
-            import dataclasses
+        head = None
+        if region is not None:
+            # the first year's headcount from every district of that year: a line relative
+            # to the province's median or mean is set by all of them
+            from explorer.stats import poverty_table
 
-            keep = panel.data["year"].isin([int(year_from), int(to)])
+            first = panel.data["year"] == int(year_from)
+            year_panel = dataclasses.replace(panel, data=panel.data[first].reset_index(drop=True))
+            table = poverty_table.compute(year_panel, parsed, methods=(method,))
+            rows = table[table["index"] == "fgt_0"]
+            head = rows.assign(region=rows["region"].astype(str)).set_index("region")["value"]
+        if to is not None or region is not None:
+            # only the two years (and the one district) are fitted
+            keep = panel.data["year"].isin([int(year_from), int(to)]) if to is not None else True
+            if region is not None:
+                keep = keep & (panel.data["region"].astype(str) == str(region))
             panel = dataclasses.replace(panel, data=panel.data[keep].reset_index(drop=True))
         later = None if to is None else (int(to),)
-        return growth.since(panel, int(year_from), method, parsed, later=later)
+        return growth.since(panel, int(year_from), method, parsed, later=later, headcount=head)
+
+    def district_fits(self, region: str, year: int, methods: Sequence[str]) -> pd.DataFrame:
+        """Fit diagnostics of one district-year (the District sheet's table)."""
+        import dataclasses
+
+        from explorer.stats import indices
+
+        data = self.panel.data
+        keep = (data["region"].astype(str) == str(region)) & (data["year"] == int(year))
+        one = dataclasses.replace(self.panel, data=data[keep].reset_index(drop=True))
+        return indices.fits(one, tuple(methods))
 
     def clusters(
         self, values: pd.Series, permutations: int = MAP_PERMUTATIONS

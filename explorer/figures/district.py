@@ -183,10 +183,7 @@ def _sheet(panel: Panel, view: ViewState, compute: Compute, region: str) -> Dist
     )
     fits = None
     if panel.kind == "brackets":
-        diagnostics = compute.fits(tuple(vocabulary.METHOD_LABELS))
-        fits = diagnostics[
-            (diagnostics["region"].astype(str) == region) & (diagnostics["year"] == view.year)
-        ]
+        fits = compute.district_fits(region, view.year, tuple(vocabulary.METHOD_LABELS))
     return DistrictFigures(
         region,
         name,
@@ -281,7 +278,7 @@ def growth_of(panel: Panel, view: ViewState, compute: Compute, region: str, name
             f"Growth needs a first year before {view.year}: choose one under 'Growth since'.",
         )
     summary, curves = compute.growth(
-        first, view.method, view.poverty_line, view.relative_to, to=int(view.year)
+        first, view.method, view.poverty_line, view.relative_to, to=int(view.year), region=region
     )
     span = int(view.year) - first
     own = curves[(curves["region"].astype(str) == region) & (curves["year"] == view.year)]

@@ -193,7 +193,11 @@ def slope_bounds(P, L, p) -> tuple[np.ndarray, np.ndarray]:
     with np.errstate(divide="ignore", invalid="ignore"):
         s = np.where(dp > 0, dl / dp, 0.0)
     n, k = s.shape
-    j = np.clip((P[:, 1:-1, None] < p[None, None, :]).sum(axis=1), 0, k - 1)  # (n, m)
+    # the bracket holding each p: panels mostly share their population shares (deciles),
+    # so each distinct row of P is searched once
+    distinct, inverse = np.unique(P, axis=0, return_inverse=True)
+    found = np.stack([np.searchsorted(row[1:-1], p, side="left") for row in distinct])
+    j = np.clip(found[np.ravel(inverse)], 0, k - 1)  # (n, m)
     rows = np.arange(n)[:, None]
     own = s[rows, j]
     prev = np.where(j > 0, s[rows, np.clip(j - 1, 0, k - 1)], 0.0)
@@ -308,17 +312,20 @@ def from_panel(panel, first_year, second_year, method: str = "auto", line=None):
     return since(panel, first_year, method, line, later=(int(second_year),))
 
 
-def since(panel, first_year, method: str = "auto", line=None, later=None):
+def since(panel, first_year, method: str = "auto", line=None, later=None, headcount=None):
     """Growth incidence from ``first_year`` to every later year (or the years ``later``),
-    with one fit of the panel: the tables of :func:`from_panel`, stacked by second year."""
+    with one fit of the panel: the tables of :func:`from_panel`, stacked by second year.
+
+    ``headcount`` (a Series by district) gives the first year's headcount ratios at
+    ``line`` when they were measured on a larger panel than this one."""
     first_year = int(first_year)
     keys, mean, s_p, s_fine, bounds = _slopes(panel, method)
     keys = keys.assign(region=keys["region"].astype(str), year=keys["year"].astype(int))
     years = sorted({int(y) for y in keys["year"]} - {first_year}) if later is None else later
     years = [y for y in years if y > first_year] if later is None else list(years)
     used = "units" if panel.kind == "units" else method
-    head = None
-    if line is not None:
+    head = headcount
+    if line is not None and headcount is None:
         table = poverty_table.compute(panel, line, method if panel.kind == "brackets" else "auto")
         h = table[(table["index"] == "fgt_0") & (table["year"] == first_year)]
         head = h.assign(region=h["region"].astype(str)).set_index("region")["value"]

@@ -70,12 +70,21 @@ def _welfare(_panel, fingerprint: str, scope: str, method: str):
 
 
 @st.cache_data(show_spinner="Measuring growth at every percentile…", max_entries=32)
-def _growth(_panel, fingerprint: str, scope: str, year_from: int, method, line, relative_to, to):
-    summary, curves = plain.PlainCompute(_panel).growth(year_from, method, line, relative_to, to)
+def _growth(
+    _panel, fingerprint: str, scope: str, year_from: int, method, line, relative_to, to, region
+):
+    summary, curves = plain.PlainCompute(_panel).growth(
+        year_from, method, line, relative_to, to, region
+    )
     left_out = summary.attrs.get("left_out", [])
     summary = tidy(summary)
     summary.attrs["left_out"] = left_out  # named on the page, so it must survive the cache
     return summary, tidy(curves)
+
+
+@st.cache_data(show_spinner=False, max_entries=256)
+def _district_fits(_panel, fingerprint: str, scope: str, region: str, year: int, methods):
+    return tidy(plain.PlainCompute(_panel).district_fits(region, year, methods))
 
 
 # cache_data, not cache_resource: an upload's clusters are user data, and cache_resource would
@@ -160,10 +169,16 @@ class CachedCompute:
         method = method if self.panel.kind == "brackets" else "auto"
         return _welfare(*self._key(), method)
 
-    def growth(self, year_from: int, method: str, line: str, relative_to: str, to=None):
+    def growth(
+        self, year_from: int, method: str, line: str, relative_to: str, to=None, region=None
+    ):
         method = method if self.panel.kind == "brackets" else "auto"
         to = None if to is None else int(to)
-        return _growth(*self._key(), int(year_from), method, line, relative_to, to)
+        region = None if region is None else str(region)
+        return _growth(*self._key(), int(year_from), method, line, relative_to, to, region)
+
+    def district_fits(self, region: str, year: int, methods: Sequence[str]) -> pd.DataFrame:
+        return _district_fits(*self._key(), str(region), int(year), tuple(methods))
 
     def map_features(self, values: pd.DataFrame) -> list[dict[str, Any]]:
         return _map_features(*self._key(), values)
