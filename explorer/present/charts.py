@@ -358,9 +358,43 @@ def _with_picked(features: Sequence[dict], selected: Iterable[str]) -> list[dict
 _LIFTED = ("region", "name", "county", "value", "lower", "upper", "klass", "wide", "picked")
 
 
+#: Name of the districts' dataset in a map's spec (see :class:`GeoChart`).
+GEO_DATA = "districts"
+
+
+class GeoChart:
+    """A map whose districts travel as a named dataset of the spec.
+
+    Handing thousands of GeoJSON features to Altair as inline values costs seconds of
+    schema checks on every build; the features are plain JSON already, so the chart names
+    its data and the features are put under that name when the spec is made. Everything
+    else is the Altair chart's (``to_dict`` is what drawing, caching and export use).
+    """
+
+    def __init__(self, chart: Any, features: list[dict]) -> None:
+        self.chart = chart
+        self.features = features
+
+    def to_dict(self, **kwargs: Any) -> dict[str, Any]:
+        spec = self.chart.to_dict(**kwargs)
+        spec.setdefault("datasets", {})[GEO_DATA] = self.features
+        return spec
+
+    def __getattr__(self, name: str) -> Any:
+        found = getattr(self.chart, name)
+        if not callable(found):
+            return found
+
+        def kept(*args: Any, **kwargs: Any) -> Any:
+            # a changed chart (configured, given properties) keeps the districts with it
+            out = found(*args, **kwargs)
+            return GeoChart(out, self.features) if isinstance(out, alt.TopLevelMixin) else out
+
+        return kept
+
+
 def _geo_base(features: Sequence[dict], selected: Iterable[str], lifted: Sequence[str]):
-    data = alt.Data(values=_with_picked(features, selected))
-    chart = alt.Chart(data).mark_geoshape(stroke="#ffffff", strokeWidth=0.6)
+    chart = alt.Chart(alt.NamedData(name=GEO_DATA)).mark_geoshape(stroke="#ffffff", strokeWidth=0.6)
     return chart.transform_calculate(**{key: f"datum.properties.{key}" for key in lifted})
 
 
@@ -470,13 +504,14 @@ def choropleth(
     return _with_labels(shapes, features, selected, title, caption, width, height)
 
 
-def _with_labels(shapes, features, selected, title, caption, width, height):
+def _with_labels(shapes, features, selected, title, caption, width, height) -> GeoChart:
     """The map, with the chosen districts named on it, projected to fit its districts."""
     labels = _name_labels(features, selected)
     chart = shapes if labels is None else alt.layer(shapes, labels)
-    return chart.project(type="mercator").properties(
+    chart = chart.project(type="mercator").properties(
         title=_title(title, caption), width=width, height=height
     )
+    return GeoChart(chart, _with_picked(features, selected))
 
 
 def clusters_map(

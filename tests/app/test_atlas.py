@@ -163,7 +163,8 @@ def test_cluster_layer_draws_a_set_aside_district_as_no_value_and_names_it(app, 
         if as_read(m.label).startswith("Expected Moran")
     }
     assert metrics["Expected Moran's I under no clustering"] == round(-1 / (n - 1), 3)
-    features = json.loads(charts(app)[0].spec)["data"]["values"]
+    spec = json.loads(charts(app)[0].spec)
+    features = spec["datasets"]["districts"]  # the map's districts travel as a named dataset
     cluster = {f["properties"]["region"]: f["properties"]["cluster"] for f in features}
     assert cluster["CAL03"] == "no value"
     assert sum(c == "no value" for c in cluster.values()) == 1
