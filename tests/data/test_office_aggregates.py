@@ -113,3 +113,18 @@ def test_a_district_named_all_saints_is_not_a_total() -> None:
     districts, aggregates = set_apart_aggregates(table)
     assert districts["region"].unique().tolist() == ["All Saints"]
     assert aggregates["region"].unique().tolist() == ["All districts"]
+
+
+def test_districts_with_identical_means_are_not_taken_for_an_average_of_each_other(tmp_path):
+    """Found by property testing: four districts with the same means in every year made the
+    first look like the average of the other three and set it apart."""
+    from explorer.data.load import load_panel
+
+    names = ["Aldercombe", "Brackwater", "Cindervale", "Dunmarsh"]
+    body = "\n".join(f"{n},1491,1365,1000" for n in names)
+    path = tmp_path / "alike.csv"
+    path.write_text(
+        "Mean income by district\n\nDistrict,1990,1991,1992\n" + body + "\n", encoding="utf-8"
+    )
+    panel = load_panel(path)
+    assert sorted(panel.data["region"].unique()) == names

@@ -59,6 +59,10 @@ def _run_match(
             if n >= (2 if kind == "sum" else 3):
                 estimate = total if kind == "sum" else total / weight
                 if _close(values[i], estimate, 1 if kind == "sum" else 2):
+                    # rows that all equal row i are its average by coincidence of being
+                    # alike, not because it is their total: no evidence of an aggregate
+                    if kind != "sum" and all(_close(values[i], values[k], 2) for k in run[:n]):
+                        continue
                     return sorted(run[:n])
     return None
 
