@@ -491,6 +491,11 @@ def summary(panel: Any, dataset_id: str) -> None:
             data.uploads().pop(dataset_id, None)
             state.update(dataset=saved)
             st.session_state["intake_last"] = None
+            where = data.data_dir() or "the default data folder"
+            st.session_state[_FLASH] = (
+                f"Saved “{facts.name or panel.name or saved}” to the shared workspace in {where} "
+                f"(id {saved}); it is now the dataset on every page, and listed below."
+            )
             st.rerun()
 
 
@@ -710,14 +715,24 @@ def results_out(opened: state.OpenView) -> None:
     view_file = st.file_uploader("Open a view file", type=["json"], key="out_view_in")
     if view_file is not None and st.button("Apply the view file", key="out_view_apply"):
         apply_view_file(view_file.getvalue())
-    name = st.text_input("Save this view in the workspace as", key="out_view_name")
-    if name and st.button("Save view", key="out_view_save"):
+    # a form, so that Enter in the name field saves
+    with st.form("out_view_form", clear_on_submit=False, border=False):
+        name = st.text_input("Save this view in the workspace as", key="out_view_name")
+        pressed = st.form_submit_button("Save view")
+    if pressed and not name.strip():
+        show.notice("Type a name for the view first.", "warning")
+    elif pressed:
         try:
             saved = data.workspace().save_view(name, view.to_json())
         except DataError as error:
             show.problems(error, heading="The view could not be saved")
         else:
-            show.notice(f"Saved as {Path(saved).name}.", "success")
+            show.notice(
+                f"Saved as {Path(saved).name} in the workspace. The same view as a link "
+                "(add it to this app's address):",
+                "success",
+            )
+            st.code(view.to_link() or "?", language=None)
 
 
 def apply_view_file(content: bytes) -> None:

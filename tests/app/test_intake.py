@@ -71,6 +71,9 @@ def test_saving_an_upload_puts_it_in_the_workspace_for_everyone(app):
     run(app)
     saved = view(app).dataset
     assert not saved.startswith("upload-") and saved != "demo"
+    # the page says what was saved: the name, where, the id
+    said = " ".join(s.value for s in app.success)
+    assert "Saved “panel”" in said and saved in said and "workspace" in said, said
     other = AppTest.from_file(str(APP), default_timeout=120)
     other.query_params["d"] = saved
     run(other)
@@ -249,3 +252,15 @@ def test_an_accepted_name_match_is_offered_again_for_the_next_upload(app, tmp_pa
     again.mkdir()
     office_upload(later, again)
     assert later.checkbox(key="in_name_Lower Marsh").value is True
+
+
+def test_saving_a_view_by_name_gives_its_link(app):
+    app.query_params["ix"] = "mld"
+    run(app)
+    app.switch_page(page("intake"))
+    run(app)
+    app.text_input(key="out_view_name").set_value("council briefing")
+    app.button[[b.label for b in app.button].index("Save view")].click()
+    run(app)
+    assert any("Saved as" in s.value for s in app.success), [s.value for s in app.success]
+    assert any("ix=mld" in c.value for c in app.code), [c.value for c in app.code]
