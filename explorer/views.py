@@ -31,6 +31,7 @@ key        field                   form
 ``pr``     ``relative_to``         province or district (whose median or mean)
 ``cy``     ``compare_years``       comma-separated years (Compare: one district, 2–6 years)
 ``rk``     ``clear_ranks``         1 or 0 (Map: only districts whose rank is clear)
+``sc``     ``scenario``            a what-if scenario as compact JSON (``{"rift_scenario": 1, ...}``)
 ========== ======================= ============================================================
 Fields at their default are left out of a link. A view file is JSON:
 ``{"rift_view": 1, "dataset": "demo", "page": "map", ...}`` with the field names above.
@@ -129,6 +130,7 @@ QUERY_KEYS = {
     "relative_to": "pr",
     "compare_years": "cy",
     "clear_ranks": "rk",
+    "scenario": "sc",
 }
 _FIELD_OF_KEY = {key: name for name, key in QUERY_KEYS.items()}
 _PLAIN = {
@@ -153,6 +155,7 @@ _PLAIN = {
     "relative_to": "poverty line relative to",
     "compare_years": "years compared",
     "clear_ranks": "only clear ranks",
+    "scenario": "what-if scenario",
 }
 
 
@@ -396,6 +399,26 @@ def _poverty_line(raw: Any, known: Known) -> str:
     return f"{line.amount:g}"
 
 
+def _scenario(raw: Any) -> str:
+    """A scenario in its canonical compact JSON (from a link's text or a view file's object)."""
+    from explorer.data.model import DataError
+    from explorer.stats.scenario import Scenario
+
+    if raw is None or raw == "":
+        return ""
+    try:
+        body = json.loads(_text(raw)) if not isinstance(raw, dict) else raw
+        found = Scenario.from_dict(body)
+    except (DataError, ValueError, TypeError, RecursionError):
+        raise _Bad("is not a scenario this tool can read") from None
+    return canonical_scenario(found)
+
+
+def canonical_scenario(found: Any) -> str:
+    """The compact JSON a scenario travels in (keys sorted, no spaces)."""
+    return json.dumps(found.to_dict(), sort_keys=True, separators=(",", ":"), ensure_ascii=False)
+
+
 def canonical_poverty_line(raw: Any) -> str | None:
     """A poverty line typed by a planner in its canonical form, or None when unreadable."""
     try:
@@ -423,6 +446,7 @@ _PARSERS = {
     "poverty_line": _poverty_line,
     "relative_to": lambda raw, known: _choice(raw, ("province", "district"), "choice"),
     "clear_ranks": _flag,
+    "scenario": lambda raw, known: _scenario(raw),
 }
 #: At most this many districts or years side by side on the Compare page.
 MAX_COMPARED = 6
@@ -510,6 +534,9 @@ class ViewState:
         districts side by side in ``year``.
     clear_ranks : bool
         The Map shows only districts whose rank is clear (the bounds allow one rank only).
+    scenario : str
+        The What-if page's scenario as compact JSON (``explorer.stats.scenario``); empty =
+        none.
 
     Raises
     ------
@@ -539,6 +566,7 @@ class ViewState:
     relative_to: str = "province"
     compare_years: tuple[int, ...] = field(default=())
     clear_ranks: bool = False
+    scenario: str = ""
 
     def __post_init__(self) -> None:
         free = Known()
@@ -615,6 +643,7 @@ _DEFAULT_TEXT = {
     "year_from": "the first year",
     "year_to": "the last year",
     "level": "the outermost level",
+    "scenario": "no scenario",
 }
 
 

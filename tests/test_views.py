@@ -281,6 +281,7 @@ def test_page_names_are_our_own():
         "Breakdown",
         "District sheet",
         "Compare",
+        "What if",
         "Briefing",
         "Intake",
     ]

@@ -57,6 +57,8 @@ class Compute(Protocol):
 
     def district_fits(self, region: str, year: int, methods: Sequence[str]) -> pd.DataFrame: ...
 
+    def scenario(self, scenario: str, year: int, line: str, method: str) -> Any: ...
+
     def clusters(
         self, values: pd.Series, permutations: int = MAP_PERMUTATIONS
     ) -> tuple[pd.DataFrame, Any]: ...
@@ -220,6 +222,14 @@ class PlainCompute:
             panel = dataclasses.replace(panel, data=panel.data[keep].reset_index(drop=True))
         later = None if to is None else (int(to),)
         return growth.since(panel, int(year_from), method, parsed, later=later, headcount=head)
+
+    def scenario(self, scenario: str, year: int, line: str, method: str) -> Any:
+        """A scenario's before and after tables (:func:`explorer.stats.scenario.apply`)."""
+        from explorer.stats.scenario import Scenario, apply
+
+        method = method if self.panel.kind == "brackets" else "auto"
+        found = Scenario.from_json(scenario)
+        return apply(self.panel, found, int(year), line=line, method=method)
 
     def district_fits(self, region: str, year: int, methods: Sequence[str]) -> pd.DataFrame:
         """Fit diagnostics of one district-year (the District sheet's table)."""

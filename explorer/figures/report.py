@@ -141,6 +141,28 @@ def _poverty_section(panel, view, compute, tables, built, absent) -> None:
     tables[f"{label} split over groups, {view.year}"] = report_tables.poverty_split_table(split)
 
 
+def _what_if_section(panel, view, compute, tables, built, notes, absent) -> None:
+    """The view's what-if scenario: before and after, the budget, who gains."""
+    from explorer.figures.what_if import what_if
+
+    shown = what_if(panel, view, compute)
+    if shown.notice:
+        absent.append(f"What if: {shown.notice}")
+        return
+    year = view.year
+    for name, frame in (("inequality", shown.indices), ("poverty", shown.poverty)):
+        tables[f"What if: the province's {name}, {year}, before and after"] = (
+            report_tables.scenario_table(frame)
+        )
+    tables[f"What if: cost and revenue, {year}"] = report_tables.plain_facts(
+        shown.budget, vocabulary.WHAT_IF_CAUTION
+    )
+    built[f"What if: who gains, {year}"] = shown.gain_chart
+    if shown.change_map is not None:
+        built[f"What if: change of each district's Gini, {year}"] = shown.change_map
+    notes.extend(shown.notes)
+
+
 def _panel_info(view: ViewState, panel: Panel) -> dict[str, Any]:
     from explorer.data.dataset_store import facts_of
 
@@ -179,6 +201,8 @@ def sections(view: ViewState, panel: Panel, compute: Compute | None = None) -> R
     else:
         changed = _breakdown_section(panel, view, compute, tables, built, notes, absent)
     _poverty_section(panel, view, compute, tables, built, absent)
+    if view.scenario:
+        _what_if_section(panel, view, compute, tables, built, notes, absent)
     if view.districts:
         _district_section(panel, view, compute, tables, built, absent)
     else:

@@ -24,6 +24,7 @@ __all__ = [
     "change_table",
     "district_welfare",
     "plain_facts",
+    "scenario_table",
     "poverty_table",
     "poverty_split_table",
     "district_indices",
@@ -267,3 +268,13 @@ def plain_facts(facts: tuple[tuple[str, str], ...], note: str = "") -> ReportTab
     data = pd.DataFrame(facts, columns=["figure", "value"])
     shown = data.rename(columns={"figure": "Figure", "value": "Value"})
     return ReportTable(data, shown, (note,) if note else ())
+
+
+def scenario_table(frame: pd.DataFrame) -> ReportTable:
+    """A what-if table: each figure before and after, and the change with its sign."""
+    cells = {
+        "before": lambda row: _number(row["before"]),
+        "after": lambda row: _number(row["after"]),
+        "change": lambda row: ("+" if row["change"] > 0 else "") + _number(row["change"]),
+    }
+    return ReportTable(frame, _shown(frame, vocabulary.SCENARIO_COLUMNS, cells))

@@ -53,6 +53,9 @@ __all__ = [
     "WIDE_SHARE",
     "WELFARE_CAPTION",
     "COMPARE_MODES",
+    "SCENARIO_COLUMNS",
+    "WHAT_IF_CAUTION",
+    "WHAT_IF_RECEIVERS",
     "POVERTY_SPLIT_COLUMNS",
     "COMPARE_HELP",
     "WELFARE_COLUMNS",
@@ -144,6 +147,21 @@ GROWTH_WELFARE_HELP = {
     "the first year (Ravallion & Chen 2003)",
     "growth_gap_bottom40": "positive: the poorest 40 % gained faster than the mean; "
     "negative: growth passed them by",
+}
+#: The What-if page's words.
+WHAT_IF_CAUTION = (
+    "A scenario is an arithmetic of incomes, not a prediction: no behavioural responses, no "
+    "take-up rates, no price effects. Local rules and the office's own models decide policy."
+)
+WHAT_IF_RECEIVERS = {
+    "deciles": "The bottom deciles of the province",
+    "median": "Everyone below a share of the province median",
+}
+SCENARIO_COLUMNS = {
+    "figure": "Figure",
+    "before": "Before",
+    "after": "After",
+    "change": "Change",
 }
 #: The Compare page's two ways of choosing what is set side by side.
 COMPARE_MODES = {
@@ -328,6 +346,7 @@ PAGES: dict[str, Page] = {
     "breakdown": Page("Breakdown", ":material/stacked_bar_chart:", "breakdown.py"),
     "district": Page("District sheet", ":material/description:", "district.py"),
     "compare": Page("Compare", ":material/compare_arrows:", "compare.py"),
+    "what_if": Page("What if", ":material/science:", "what_if.py"),
     "briefing": Page("Briefing", ":material/summarize:", "briefing.py"),
     "intake": Page("Intake", ":material/upload_file:", "intake.py"),
 }

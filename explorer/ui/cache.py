@@ -82,6 +82,11 @@ def _growth(
     return summary, tidy(curves)
 
 
+@st.cache_data(show_spinner="Applying the scenario…", max_entries=32)
+def _scenario(_panel, fingerprint: str, scope: str, scenario: str, year: int, line, method):
+    return plain.PlainCompute(_panel).scenario(scenario, year, line, method)
+
+
 @st.cache_data(show_spinner=False, max_entries=256)
 def _district_fits(_panel, fingerprint: str, scope: str, region: str, year: int, methods):
     return tidy(plain.PlainCompute(_panel).district_fits(region, year, methods))
@@ -176,6 +181,10 @@ class CachedCompute:
         to = None if to is None else int(to)
         region = None if region is None else str(region)
         return _growth(*self._key(), int(year_from), method, line, relative_to, to, region)
+
+    def scenario(self, scenario: str, year: int, line: str, method: str):
+        method = method if self.panel.kind == "brackets" else "auto"
+        return _scenario(*self._key(), scenario, int(year), line, method)
 
     def district_fits(self, region: str, year: int, methods: Sequence[str]) -> pd.DataFrame:
         return _district_fits(*self._key(), str(region), int(year), tuple(methods))

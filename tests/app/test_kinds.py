@@ -7,7 +7,7 @@ import pandas as pd
 import pytest
 from app_helpers import ROOT, dataframe, page, run, view
 
-PAGES = ("atlas", "timelines", "breakdown", "district", "compare", "intake")
+PAGES = ("atlas", "timelines", "breakdown", "district", "compare", "what_if", "intake")
 
 
 @pytest.mark.parametrize("dataset", ["demo-households", "demo-means", "demo-published"])

@@ -107,7 +107,8 @@ def _every_markdown_text(at: AppTest) -> list[tuple[str, str]]:
 
 
 @pytest.mark.parametrize(
-    "name", ["atlas", "timelines", "breakdown", "district", "compare", "briefing", "intake"]
+    "name",
+    ["atlas", "timelines", "breakdown", "district", "compare", "what_if", "briefing", "intake"],
 )
 def test_dataset_facts_and_names_with_markup_are_text_in_every_element(app, tmp_path, name):
     from explorer.data.dataset_store import DatasetFacts
@@ -128,7 +129,7 @@ def test_dataset_facts_and_names_with_markup_are_text_in_every_element(app, tmp_
 
 
 @pytest.mark.parametrize(
-    "name", ["atlas", "timelines", "breakdown", "district", "compare", "briefing"]
+    "name", ["atlas", "timelines", "breakdown", "district", "compare", "what_if", "briefing"]
 )
 def test_names_with_markup_are_shown_as_typed_on_every_page(app, tmp_path, name):
     dataset = _hostile_demo(tmp_path / "workspace")

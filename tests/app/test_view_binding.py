@@ -33,7 +33,16 @@ NOT_VIEW_SETTINGS = {
 #: Keys with these starts belong to reading an uploaded file (its column map, sheet, layer).
 UPLOAD_PREFIXES = ("in_",)
 
-PAGES = ("atlas", "timelines", "breakdown", "district", "compare", "briefing", "intake")
+PAGES = (
+    "atlas",
+    "timelines",
+    "breakdown",
+    "district",
+    "compare",
+    "what_if",
+    "briefing",
+    "intake",
+)
 
 
 def _widgets(at: AppTest) -> list[Widget]:
@@ -98,6 +107,7 @@ def _raw_values(at: AppTest) -> list:
         "district",
         "",  # "no other district" of the District sheet's comparison
         *vocabulary.COMPARE_MODES,
+        *vocabulary.WHAT_IF_RECEIVERS,
     ]
 
 
@@ -110,7 +120,11 @@ def _set_other(at: AppTest, widget: Widget) -> None:
     if kind == "Toggle":
         widget.set_value(not widget.value)
     elif kind == "Slider":
-        widget.set_value(widget.value + 1 if widget.value < widget.max else widget.value - 1)
+        step = widget.step if isinstance(widget.value, float) else 1
+        up = widget.value + step
+        widget.set_value(round(up, 6) if up <= widget.max else round(widget.value - step, 6))
+    elif kind == "NumberInput":  # an amount of money: one step more
+        widget.set_value(widget.value + (widget.step or 1))
     elif kind == "SelectSlider":
         year = str(widget.value)
         others = [o for o in widget.options if o != year]
@@ -160,6 +174,7 @@ def _set_everything(at: AppTest) -> set[str]:
         ("district", "demo"),
         ("compare", "demo"),
         ("compare", "demo-households"),
+        ("what_if", "demo"),
         ("atlas", "demo-households"),
         ("atlas", "demo-poverty"),
         ("district", "demo-households-poverty"),
