@@ -46,7 +46,9 @@ def add_parser(commands) -> None:
     )
     scenario.add_argument("view", help="view file (.json) saved from the app")
     scenario.add_argument(
-        "--scenario", required=True, metavar="SCENARIO.json", help="the scenario's steps"
+        "--scenario",
+        metavar="SCENARIO.json",
+        help="the scenario's steps (default: the scenario the view carries, from the What-if page)",
     )
     scenario.add_argument(
         "--out",
@@ -107,7 +109,18 @@ def run(args: argparse.Namespace) -> int:
     view, notices = views.from_json(cli._read_view_file(Path(args.view)))
     for notice in notices:
         print(f"note: {notice}", file=sys.stderr)
-    scenario = read_scenario(Path(args.scenario))
+    if args.scenario:
+        scenario = read_scenario(Path(args.scenario))
+    elif view.scenario:
+        from explorer.stats.scenario import Scenario
+
+        scenario = Scenario.from_json(view.scenario, file=str(args.view))
+    else:
+        raise _problem(
+            Path(args.view),
+            "the view carries no scenario and no --scenario file is given",
+            "give --scenario SCENARIO.json, or save the view from the What-if page",
+        )
     out = Path(args.out)
     if out.resolve() in cli._inputs(args):
         raise _problem(out, "the output would overwrite an input file", "choose another --out")

@@ -152,3 +152,30 @@ def test_a_missing_scenario_file_and_an_output_over_an_input_are_refused(tmp_pat
     assert code == 2
     assert scenario.read_bytes() == before
     assert json.loads(view.read_text())["rift_view"] == 1
+
+
+def test_a_view_saved_with_its_scenario_needs_no_scenario_file(tmp_path):
+    """`rift scenario VIEW --out DIR` applies the scenario the view carries (the What-if
+    page's), the same tables as with the scenario given as a file."""
+    import pandas as pd
+
+    from explorer import cli
+    from explorer.figures import what_if
+    from explorer.views import ViewState, view_file_text
+
+    text = what_if.scenario_of(what_if.Draft(deciles=3, amount=800.0))
+    view = tmp_path / "view.json"
+    view.write_text(view_file_text(ViewState(year=2025, scenario=text), {}), encoding="utf-8")
+    assert cli.main(["scenario", str(view), "--out", str(tmp_path / "a.csv")]) == 0
+    scenario = tmp_path / "scenario.json"
+    scenario.write_text(text, encoding="utf-8")
+    bare = tmp_path / "bare.json"
+    bare.write_text(view_file_text(ViewState(year=2025), {}), encoding="utf-8")
+    assert (
+        cli.main(
+            ["scenario", str(bare), "--scenario", str(scenario), "--out", str(tmp_path / "b.csv")]
+        )
+        == 0
+    )
+    pd.testing.assert_frame_equal(pd.read_csv(tmp_path / "a.csv"), pd.read_csv(tmp_path / "b.csv"))
+    assert cli.main(["scenario", str(bare), "--out", str(tmp_path / "c.csv")]) == 2
