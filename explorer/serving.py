@@ -84,7 +84,8 @@ def app_command(port: int, host: str = "127.0.0.1", allow_hosts: Iterable[str] =
     ``server.allowedHosts`` (Streamlit's own allow-list, checked when a browser opens the
     app's connection) holds :func:`allowed_hosts` of ``host`` and ``allow_hosts``.
     """
-    command = [sys.executable, "-m", "streamlit", "run", str(APP)]
+    # explorer.serve is `streamlit run` with Rift's modules imported while the server starts
+    command = [sys.executable, "-m", "explorer.serve", "run", str(APP)]
     settings = {**SETTINGS, "server.port": str(port), "server.address": host}
     for name, value in settings.items():
         command += [f"--{name}", value]

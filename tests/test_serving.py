@@ -205,3 +205,28 @@ def test_a_server_does_not_outlive_the_process_that_started_it_even_when_that_is
     while _running(child) and time.monotonic() < deadline:
         time.sleep(0.1)
     assert not _running(child)
+
+
+def test_the_server_is_streamlit_run_with_the_imports_warmed_meanwhile():
+    """`python -m explorer.serve` passes its arguments to Streamlit's own command line, and
+    the warm-up leaves Rift's figures imported in the server process."""
+    import subprocess
+    import sys
+
+    command = serving.app_command(8765)
+    assert command[1:4] == ["-m", "explorer.serve", "run"]
+    done = subprocess.run(
+        [sys.executable, "-m", "explorer.serve", "--version"],
+        capture_output=True,
+        text=True,
+        timeout=120,
+    )
+    assert done.returncode == 0 and "Streamlit" in done.stdout
+    probe = (
+        "import sys; from explorer import serve; serve.warm(); "
+        "print(all(m in sys.modules for m in ('explorer.figures', 'geopandas', 'altair')))"
+    )
+    warmed = subprocess.run(
+        [sys.executable, "-c", probe], capture_output=True, text=True, timeout=120
+    )
+    assert warmed.stdout.strip() == "True"
