@@ -40,6 +40,14 @@ APP = Path(__file__).resolve().parent / "app.py"
 #: API for driving an app without a browser kept off whatever a config file says.
 SETTINGS: dict[str, str] = {
     "server.headless": "true",
+    # Watching Rift's own source files for changes walks every loaded module's path on
+    # the server's event loop after each run (seconds on a first page): an installed tool
+    # does not change under its users.
+    "server.fileWatcherType": "none",
+    "server.runOnSave": "false",
+    # A full garbage collection after every run costs a tenth of a second or more with
+    # many users; Python's own collector still runs as objects pile up.
+    "runner.postScriptGC": "false",
     "server.enableAgentApi": "false",
     "browser.gatherUsageStats": "false",
     "client.toolbarMode": "minimal",

@@ -62,7 +62,7 @@ if bounded and on_index:
     )
 view = ui.current_view()
 
-shown = figures.atlas(panel, view, opened.compute)
+shown = ui.page_figure(figures.atlas, panel, view, opened.compute)
 # Means and published figures have no bounds, the clusters layer draws no outline, and an
 # index without finite bounds (Theil T's upper) would be outlined everywhere.
 if bounded and on_index and shown.finite_bounds:
@@ -90,7 +90,7 @@ if shown.clusters is not None and shown.clusters.overall is not None:
     ui.moran_summary(shown.clusters.overall)
 
 if shown.chart is not None:
-    event = st.vega_lite_chart(shown.chart.to_dict(), on_select="rerun", key="atlas_map")
+    event = ui.chart(shown.chart, on_select="rerun", key="atlas_map")
     clicked = ui.picked_region(event)
     if clicked:
         ui.update(districts=(clicked,), page="district")

@@ -50,8 +50,8 @@ with right:
         st.markdown("**Groups:** districts (no higher level found)")
 view = ui.current_view()
 
-split = figures.breakdown(panel, view, opened.compute)
-st.altair_chart(split.shown_chart, key="breakdown_chart")
+split = ui.page_figure(figures.breakdown, panel, view, opened.compute)
+ui.chart(split.shown_chart, key="breakdown_chart")
 st.markdown(f"**{view.year}: share of the province's {vocabulary.index_label(split.index)}**")
 metrics = split.share_metrics()
 for column, (label, share, help_text) in zip(
@@ -85,13 +85,13 @@ with first:
 with second:
     ui.control("year_to", st.selectbox, "To", years)
 view = ui.current_view()
-moved = figures.change(panel, view, opened.compute, split.index)
+moved = ui.page_figure(figures.change, panel, view, opened.compute, split.index)
 if moved is None:
     st.info("Choose a 'From' year before the 'To' year to see what drove the change.")
 else:
     if moved.notice:
         ui.caption(moved.notice)
-    st.altair_chart(moved.shown_chart, key="change_chart")
+    ui.chart(moved.shown_chart, key="change_chart")
     st.caption(moved.term_help())
     part_table(moved.terms, "change_table", vocabulary.CHANGE_COLUMNS)
     ui.downloads(
@@ -100,7 +100,7 @@ else:
         table=moved.terms,
         chart=moved.chart,
     )
-poor = figures.poverty_split(panel, view, opened.compute)
+poor = ui.page_figure(figures.poverty_split, panel, view, opened.compute)
 if poor is not None:
     st.subheader("Where the poverty lies")
     if poor.table is None:
@@ -111,7 +111,7 @@ if poor is not None:
             f"{vocabulary.figure(poor.total)}, split over the groups of each level (the "
             "split adds up exactly). Choose the measure and the line in the sidebar."
         )
-        st.altair_chart(poor.chart, key="poverty_split_chart")
+        ui.chart(poor.chart, key="poverty_split_chart")
         shown_poor, options = ui.planner_table(
             poor.table,
             vocabulary.POVERTY_SPLIT_COLUMNS,

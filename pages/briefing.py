@@ -15,7 +15,7 @@ st.caption(
     "the table below each paragraph says which table, which rows and which columns."
 )
 
-told = figures.briefing(panel, view, opened.compute)
+told = ui.page_figure(figures.briefing, panel, view, opened.compute)
 for paragraph in told.paragraphs:
     st.subheader(paragraph.title)
     # one {} per sentence: every sentence is shown as typed (names from the data inside)

@@ -75,7 +75,7 @@ else:
             from_view=list,
         )
 view = ui.current_view()
-shown = figures.compare_page(panel, view, opened.compute)
+shown = ui.page_figure(figures.compare_page, panel, view, opened.compute)
 if shown.notice:
     ui.notice(shown.notice)
     st.stop()
@@ -85,10 +85,10 @@ if panel.kind in vocabulary.KIND_NOTES:
 if shown.lorenz_chart is not None:
     left, right = st.columns(2)
     with left:
-        st.altair_chart(shown.lorenz_chart, theme=None, key="compare_lorenz")
+        ui.chart(shown.lorenz_chart, theme=None, key="compare_lorenz")
     with right:
         if shown.general_chart is not None:
-            st.altair_chart(shown.general_chart, theme=None, key="compare_general")
+            ui.chart(shown.general_chart, theme=None, key="compare_general")
         else:
             st.caption("Without mean incomes there are no generalised Lorenz curves to draw.")
 

@@ -6,7 +6,7 @@ import streamlit as st
 from explorer import figures, ui
 from explorer.figures.district import method_word
 from explorer.figures.tables import names
-from explorer.present import charts, vocabulary
+from explorer.present import vocabulary
 
 opened = ui.open_view()
 view, panel = opened.view, opened.panel
@@ -60,7 +60,7 @@ if against is not None:
             "above the other even at the bounds, and whether their figures clearly differ.",
         )
 view = ui.current_view()
-sheet = figures.district(panel, view, opened.compute)
+sheet = ui.page_figure(figures.district, panel, view, opened.compute)
 ui.markdown("**{}**", sheet.heading)
 if sheet.carried:
     ui.notice(sheet.carried, "info")
@@ -69,7 +69,7 @@ if panel.kind == "means":
     st.info("District means only: no Lorenz curve or inequality inside the district.")
     for column, (label, value) in zip(st.columns(3), sheet.facts, strict=False):
         ui.metric(column, label, value)
-    st.altair_chart(sheet.means_chart, theme=None, width="content", key="district_means_chart")
+    ui.chart(sheet.means_chart, theme=None, width="content", key="district_means_chart")
     shown_means, options = ui.planner_table(
         sheet.means[list(vocabulary.MEANS_COLUMNS)],
         vocabulary.MEANS_COLUMNS,
@@ -83,7 +83,7 @@ if panel.kind == "means":
         words={"growth": lambda r: vocabulary.figure(r["growth"], digits=2)},
     )
     ui.table(shown_means, "district_means", **options)
-    st.altair_chart(sheet.rank_chart, key="district_ranks")
+    ui.chart(sheet.rank_chart, key="district_ranks")
     ui.downloads(f"district-{sheet.region}", key="district", table=sheet.means)
 elif panel.kind == "published":
     st.info(vocabulary.KIND_NOTES["published"])
@@ -93,9 +93,9 @@ elif panel.kind == "published":
     )
     ui.markdown("**Published figures, {}**", str(view.year))
     ui.table(shown_figures, "district_published", **options)
-    st.altair_chart(sheet.means_chart, theme=None, width="content", key="district_published_chart")
+    ui.chart(sheet.means_chart, theme=None, width="content", key="district_published_chart")
     if sheet.rank_chart is not None:
-        st.altair_chart(sheet.rank_chart, key="district_ranks")
+        ui.chart(sheet.rank_chart, key="district_ranks")
     ui.downloads(f"district-{sheet.region}-{view.year}", key="district", table=sheet.published)
 else:
     no_bound = (
@@ -106,9 +106,7 @@ else:
     left, right = st.columns(2)
     with left:
         # Vega's own theme: Streamlit's squeezes a square chart whose title and legend take room.
-        st.altair_chart(
-            sheet.profile, theme=None, width="content", height=640, key="district_lorenz"
-        )
+        ui.chart(sheet.profile, theme=None, width="content", height=640, key="district_lorenz")
     with right:
         row = sheet.headline
         if row is not None:
@@ -129,8 +127,7 @@ else:
                 st.caption(no_bound)
 
     if sheet.has_bounds:
-        strip = charts.fit_facets(sheet.strip, panels=1, room=400)
-        st.altair_chart(strip, key="district_strip")
+        ui.chart(sheet.strip, key="district_strip")
     else:  # dots without bars would say nothing the table below does not
         st.caption(
             "No bounds or intervals to draw for this district-year"
@@ -189,18 +186,18 @@ else:
         if sheet.growth.chart is not None:
             left, right = st.columns([3, 2])
             with left:
-                st.altair_chart(sheet.growth.chart, theme=None, key="district_growth")
+                ui.chart(sheet.growth.chart, theme=None, key="district_growth")
             with right:
                 for label, value in sheet.growth.facts:
                     st.metric(label, value)
         ui.caption(sheet.growth.note)
-    st.altair_chart(sheet.rank_chart, key="district_ranks")
-    pair = figures.compare(panel, view, opened.compute)
+    ui.chart(sheet.rank_chart, key="district_ranks")
+    pair = ui.page_figure(figures.compare, panel, view, opened.compute)
     if pair is not None:
         st.subheader("Side by side")
         left, right = st.columns([1, 1])
         with left:
-            st.altair_chart(pair.chart, theme=None, width="content", key="district_pair")
+            ui.chart(pair.chart, theme=None, width="content", key="district_pair")
         with right:
             ui.markdown("**Lorenz curves.** {}", pair.lorenz)
             ui.markdown("**Mean income too (generalised Lorenz).** {}", pair.welfare)

@@ -32,8 +32,8 @@ if county_level(panel) is not None:  # no counties in the data: no control
         ui.control("by_county", st.toggle, "One panel per county")
 view = ui.current_view()
 
-shown = figures.timelines(panel, view, opened.compute)
-st.altair_chart(shown.chart, theme=None, width="content", key="timelines_chart")
+shown = ui.page_figure(figures.timelines, panel, view, opened.compute)
+ui.chart(shown.chart, theme=None, width="content", key="timelines_chart")
 if shown.highlighted is not None:
     ui.table(shown.highlighted, "timelines_table", hide_index=False)
 ui.downloads(f"timelines-{view.index}", key="timelines", table=shown.series, chart=shown.chart)
@@ -48,7 +48,7 @@ if trend is None:
         "none, so it is not shown."
     )
 else:
-    st.altair_chart(trend.chart, key="convergence_chart")
+    ui.chart(trend.chart, key="convergence_chart")
     st.markdown(trend.sentence)
     ui.downloads("convergence", key="convergence", table=trend.sigma, chart=trend.chart)
 ui.cautions(panel, ranking=False)

@@ -119,7 +119,7 @@ with right:
     )
 
 view = ui.current_view()
-shown = figures_what_if.what_if(panel, view, opened.compute)
+shown = ui.page_figure(figures_what_if.what_if, panel, view, opened.compute)
 if shown.notice:
     ui.notice(shown.notice)  # why nothing is shown for this view, not a fault
     st.stop()
@@ -144,9 +144,9 @@ with right:
         formats={"before": "%.4f", "after": "%.4f", "change": "%+.4f"},
     )
     ui.table(table, "what_if_poverty", **options)
-st.altair_chart(shown.gain_chart, theme=None, key="what_if_gain")
+ui.chart(shown.gain_chart, theme=None, key="what_if_gain")
 if shown.change_map is not None:
-    st.vega_lite_chart(shown.change_map.to_dict(), key="what_if_map")
+    ui.chart(shown.change_map, key="what_if_map")
 with st.expander("Within and between, before and after"):
     table, options = ui.planner_table(
         shown.shares,

@@ -2,10 +2,15 @@
 
 from __future__ import annotations
 
+import os
 from collections.abc import Callable
 from pathlib import Path
 
 import pytest
+
+# Every chart a page draws in the tests (in-process and in the servers they start) is checked
+# against the Vega-Lite schema; the app skips that check to draw faster (explorer.ui.draw).
+os.environ.setdefault("RIFT_CHECK_CHARTS", "1")
 
 
 @pytest.fixture

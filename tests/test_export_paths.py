@@ -75,6 +75,7 @@ def test_decompose_out_keeps_negative_numbers_as_numbers(tmp_path, hostile_panel
 
 def test_the_apps_csv_downloads_quote_the_hostile_ids(tmp_path, hostile_panel, monkeypatch):
     from app_helpers import APP, page, run
+    from streamlit.delta_generator import DeltaGenerator
     from streamlit.testing.v1 import AppTest
 
     from explorer.data.workspace import Workspace
@@ -94,11 +95,23 @@ def test_the_apps_csv_downloads_quote_the_hostile_ids(tmp_path, hostile_panel, m
         return data
 
     monkeypatch.setattr(exports, "csv_bytes", spy)
+    # Downloads are made when clicked: keep what each button would make, and make it.
+    offered: list = []
+    button = DeltaGenerator.download_button
+
+    def keep(self, label, data, *args, **kwargs):
+        offered.append(data)
+        return button(self, label, data, *args, **kwargs)
+
+    monkeypatch.setattr(DeltaGenerator, "download_button", keep)
     app = AppTest.from_file(str(APP), default_timeout=180)
     app.query_params.update({"d": dataset})
     run(app)
     app.switch_page(page("intake"))
     run(app)
+    for data in offered:
+        if callable(data):
+            data()
     with_ids = [d.decode("utf-8") for d in written if b"Varn" in d]
     assert with_ids, "the Intake page offers the index table as CSV"
     for text in with_ids:

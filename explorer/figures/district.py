@@ -178,8 +178,13 @@ def _sheet(panel: Panel, view: ViewState, compute: Compute, region: str) -> Dist
     strip_rows = own.assign(
         method=own["method"].map(lambda key: {"units": "records"}.get(key, "curve"))
     )
-    strip = charts.interval_strip(
-        strip_rows, title=f"Every index of {name}, {view.year}, with its bounds"
+    # Sized once here for the page's and the report's half-width column.
+    strip = charts.fit_facets(
+        charts.interval_strip(
+            strip_rows, title=f"Every index of {name}, {view.year}, with its bounds"
+        ),
+        panels=1,
+        room=400,
     )
     fits = None
     if panel.kind == "brackets":

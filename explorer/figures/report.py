@@ -24,7 +24,7 @@ from explorer.figures.district import district
 from explorer.figures.settle import settle
 from explorer.figures.tables import names
 from explorer.figures.timelines import timelines
-from explorer.present import cautions, charts, report, vocabulary
+from explorer.present import cautions, report, vocabulary
 from explorer.present.report import ReportTable
 from explorer.views import ViewState
 
@@ -110,7 +110,7 @@ def _district_section(panel, view, compute, tables, built, absent) -> None:
             sheet.growth.facts, sheet.growth.note
         )
     if sheet.has_bounds:
-        built[f"Indices with bounds: {label}"] = charts.fit_facets(sheet.strip, panels=1, room=400)
+        built[f"Indices with bounds: {label}"] = sheet.strip
     else:  # dots without bars would say nothing the table does not
         absent.append(
             f"Chart of the indices with bounds, {label}: " + vocabulary.no_bound_text(panel.kind)

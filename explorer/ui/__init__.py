@@ -4,7 +4,9 @@ Pages import this package as ``ui`` and use only what is re-exported here; the f
 draw come from :mod:`explorer.figures`, their words from :mod:`explorer.present.vocabulary`.
 """
 
+from explorer.ui.cache import page_figure
 from explorer.ui.data import add_upload, catalog, open_dataset, scope_of, uploads, workspace
+from explorer.ui.draw import chart
 from explorer.ui.show import (
     caption,
     cautions,
@@ -39,6 +41,7 @@ __all__ = [
     "add_upload",
     "catalog",
     "caption",
+    "chart",
     "cautions",
     "control",
     "current_view",
@@ -51,6 +54,7 @@ __all__ = [
     "notice",
     "open_dataset",
     "open_view",
+    "page_figure",
     "page_path",
     "panel",
     "picked_region",

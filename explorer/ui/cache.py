@@ -19,7 +19,7 @@ import streamlit as st
 from explorer.figures import compute as plain
 from explorer.figures.compute import MAP_PERMUTATIONS, tidy
 
-__all__ = ["BOOTSTRAP_KEY", "CachedCompute", "ChartSpec"]
+__all__ = ["BOOTSTRAP_KEY", "CachedCompute", "ChartSpec", "page_figure"]
 
 #: Session key of the sidebar's "Sampling intervals (bootstrap)" toggle (the view's
 #: ``bootstrap`` field, bound by ``explorer.ui.state.control``).
@@ -197,3 +197,72 @@ class CachedCompute:
 
         shown = {k: list(v) if isinstance(v, tuple) else v for k, v in labels.items()}
         return ChartSpec(_choropleth(*self._key(), values, json.dumps(shown, sort_keys=True)))
+
+
+# cache_resource: one object for every session showing the same view of the same data
+# (scope keeps an upload's figures to its own session). The page only reads what it gets;
+# the charts in it are converted to specs once (explorer.ui.draw) and reused on every run.
+@st.cache_resource(show_spinner=False, max_entries=48)
+def _page_figure(
+    name: str, fingerprint: str, scope: str, view_key: str, extra_key: str,
+    _build, _panel, _view, _compute, _extra,
+):  # fmt: skip
+    return _build(_panel, _view, _compute, *_extra)
+
+
+def _panel_key(panel: Any) -> str:
+    """The panel's content and everything else about it a figure may print.
+
+    The fingerprint covers the data, hierarchy and boundaries; the name, facts (saved
+    separately and changeable), warnings and set-aside rows are words on the figures.
+    """
+    import hashlib
+
+    from explorer.data.dataset_store import facts_of
+
+    excluded = getattr(panel, "excluded", None)
+    told = (
+        panel.name,
+        panel.income_concept,
+        tuple(panel.levels),
+        repr(facts_of(panel)),
+        repr(panel.warnings),
+        "" if excluded is None else excluded.to_csv(index=False),
+    )
+    digest = hashlib.sha256(repr(told).encode("utf-8")).hexdigest()[:16]
+    return f"{panel.fingerprint}-{digest}"
+
+
+def page_figure(build: Any, panel: Any, view: Any, compute: CachedCompute, *extra: Any) -> Any:
+    """A page's figures, built once per view of the data and shared by every session.
+
+    Parameters
+    ----------
+    build : callable
+        A figures-layer function ``build(panel, view, compute, *extra)``, such as
+        :func:`explorer.figures.atlas`.
+    panel, view, compute
+        What the page opened (:func:`explorer.ui.open_view`).
+    *extra
+        Further arguments of ``build`` (plain values, part of the key by their ``repr``).
+
+    Returns
+    -------
+    Any
+        What ``build`` returns; shared, so it must not be changed by the page.
+    """
+    import json
+
+    view_key = json.dumps(view.to_query(), sort_keys=True)
+    return _page_figure(
+        f"{build.__module__}.{build.__qualname__}",
+        _panel_key(panel),
+        compute.scope,
+        view_key,
+        repr(extra),
+        build,
+        panel,
+        view,
+        compute,
+        extra,
+    )

@@ -169,7 +169,8 @@ def table_downloads(table: pd.DataFrame, name: str, *, key: str) -> None:
     left, right = st.columns(2)
     left.download_button(
         "Table (CSV)",
-        table_bytes(table, "csv"),
+        # Made on the click, as the others: a run of the page need not write the file.
+        lambda: table_bytes(table, "csv"),
         file_name=f"{slug(name)}.csv",
         mime="text/csv",
         key=f"{key}_csv",
