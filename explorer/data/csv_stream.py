@@ -169,22 +169,42 @@ class _Numbers:
 
 
 class _Text:
-    """One text column, batch by batch, as categorical codes."""
+    """One text column, batch by batch, as codes into one growing list of distinct values.
+
+    Each batch arrives dictionary-encoded; only its (small) dictionary is looked up in
+    the values seen so far, so the rows themselves are never held as text.
+    """
 
     def __init__(self) -> None:
-        self.chunks: list[pd.Categorical] = []
+        import pyarrow as pa
+
+        self.seen = pa.array([], type=pa.string())
+        self.chunks: list[np.ndarray] = []
 
     def add(self, array) -> None:
-        self.chunks.append(pd.Categorical(array.to_pandas()))
+        import pyarrow as pa
+        import pyarrow.compute as pc
+
+        array = array.combine_chunks() if isinstance(array, pa.ChunkedArray) else array
+        words = array.dictionary
+        found = pc.index_in(words, value_set=self.seen).to_numpy(zero_copy_only=False)
+        new = np.isnan(found)
+        lookup = np.where(new, 0, found).astype(np.int64)
+        if new.any():
+            lookup[new] = len(self.seen) + np.arange(int(new.sum()))
+            self.seen = pa.concat_arrays([self.seen, words.filter(pa.array(new))])
+        lookup = np.append(lookup, -1)  # the code of a missing cell
+        indices = array.indices.fill_null(-1).to_numpy(zero_copy_only=False)
+        kind = next(k for k in _INTS if len(self.seen) < np.iinfo(k).max)
+        self.chunks.append(lookup.astype(kind)[indices])
 
     def finish(self, plan: Plan):
-        from pandas.api.types import union_categoricals
-
-        if not self.chunks:
-            return pd.Categorical([], categories=pd.Index([], dtype=str))
-        merged = union_categoricals(self.chunks) if len(self.chunks) > 1 else self.chunks[0]
+        kind = np.result_type(*self.chunks) if self.chunks else np.int8
+        codes = np.concatenate([c.astype(kind, copy=False) for c in self.chunks] or [[]])
         self.chunks.clear()
-        return _as_careful_text(merged, plan)
+        categories = pd.Index(self.seen.to_pandas(), dtype=str)
+        values = pd.Categorical.from_codes(codes.astype(kind), categories=categories)
+        return _as_careful_text(values, plan)
 
 
 def _as_careful_text(values: pd.Categorical, plan: Plan):

@@ -89,6 +89,10 @@ def read_choice(levels: Sequence[str] | Mapping[str, str] | None) -> LevelChoice
 
 def _is_text(values: pd.Series) -> bool:
     """True for a column of words or codes; False for numbers, stored or written as text."""
+    if isinstance(values.dtype, pd.CategoricalDtype):
+        # the distinct cells decide: a unit-record column holds millions of rows, few words
+        codes = values.cat.codes.unique()
+        values = pd.Series(values.cat.categories[codes[codes >= 0]])
     if not (pd.api.types.is_object_dtype(values) or pd.api.types.is_string_dtype(values)):
         return False
     cells = values.dropna().astype(str).str.strip()
@@ -103,9 +107,24 @@ def district_values(table: pd.DataFrame, regions, column: str) -> pd.Series | No
 
     None when a district has two values, or a value is missing.
     """
-    if table[column].isna().any():
+    values = table[column]
+    if values.isna().any():
         return None
-    per = pd.DataFrame({"region": regions, "v": table[column].to_numpy()}).drop_duplicates()
+    # the distinct (district, value) pairs in order of first appearance, found on codes:
+    # a frame of millions of unit records is never copied or hashed as text
+    if not isinstance(regions, pd.Categorical):
+        regions = np.asarray(regions, dtype=object)
+    r_codes, r_names = pd.factorize(regions)
+    v_codes, v_uniques = pd.factorize(values)
+    key = r_codes.astype(np.int64) * max(len(v_uniques), 1) + v_codes
+    _, first = np.unique(key, return_index=True)
+    first.sort()
+    per = pd.DataFrame(
+        {
+            "region": np.asarray(r_names, dtype=object)[r_codes[first]],
+            "v": pd.Series(v_uniques).to_numpy(dtype=object)[v_codes[first]],
+        }
+    )
     per["v"] = id_strings(per["v"])
     if per["v"].isna().any() or per["region"].duplicated().any():
         return None

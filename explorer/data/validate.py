@@ -25,10 +25,11 @@ import numpy as np
 import pandas as pd
 
 from explorer.data.checks import Findings, Layout, Log, Rows, numbers, value_list
-from explorer.data.ids import IdMatch, id_strings
+from explorer.data.ids import IdMatch, id_codes
 from explorer.data.levels import LevelChoice, district_values, propose, read_choice
 from explorer.data.matching import attach_boundaries, boundary_ids, report_clashes
 from explorer.data.model import (
+    KIND_COLUMNS,
     KINDS,
     LISTED,
     PUBLISHED_MEASURES,
@@ -158,15 +159,20 @@ def detect_layout(columns: Sequence[str], kind: str | None, log: Log) -> Layout:
 def _file_lines(frame: pd.DataFrame) -> np.ndarray:
     """File line of each row: the reader's index (line - 2) when it is a unique integer one."""
     idx = frame.index
+    if isinstance(idx, pd.RangeIndex) and idx.step == 1:
+        return np.arange(idx.start + 2, idx.stop + 2, dtype=np.int64)
     if pd.api.types.is_integer_dtype(idx.dtype) and idx.is_unique:
         return idx.to_numpy(dtype=np.int64) + 2
     return np.arange(len(frame), dtype=np.int64) + 2
 
 
-def _keys(table: pd.DataFrame, line: np.ndarray, log: Log) -> tuple[np.ndarray, np.ndarray]:
-    """District ids as text and years as numbers; rows without both are named and dropped."""
-    region = id_strings(table["region"])
-    bad_region = np.array([r is None for r in region], dtype=bool)
+def _keys(
+    table: pd.DataFrame, line: np.ndarray, log: Log
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """District ids as codes into their texts, and years as numbers; rows without both are
+    named and dropped. Returns ``(codes, names, year)``: code -1 and year NaN mark them."""
+    codes, names = id_codes(table["region"])
+    bad_region = codes < 0
     if bad_region.any():
         log.add(
             f"the district id is missing on {bad_region.sum()} line(s): {_listing(line[bad_region].tolist())}",
@@ -197,24 +203,51 @@ def _keys(table: pd.DataFrame, line: np.ndarray, log: Log) -> tuple[np.ndarray, 
             "no row has both a district id and a valid year", "check the region and year columns"
         )
         log.raise_if_failed()
-    return region, np.where(key_ok, year, np.nan)
+    year[~key_ok] = np.nan  # ``numbers`` gave a fresh array: no copy needed
+    return codes, names, year
 
 
-def _district_years(table: pd.DataFrame, region, year, line) -> Rows:
+def _needed_columns(table: pd.DataFrame, layout: Layout, choice: LevelChoice | None) -> list:
+    """The columns later steps read: the kind's, text columns (levels may come from them),
+    the chosen levels. A household number or a person number is left behind rather than
+    copied with millions of sorted rows."""
+    wanted = {
+        *KIND_COLUMNS.get(layout.kind, ()),
+        *layout.share_cols,
+        *PUBLISHED_MEASURES,
+        "income_concept",
+        *(choice.columns if choice is not None else ()),
+    }
+    return [
+        c
+        for c in table.columns
+        if c in wanted
+        or not pd.api.types.is_numeric_dtype(table[c].dtype)
+        or pd.api.types.is_bool_dtype(table[c].dtype)
+    ]
+
+
+def _district_years(table: pd.DataFrame, codes, names, year, line) -> Rows:
     """Rows with valid keys, sorted once by (district, year, line) into district-years."""
     keep = np.flatnonzero(np.isfinite(year))
-    region, year_i, line = region[keep], year[keep].astype(np.int64), line[keep]
-    code, names = pd.factorize(region, sort=True)
+    # districts numbered in the order of their sorted ids, so codes sort as the ids do
+    by_name = np.argsort(names, kind="stable")
+    rank = np.empty(len(names), dtype=np.int32)
+    rank[by_name] = np.arange(len(names), dtype=np.int32)
+    code = rank[codes[keep]]
+    year_i, line = year[keep].astype(np.int64), line[keep]
     order = np.lexsort((line, year_i, code))
     code, year_i, line = code[order], year_i[order], line[order]
     new_group = np.r_[True, (code[1:] != code[:-1]) | (year_i[1:] != year_i[:-1])]
+    rows = keep[order]
+    del keep, order
     return Rows(
-        table=table.iloc[keep[order]],  # one copy of the table, not two
+        table=table.iloc[rows],  # one copy of the columns needed, not two
         code=code,
-        names=np.asarray(names, dtype=object),
+        names=np.asarray(names, dtype=object)[by_name],
         year=year_i,
         line=line,
-        gid=np.cumsum(new_group) - 1,
+        gid=np.cumsum(new_group, dtype=np.int64) - 1,
         starts=np.flatnonzero(new_group),
     )
 
@@ -261,16 +294,31 @@ def _set_aside(rows: Rows, layout: Layout, found: Findings) -> pd.DataFrame:
 
 def _tidy(values: pd.DataFrame, rows: Rows, kind: str, good: np.ndarray) -> pd.DataFrame:
     """The contract's long table: kept district-years, sorted by region, year, then within."""
-    data = values[good[values["_gid"].to_numpy()]]
-    # group ids already run in (region, year) order: one lexsort gives the contract's order
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
+    gid = values["_gid"].to_numpy()
+    kept = np.flatnonzero(good[gid])
+    # group ids already run in (region, year) order: one sort gives the contract's order
     within = {"brackets": "bracket", "units": "income", "published": "_order"}.get(kind)
-    secondary = data[within].to_numpy() if within else np.zeros(len(data))
-    data = data.iloc[np.lexsort((secondary, data["_gid"].to_numpy()))]
-    src = data["_src"].to_numpy()
-    data = data.drop(columns=["_gid", "_src", "_order"], errors="ignore").reset_index(drop=True)
-    data.insert(0, "year", rows.year[src])
-    data.insert(0, "region", pd.Series(rows.names[rows.code[src]], dtype=str))
-    return data
+    if within:
+        order = kept[np.lexsort((values[within].to_numpy()[kept], gid[kept]))]
+    else:
+        order = kept[np.argsort(gid[kept], kind="stable")]
+    del kept
+    src = values["_src"].to_numpy()[order]
+    # each column taken in order on its own: one column's copy at a time, never the frame's
+    columns: dict[str, Any] = {}
+    code = rows.code[src]
+    names = pa.array(rows.names.tolist(), type=pa.large_string())
+    # ids as text straight from their codes (no string object per row)
+    columns["region"] = pc.take(names, pa.array(code)).to_pandas()
+    columns["year"] = rows.year[src]
+    del code, src
+    for c in values.columns:
+        if c not in ("_gid", "_src", "_order"):
+            columns[c] = values[c].take(order).reset_index(drop=True)
+    return pd.DataFrame(columns, copy=False)
 
 
 def _coverage(rows: Rows, good: np.ndarray, log: Log) -> None:
@@ -316,9 +364,11 @@ def _level_sources(rows: Rows, good_rows: np.ndarray, bounds: Any):
     """(table, district per row) for the panel's kept rows and the matched boundaries."""
     ok = np.flatnonzero(good_rows)
     part = rows.table if len(ok) == len(rows.table) else rows.table.iloc[ok]
-    sources = [(part, rows.names[rows.code[ok]], "")]
+    # the district of each row as codes into the sorted ids: no string per row
+    districts = pd.Categorical.from_codes(rows.code[ok], categories=pd.Index(rows.names, dtype=object))
+    sources = [(part, districts, "")]
     if bounds is not None:
-        regions = set(rows.names[rows.code[ok]])
+        regions = set(rows.names[np.unique(rows.code[ok])])
         inside = bounds[bounds["region"].isin(regions)]
         attrs = inside.drop(columns=["region", "name", "geometry"], errors="ignore")
         sources.append((attrs, inside["region"].to_numpy(), "boundaries"))
@@ -434,15 +484,19 @@ def _start(frame: Any, file: str, boundaries: Any, kind: str | None) -> Log:
     return log
 
 
-def _attach_ids(region: np.ndarray, boundaries: Any, boundary_file: str, log: Log):
+def _attach_ids(codes: np.ndarray, names: np.ndarray, boundaries: Any, boundary_file: str, log: Log):
     """Match the boundary ids to the panel's (padding numeric ids where that makes every id
-    match); returns the panel ids to use and the match, or None without boundaries."""
+    match); returns the panel's id codes and names to use and the match, or None without
+    boundaries."""
     if boundaries is None:
-        return region, None
-    found = boundary_ids(boundaries, {r for r in region if r is not None}, boundary_file, log)
+        return codes, names, None
+    found = boundary_ids(boundaries, set(names), boundary_file, log)
     if found is not None and found.panel_ids:
-        region = np.array([found.panel_ids.get(r, r) for r in region], dtype=object)
-    return region, found
+        padded = np.array([found.panel_ids.get(r, r) for r in names], dtype=object)
+        merged, names = pd.factorize(padded)  # two ids padded alike are one district
+        codes = np.where(codes < 0, -1, merged[np.maximum(codes, 0)]).astype(np.int32)
+        names = np.asarray(names, dtype=object)
+    return codes, names, found
 
 
 def validate(
@@ -506,10 +560,12 @@ def validate(
     table = frame.copy(deep=False)
     table.columns = list(columns)
     line = _file_lines(frame)
-    region, year = _keys(table, line, log)
-    report_clashes(region, file, "region", log)
-    region, id_match = _attach_ids(region, boundaries, boundary_file, log)
-    rows = _district_years(table, region, year, line)
+    codes, names, year = _keys(table, line, log)
+    report_clashes(names, file, "region", log)
+    codes, names, id_match = _attach_ids(codes, names, boundaries, boundary_file, log)
+    table = table[_needed_columns(table, layout, choice)]
+    rows = _district_years(table, codes, names, year, line)
+    del table, codes, year, line
 
     found = Findings(log)
     values = _values(rows, layout, found, allow_negative, frame.attrs.get("scales"))
