@@ -29,7 +29,7 @@ from explorer.data.model import fail
 
 __all__ = ["BLOCK_BYTES", "ODD_LINES", "Plan", "read_planned"]
 
-BLOCK_BYTES = 4 << 20  # text parsed at a time: the only part of the file held as text
+BLOCK_BYTES = 256 << 10  # text parsed at a time: the only part of the file held as text
 ODD_LINES = 1_000  # short or blank-with-spaces lines taken care of before giving up
 _SCAN_BYTES = 8 << 20  # chunk of the file read when looking up the text of a few lines
 _INTS = (np.int8, np.int16, np.int32)
@@ -52,6 +52,8 @@ class Plan:
     type_text : callable
         The careful reader's rule typing a column of text (stripped, missing words
         removed): numbers when all its cells are numbers, text when none is.
+    line_bytes : float
+        Mean bytes per line of the sample, to size the columns for the whole file.
     """
 
     header: tuple[str, ...]
@@ -60,6 +62,7 @@ class Plan:
     numeric: frozenset[str]
     missing: tuple[str, ...]
     type_text: Callable[[pd.Series], pd.Series]
+    line_bytes: float = 64.0
 
 
 class _GiveUp(Exception):
@@ -95,7 +98,8 @@ def _read(path: Path, file: str, plan: Plan) -> pd.DataFrame:
         n: pa.float64() if n in plan.numeric else pa.dictionary(pa.int32(), pa.string())
         for n in names
     }
-    columns = {n: _Numbers() if n in plan.numeric else _Text() for n in names}
+    rows = _expected_rows(path, plan)
+    columns = {n: _Numbers(rows) if n in plan.numeric else _Text(rows) for n in names}
     n = 0
     try:
         reader = pacsv.open_csv(
@@ -138,54 +142,83 @@ def _read(path: Path, file: str, plan: Plan) -> pd.DataFrame:
     return pd.DataFrame(frame, index=index, copy=False)
 
 
-class _Numbers:
-    """One number column, batch by batch, each batch in the smallest exact type."""
+def _expected_rows(path: Path, plan: Plan) -> int:
+    """Rows the file should hold, from its size and the sample's bytes per line."""
+    size = path.stat().st_size
+    return int(size / max(plan.line_bytes, 1.0) * 1.05) + 1024
 
-    def __init__(self) -> None:
-        self.chunks: list[np.ndarray] = []
+
+def _smallest_int(low, high):
+    """The smallest integer type holding ``low..high``, or None."""
+    return next((k for k in _INTS if np.iinfo(k).min <= low and high <= np.iinfo(k).max), None)
+
+
+class _Buffer:
+    """A column filled batch by batch into one array sized for the whole file up front.
+
+    Many small batch arrays freed at the end leave the heap full of holes the process
+    does not give back, doubling its peak; one array per column, widened or grown only
+    when the file asks for it, costs the column and nothing more.
+    """
+
+    def __init__(self, rows: int) -> None:
+        self.values = np.empty(rows, dtype=np.int8)  # untouched pages cost nothing yet
+        self.n = 0
 
     def __len__(self) -> int:
-        return sum(len(c) for c in self.chunks)
+        return self.n
+
+    def put(self, part: np.ndarray) -> None:
+        kind = np.result_type(self.values.dtype, part.dtype)
+        end = self.n + len(part)
+        if kind != self.values.dtype or end > len(self.values):
+            # the file held more rows than its sample foretold, or wider values
+            size = len(self.values) if end <= len(self.values) else int(end * 1.25) + 1024
+            grown = np.empty(size, dtype=kind)
+            grown[: self.n] = self.values[: self.n]
+            self.values = grown
+        self.values[self.n : end] = part
+        self.n = end
+
+    def filled(self) -> np.ndarray:
+        out, self.values = self.values[: self.n], np.empty(0, dtype=np.int8)
+        return out
+
+
+class _Numbers(_Buffer):
+    """One number column, in the smallest type that holds every value exactly (whole
+    numbers as 8-, 16- or 32-bit integers, others as float64)."""
 
     def add(self, array) -> None:
         values = array.to_numpy(zero_copy_only=False)
         if array.null_count == 0 and len(values):
             low, high = values.min(), values.max()
             if np.isfinite(low) and np.isfinite(high) and not np.any(np.mod(values, 1)):
-                for kind in _INTS:
-                    info = np.iinfo(kind)
-                    if info.min <= low and high <= info.max:
-                        values = values.astype(kind)
-                        break
-        self.chunks.append(values)
+                kind = _smallest_int(low, high)
+                values = values if kind is None else values.astype(kind)
+        self.put(values)
 
     def finish(self, plan: Plan) -> np.ndarray:
-        if not self.chunks:
-            return np.array([], dtype=float)
-        kind = np.result_type(*self.chunks)  # int and float batches give float64
-        out = np.concatenate([c.astype(kind, copy=False) for c in self.chunks])
-        self.chunks.clear()
-        return out
+        return self.filled()
 
 
-class _Text:
-    """One text column, batch by batch, as codes into one growing list of distinct values.
+class _Text(_Buffer):
+    """One text column as codes into one growing list of distinct values.
 
     Each batch arrives dictionary-encoded; only its (small) dictionary is looked up in
     the values seen so far, so the rows themselves are never held as text.
     """
 
-    def __init__(self) -> None:
+    def __init__(self, rows: int) -> None:
         import pyarrow as pa
 
+        super().__init__(rows)
         self.seen = pa.array([], type=pa.string())
-        self.chunks: list[np.ndarray] = []
 
     def add(self, array) -> None:
         import pyarrow as pa
         import pyarrow.compute as pc
 
-        array = array.combine_chunks() if isinstance(array, pa.ChunkedArray) else array
         words = array.dictionary
         found = pc.index_in(words, value_set=self.seen).to_numpy(zero_copy_only=False)
         new = np.isnan(found)
@@ -193,17 +226,14 @@ class _Text:
         if new.any():
             lookup[new] = len(self.seen) + np.arange(int(new.sum()))
             self.seen = pa.concat_arrays([self.seen, words.filter(pa.array(new))])
-        lookup = np.append(lookup, -1)  # the code of a missing cell
+        lookup = np.append(lookup, -1)  # a missing cell's index -1 picks this last entry
         indices = array.indices.fill_null(-1).to_numpy(zero_copy_only=False)
-        kind = next(k for k in _INTS if len(self.seen) < np.iinfo(k).max)
-        self.chunks.append(lookup.astype(kind)[indices])
+        self.put(lookup.astype(_smallest_int(-1, len(self.seen)))[indices])
 
     def finish(self, plan: Plan):
-        kind = np.result_type(*self.chunks) if self.chunks else np.int8
-        codes = np.concatenate([c.astype(kind, copy=False) for c in self.chunks] or [[]])
-        self.chunks.clear()
+        codes = self.filled()
         categories = pd.Index(self.seen.to_pandas(), dtype=str)
-        values = pd.Categorical.from_codes(codes.astype(kind), categories=categories)
+        values = pd.Categorical.from_codes(codes, categories=categories)
         return _as_careful_text(values, plan)
 
 
@@ -212,7 +242,7 @@ def _as_careful_text(values: pd.Categorical, plan: Plan):
     whose every cell turns out to be a number as numbers."""
     categories = pd.Series(values.categories.to_numpy(dtype=object), dtype=object)
     typed = plan.type_text(categories)
-    if pd.api.types.is_float_dtype(typed.dtype):
+    if pd.api.types.is_numeric_dtype(typed.dtype) and not pd.api.types.is_bool_dtype(typed.dtype):
         # numbers written where the sample had none: floats, as the careful reader types them
         lookup = np.append(typed.to_numpy(dtype=float), np.nan)
         codes = values.codes
@@ -265,7 +295,7 @@ def _with_short_lines(frame: dict, lines: np.ndarray, short, plan: Plan) -> np.n
     at = np.searchsorted(lines, [number for number, _ in short])
     for i, name in enumerate(plan.header):
         part = plan.type_text(pd.Series([c[i] for c in cells], dtype=object))
-        numbers = pd.api.types.is_float_dtype(part.dtype)
+        numbers = pd.api.types.is_numeric_dtype(part.dtype)
         column = frame[name]
         if isinstance(column, pd.Categorical):
             if numbers and part.notna().any() or any(isinstance(v, float) and v == v for v in part):

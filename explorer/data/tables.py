@@ -328,7 +328,7 @@ def _plain_csv(path: Path, file: str) -> pd.DataFrame | None:
     numeric = []
     for name in header:
         typed = _type_column(frame_sample[name], decimal, None)
-        if pd.api.types.is_float_dtype(typed.dtype) and typed.notna().any():
+        if pd.api.types.is_numeric_dtype(typed.dtype) and typed.notna().any():
             numeric.append(name)
     missing = sorted(_MISSING | {m.upper() for m in _MISSING} | {m.title() for m in _MISSING})
     plan = Plan(
@@ -338,6 +338,7 @@ def _plain_csv(path: Path, file: str) -> pd.DataFrame | None:
         numeric=frozenset(numeric),
         missing=tuple(missing),
         type_text=lambda cells: _type_column(cells, decimal, None),
+        line_bytes=len(start) / max(len(lines), 1),
     )
     return read_planned(path, file, plan)
 
