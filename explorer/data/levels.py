@@ -14,6 +14,7 @@ from __future__ import annotations
 import re
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 import pandas as pd
@@ -112,13 +113,9 @@ def district_values(table: pd.DataFrame, regions, column: str) -> pd.Series | No
         return None
     # the distinct (district, value) pairs in order of first appearance, found on codes:
     # a frame of millions of unit records is never copied or hashed as text
-    if not isinstance(regions, pd.Categorical):
-        regions = np.asarray(regions, dtype=object)
-    r_codes, r_names = pd.factorize(regions)
-    v_codes, v_uniques = pd.factorize(values)
-    key = r_codes.astype(np.int64) * max(len(v_uniques), 1) + v_codes
-    _, first = np.unique(key, return_index=True)
-    first.sort()
+    r_codes, r_names = _codes(regions)
+    v_codes, v_uniques = _codes(values)
+    first = _first_pairs(r_codes, v_codes, len(v_uniques))
     per = pd.DataFrame(
         {
             "region": np.asarray(r_names, dtype=object)[r_codes[first]],
@@ -129,6 +126,33 @@ def district_values(table: pd.DataFrame, regions, column: str) -> pd.Series | No
     if per["v"].isna().any() or per["region"].duplicated().any():
         return None
     return per.set_index("region")["v"]
+
+
+def _codes(values) -> tuple[np.ndarray, Any]:
+    """Codes and distinct values; a categorical's own codes, without hashing its rows."""
+    if isinstance(values, pd.Series) and isinstance(values.dtype, pd.CategoricalDtype):
+        values = values.array
+    if isinstance(values, pd.Categorical):
+        return values.codes, values.categories
+    if not isinstance(values, pd.Series):
+        values = np.asarray(values, dtype=object)
+    return pd.factorize(values)
+
+
+def _first_pairs(a: np.ndarray, b: np.ndarray, nb: int) -> np.ndarray:
+    """Positions of the first appearance of each distinct pair ``(a, b)``, in file order."""
+    n = len(a)
+    space = (int(a.max()) + 1 if n else 0) * max(nb, 1)
+    if space <= 4 * n + 1024:  # few districts times few values: a table of first positions
+        key = a.astype(np.int64 if space >= 2**31 else np.int32) * max(nb, 1) + b
+        first = np.full(space, n, dtype=np.int64)
+        np.minimum.at(first, key, np.arange(n, dtype=key.dtype))
+        first = first[first < n]
+    else:
+        key = a.astype(np.int64) * max(nb, 1) + b
+        _, first = np.unique(key, return_index=True)
+    first.sort()
+    return first
 
 
 def _skip(column: str) -> bool:

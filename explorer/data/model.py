@@ -282,7 +282,18 @@ def fingerprint(
     h = hashlib.sha256(kind.encode())
     for frame in (data, hierarchy):
         h.update("|".join(map(str, frame.columns)).encode())
-        h.update(pd.util.hash_pandas_object(frame, index=False).to_numpy().tobytes())
+        # text hashed as categories (the same hash, value for value): hashing millions of
+        # district ids one string at a time costs a Python object each
+        text = {
+            c: "category"
+            for c in frame.columns
+            if pd.api.types.is_string_dtype(frame[c].dtype)
+            and frame[c].dtype != object
+            and not frame[c].isna().any()
+        }
+        hashed = frame.astype(text) if text and len(frame) > 100_000 else frame
+        h.update(pd.util.hash_pandas_object(hashed, index=False).to_numpy().tobytes())
+        del hashed
     if boundaries is not None:
         import shapely
 

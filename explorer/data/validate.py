@@ -246,8 +246,8 @@ def _district_years(table: pd.DataFrame, codes, names, year, line) -> Rows:
         code=code,
         names=np.asarray(names, dtype=object)[by_name],
         year=year_i,
-        line=line,
-        gid=np.cumsum(new_group, dtype=np.int64) - 1,
+        line=line.astype(np.int32) if len(line) and line[-1] < 2**31 else line,
+        gid=np.cumsum(new_group, dtype=np.int32) - 1,
         starts=np.flatnonzero(new_group),
     )
 
@@ -298,27 +298,42 @@ def _tidy(values: pd.DataFrame, rows: Rows, kind: str, good: np.ndarray) -> pd.D
     import pyarrow.compute as pc
 
     gid = values["_gid"].to_numpy()
-    kept = np.flatnonzero(good[gid])
+    kept = None if good.all() else np.flatnonzero(good[gid])
+
+    def part(a: np.ndarray) -> np.ndarray:
+        return a if kept is None else a[kept]
+
     # group ids already run in (region, year) order: one sort gives the contract's order
     within = {"brackets": "bracket", "units": "income", "published": "_order"}.get(kind)
     if within:
-        order = kept[np.lexsort((values[within].to_numpy()[kept], gid[kept]))]
+        order = np.lexsort((part(values[within].to_numpy()), part(gid)))
     else:
-        order = kept[np.argsort(gid[kept], kind="stable")]
+        order = np.argsort(part(gid), kind="stable")
+    if kept is not None:
+        order = kept[order]
     del kept
-    src = values["_src"].to_numpy()[order]
-    # each column taken in order on its own: one column's copy at a time, never the frame's
+    # the district-year of each output row gives its district and year: no row index needed
+    group = gid[order]
     columns: dict[str, Any] = {}
-    code = rows.code[src]
     names = pa.array(rows.names.tolist(), type=pa.large_string())
     # ids as text straight from their codes (no string object per row)
-    columns["region"] = pc.take(names, pa.array(code)).to_pandas()
-    columns["year"] = rows.year[src]
-    del code, src
+    columns["region"] = pc.take(names, pa.array(rows.code[rows.starts][group])).to_pandas()
+    columns["year"] = rows.year[rows.starts][group]
+    del group
     for c in values.columns:
         if c not in ("_gid", "_src", "_order"):
-            columns[c] = values[c].take(order).reset_index(drop=True)
+            columns[c] = values[c].array.take(order)
     return pd.DataFrame(columns, copy=False)
+
+
+def _without_values(rows: Rows, layout: Layout) -> Rows:
+    """``rows`` without the value columns, which are in the tidy table now: later steps
+    read levels and the income concept only, and the sorted copies can go."""
+    from dataclasses import replace
+
+    values = {*KIND_COLUMNS.get(layout.kind, ()), *layout.share_cols, *PUBLISHED_MEASURES}
+    values -= {"region", "year"}
+    return replace(rows, table=rows.table[[c for c in rows.table.columns if c not in values]])
 
 
 def _coverage(rows: Rows, good: np.ndarray, log: Log) -> None:
@@ -573,6 +588,8 @@ def validate(
     good = np.ones(rows.n_groups, dtype=bool)
     good[found.fails.first()["gid"].to_numpy(dtype=np.int64)] = False
     data = _tidy(values, rows, layout.kind, good)
+    del values
+    rows = _without_values(rows, layout)
 
     _coverage(rows, good, log)
     income_concept = _income_concept(rows.table, good[rows.gid], log)
