@@ -24,7 +24,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from explorer.data.checks import Findings, Layout, Log, Rows, numbers, value_list
+from explorer.data.checks import Findings, Layout, Log, Rows, Taken, numbers, value_list
 from explorer.data.ids import IdMatch, id_codes
 from explorer.data.levels import LevelChoice, district_values, propose, read_choice
 from explorer.data.matching import attach_boundaries, boundary_ids, report_clashes
@@ -229,24 +229,35 @@ def _needed_columns(table: pd.DataFrame, layout: Layout, choice: LevelChoice | N
 
 def _district_years(table: pd.DataFrame, codes, names, year, line) -> Rows:
     """Rows with valid keys, sorted once by (district, year, line) into district-years."""
-    keep = np.flatnonzero(np.isfinite(year))
+    ok = np.isfinite(year)
+    keep = None if ok.all() else np.flatnonzero(ok)
+    del ok
+
+    def part(a: np.ndarray) -> np.ndarray:
+        return a if keep is None else a[keep]
+
     # districts numbered in the order of their sorted ids, so codes sort as the ids do
     by_name = np.argsort(names, kind="stable")
     rank = np.empty(len(names), dtype=np.int32)
     rank[by_name] = np.arange(len(names), dtype=np.int32)
-    code = rank[codes[keep]]
-    year_i, line = year[keep].astype(np.int64), line[keep]
-    order = np.lexsort((line, year_i, code))
-    code, year_i, line = code[order], year_i[order], line[order]
+    code = rank[part(codes)]
+    year_i = part(year).astype(np.int32)
+    # rows read in file order stay in line order within a district-year (a stable sort)
+    lines = part(line)
+    in_order = bool(np.all(lines[1:] > lines[:-1]))
+    order = np.lexsort((year_i, code) if in_order else (lines, year_i, code))
+    del lines
+    code, year_i = code[order], year_i[order]
     new_group = np.r_[True, (code[1:] != code[:-1]) | (year_i[1:] != year_i[:-1])]
-    rows = keep[order]
+    rows = order if keep is None else keep[order]
     del keep, order
+    line = line[rows]
     return Rows(
-        table=table.iloc[rows],  # one copy of the columns needed, not two
+        table=Taken(table, rows),  # each column sorted when read, never the whole table
         code=code,
         names=np.asarray(names, dtype=object)[by_name],
         year=year_i,
-        line=line.astype(np.int32) if len(line) and line[-1] < 2**31 else line,
+        line=line.astype(np.int32) if len(line) and line.max() < 2**31 else line,
         gid=np.cumsum(new_group, dtype=np.int32) - 1,
         starts=np.flatnonzero(new_group),
     )
@@ -318,7 +329,7 @@ def _tidy(values: pd.DataFrame, rows: Rows, kind: str, good: np.ndarray) -> pd.D
     names = pa.array(rows.names.tolist(), type=pa.large_string())
     # ids as text straight from their codes (no string object per row)
     columns["region"] = pc.take(names, pa.array(rows.code[rows.starts][group])).to_pandas()
-    columns["year"] = rows.year[rows.starts][group]
+    columns["year"] = rows.year[rows.starts].astype(np.int64)[group]
     del group
     for c in values.columns:
         if c not in ("_gid", "_src", "_order"):

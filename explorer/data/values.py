@@ -326,8 +326,7 @@ def unit_values(rows: Rows, found: Findings, allow_negative: bool) -> pd.DataFra
     )
     # the arrays as they are: a frame built with copies would hold each column twice
     return pd.DataFrame(
-        {"income": income.values, "weight": weight, "_gid": gid, "_src": np.arange(n_rows)},
-        copy=False,
+        {"income": income.values, "weight": weight, "_gid": gid}, copy=False
     )
 
 
