@@ -301,7 +301,8 @@ def numbers(raw: pd.Series) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     if pd.api.types.is_bool_dtype(raw.dtype):
         values = np.full(len(raw), np.nan)
         return values, miss, ~miss
-    values = np.array(pd.to_numeric(raw, errors="coerce").to_numpy(dtype=float, na_value=np.nan))
+    # one fresh array (written to below), not a conversion and then a copy of it
+    values = pd.to_numeric(raw, errors="coerce").to_numpy(dtype=float, na_value=np.nan, copy=True)
     text = ~miss & np.isnan(values)
     values[miss] = np.nan
     return values, miss, text

@@ -604,7 +604,9 @@ def validate(
 
     _coverage(rows, good, log)
     income_concept = _income_concept(rows.table, good[rows.gid], log)
-    regions = pd.unique(data["region"])
+    # the kept districts, from their codes (sorted ids, as in the tidy table)
+    kept_codes = np.unique(rows.code[rows.starts][good])
+    regions = pd.unique(pd.Series(rows.names[kept_codes], dtype=str))
     bounds = _matched(boundaries, regions, id_match, boundary_file, log)
     hierarchy, level_names, bounds = _hierarchy(
         rows, good[rows.gid], regions, bounds, choice, boundary_file, log
