@@ -128,6 +128,8 @@ def _read(path: Path, file: str, plan: Plan) -> pd.DataFrame:
                     columns[name].add(column)
     except (pa.ArrowException, UnicodeDecodeError, OSError, ValueError) as exc:
         raise _GiveUp from exc
+    finally:
+        pa.default_memory_pool().release_unused()  # the parse buffers, back to the system
     lines, short = _odd_lines(odd, n, len(names), plan, file)
     frame = {name: columns.pop(name).finish(plan) for name in names}
     if short:

@@ -160,7 +160,8 @@ def _file_lines(frame: pd.DataFrame) -> np.ndarray:
     """File line of each row: the reader's index (line - 2) when it is a unique integer one."""
     idx = frame.index
     if isinstance(idx, pd.RangeIndex) and idx.step == 1:
-        return np.arange(idx.start + 2, idx.stop + 2, dtype=np.int64)
+        small = idx.stop + 2 < 2**31
+        return np.arange(idx.start + 2, idx.stop + 2, dtype=np.int32 if small else np.int64)
     if pd.api.types.is_integer_dtype(idx.dtype) and idx.is_unique:
         return idx.to_numpy(dtype=np.int64) + 2
     return np.arange(len(frame), dtype=np.int64) + 2
@@ -251,6 +252,8 @@ def _district_years(table: pd.DataFrame, codes, names, year, line) -> Rows:
     new_group = np.r_[True, (code[1:] != code[:-1]) | (year_i[1:] != year_i[:-1])]
     rows = order if keep is None else keep[order]
     del keep, order
+    if len(rows) < 2**31:
+        rows = rows.astype(np.int32)  # positions held to the end of validation
     line = line[rows]
     return Rows(
         table=Taken(table, rows),  # each column sorted when read, never the whole table
@@ -304,7 +307,10 @@ def _set_aside(rows: Rows, layout: Layout, found: Findings) -> pd.DataFrame:
 
 
 def _tidy(values: pd.DataFrame, rows: Rows, kind: str, good: np.ndarray) -> pd.DataFrame:
-    """The contract's long table: kept district-years, sorted by region, year, then within."""
+    """The contract's long table: kept district-years, sorted by region, year, then within.
+
+    Empties ``values`` of its value columns as it goes (the caller is done with them).
+    """
     import pyarrow as pa
     import pyarrow.compute as pc
 
@@ -323,6 +329,8 @@ def _tidy(values: pd.DataFrame, rows: Rows, kind: str, good: np.ndarray) -> pd.D
     if kept is not None:
         order = kept[order]
     del kept
+    if len(order) < 2**31:
+        order = order.astype(np.int32)
     # the district-year of each output row gives its district and year: no row index needed
     group = gid[order]
     columns: dict[str, Any] = {}
@@ -331,9 +339,12 @@ def _tidy(values: pd.DataFrame, rows: Rows, kind: str, good: np.ndarray) -> pd.D
     columns["region"] = pc.take(names, pa.array(rows.code[rows.starts][group])).to_pandas()
     columns["year"] = rows.year[rows.starts].astype(np.int64)[group]
     del group
-    for c in values.columns:
+    for c in list(values.columns):
         if c not in ("_gid", "_src", "_order"):
-            columns[c] = values[c].array.take(order)
+            # taken out of ``values`` as it is copied in order: one column held twice at most
+            column = values.pop(c)
+            columns[c] = column.array.take(order)
+            del column
     return pd.DataFrame(columns, copy=False)
 
 
