@@ -19,7 +19,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from explorer.data.ids import id_strings, match_ids
+from explorer.data.ids import id_codes, id_strings, match_ids
 from explorer.data.model import KIND_COLUMNS, PUBLISHED_MEASURES
 
 __all__ = [
@@ -197,13 +197,16 @@ def propose_levels(
         Outermost (fewest groups) first; a column in both files is listed once, from
         the panel.
     """
-    regions = id_strings(table["region"])
-    keep = pd.notna(regions)
-    n = len(set(regions[keep]))
-    found = propose(table[keep], regions[keep], n, "panel")
-    ids = None if boundaries is None else _boundary_ids(boundaries, regions[keep])
+    codes, names = id_codes(table["region"])
+    keep = codes >= 0
+    # districts as codes into their ids: no string per row, no copy of a full table
+    regions = pd.Categorical.from_codes(codes[keep], categories=pd.Index(names, dtype=object))
+    n = len(np.unique(codes[keep]))
+    found = propose(table if keep.all() else table[keep], regions, n, "panel")
+    present = set(names[np.unique(codes[keep])])
+    ids = None if boundaries is None else _boundary_ids(boundaries, present)
     if ids is not None:
-        inside = pd.Series(ids).isin(set(regions[keep])).to_numpy()
+        inside = pd.Series(ids).isin(present).to_numpy()
         attrs = boundaries[inside].drop(columns=["geometry"], errors="ignore")
         for column, item in propose(attrs, ids[inside], n, "boundaries").items():
             found.setdefault(column, item)
