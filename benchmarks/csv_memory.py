@@ -31,8 +31,9 @@ ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(ROOT))
 sys.path.insert(0, str(ROOT / "benchmarks"))
 
-from explorer.data.files import MAX_FILE_BYTES  # noqa: E402
 from peak import peak_of  # noqa: E402
+
+from explorer.data.files import MAX_FILE_BYTES  # noqa: E402
 
 MB = 1024 * 1024
 #: Invented counties of an invented country; each holds a run of district codes.
@@ -132,7 +133,9 @@ def main(argv: list[str] | None = None) -> int:
         with path.open("rb") as whole, head.open("wb") as out:
             out.writelines(line for _, line in zip(range(2_000), whole, strict=False))
         bare = check(str(head))
-        print(f"bare (its first 2,000 lines): peak {bare['peak_mb']:.0f} MB, {bare['seconds']:.1f} s")
+        print(
+            f"bare (its first 2,000 lines): peak {bare['peak_mb']:.0f} MB, {bare['seconds']:.1f} s"
+        )
         run = check(str(path))
     above = run["peak_mb"] - base["peak_mb"]
     ratio = run["peak_mb"] / file_mb

@@ -15,7 +15,14 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-__all__ = ["IdMatch", "id_codes", "id_strings", "leading_zero_clashes", "match_ids", "missing_cells"]
+__all__ = [
+    "IdMatch",
+    "id_codes",
+    "id_strings",
+    "leading_zero_clashes",
+    "match_ids",
+    "missing_cells",
+]
 
 _DIGITS = re.compile(r"^\d+$")
 

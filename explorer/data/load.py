@@ -158,7 +158,9 @@ def read_as_it_is(
     try:
         head = read_head(panel_path, sheet=sheet)
         if column_map:
-            mapping = parse_column_map(column_map) if isinstance(column_map, str) else dict(column_map)
+            mapping = (
+                parse_column_map(column_map) if isinstance(column_map, str) else dict(column_map)
+            )
             head = apply_column_map(head, mapping, file=panel_path.name)
     except DataError:
         return False

@@ -228,23 +228,25 @@ def _needed_columns(table: pd.DataFrame, layout: Layout, choice: LevelChoice | N
     ]
 
 
+def _part(a: np.ndarray, positions: np.ndarray | None) -> np.ndarray:
+    """``a`` at ``positions``; ``a`` itself (no copy) when every row is kept (None)."""
+    return a if positions is None else a[positions]
+
+
 def _district_years(table: pd.DataFrame, codes, names, year, line) -> Rows:
     """Rows with valid keys, sorted once by (district, year, line) into district-years."""
     ok = np.isfinite(year)
     keep = None if ok.all() else np.flatnonzero(ok)
     del ok
 
-    def part(a: np.ndarray) -> np.ndarray:
-        return a if keep is None else a[keep]
-
     # districts numbered in the order of their sorted ids, so codes sort as the ids do
     by_name = np.argsort(names, kind="stable")
     rank = np.empty(len(names), dtype=np.int32)
     rank[by_name] = np.arange(len(names), dtype=np.int32)
-    code = rank[part(codes)]
-    year_i = part(year).astype(np.int32)
+    code = rank[_part(codes, keep)]
+    year_i = _part(year, keep).astype(np.int32)
     # rows read in file order stay in line order within a district-year (a stable sort)
-    lines = part(line)
+    lines = _part(line, keep)
     in_order = bool(np.all(lines[1:] > lines[:-1]))
     order = np.lexsort((year_i, code) if in_order else (lines, year_i, code))
     del lines
@@ -317,15 +319,12 @@ def _tidy(values: pd.DataFrame, rows: Rows, kind: str, good: np.ndarray) -> pd.D
     gid = values["_gid"].to_numpy()
     kept = None if good.all() else np.flatnonzero(good[gid])
 
-    def part(a: np.ndarray) -> np.ndarray:
-        return a if kept is None else a[kept]
-
     # group ids already run in (region, year) order: one sort gives the contract's order
     within = {"brackets": "bracket", "units": "income", "published": "_order"}.get(kind)
     if within:
-        order = np.lexsort((part(values[within].to_numpy()), part(gid)))
+        order = np.lexsort((_part(values[within].to_numpy(), kept), _part(gid, kept)))
     else:
-        order = np.argsort(part(gid), kind="stable")
+        order = np.argsort(_part(gid, kept), kind="stable")
     if kept is not None:
         order = kept[order]
     del kept
@@ -402,7 +401,9 @@ def _level_sources(rows: Rows, good_rows: np.ndarray, bounds: Any):
     ok = np.flatnonzero(good_rows)
     part = rows.table if len(ok) == len(rows.table) else rows.table.iloc[ok]
     # the district of each row as codes into the sorted ids: no string per row
-    districts = pd.Categorical.from_codes(rows.code[ok], categories=pd.Index(rows.names, dtype=object))
+    districts = pd.Categorical.from_codes(
+        rows.code[ok], categories=pd.Index(rows.names, dtype=object)
+    )
     sources = [(part, districts, "")]
     if bounds is not None:
         regions = set(rows.names[np.unique(rows.code[ok])])
@@ -521,7 +522,9 @@ def _start(frame: Any, file: str, boundaries: Any, kind: str | None) -> Log:
     return log
 
 
-def _attach_ids(codes: np.ndarray, names: np.ndarray, boundaries: Any, boundary_file: str, log: Log):
+def _attach_ids(
+    codes: np.ndarray, names: np.ndarray, boundaries: Any, boundary_file: str, log: Log
+):
     """Match the boundary ids to the panel's (padding numeric ids where that makes every id
     match); returns the panel's id codes and names to use and the match, or None without
     boundaries."""

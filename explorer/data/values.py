@@ -325,9 +325,7 @@ def unit_values(rows: Rows, found: Findings, allow_negative: bool) -> pd.DataFra
         ["the total income of this district-year is zero or less"] * len(zero_y),
     )
     # the arrays as they are: a frame built with copies would hold each column twice
-    return pd.DataFrame(
-        {"income": income.values, "weight": weight, "_gid": gid}, copy=False
-    )
+    return pd.DataFrame({"income": income.values, "weight": weight, "_gid": gid}, copy=False)
 
 
 def mean_values(rows: Rows, found: Findings) -> pd.DataFrame:

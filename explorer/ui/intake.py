@@ -97,7 +97,6 @@ def _as_list(files: Any) -> list[Any]:
 def _columns(name: str, file_id: str, scope: str, _content: bytes) -> list[str]:
     # Keyed by the upload's id, so a large file is not hashed again on every rerun.
     from explorer import data as readers
-
     from explorer.data.tables import HEAD_BYTES
 
     with tempfile.TemporaryDirectory(prefix="rift-peek-") as folder:

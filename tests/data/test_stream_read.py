@@ -55,7 +55,17 @@ def office_rows(rows: int, seed: int, decimal: str = ".") -> list[list[str]]:
     return out
 
 
-HEADER = ["region", "year", "county", "household_id", "person", "sex", "age_group", "income", "weight"]
+HEADER = [
+    "region",
+    "year",
+    "county",
+    "household_id",
+    "person",
+    "sex",
+    "age_group",
+    "income",
+    "weight",
+]
 
 
 def write(path: Path, rows, delimiter=",", bom=False, newline="\n", quote_all=False, extra=()):
