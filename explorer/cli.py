@@ -542,14 +542,21 @@ def run_check(args: argparse.Namespace) -> int:
 def reading_lines(args: argparse.Namespace) -> list[str]:
     """What was understood of a table read as an office publishes it (layout, header line,
     measures); nothing for a tidy table or the demo."""
-    from explorer.data.load import read_panel_table
+    from explorer.data.load import read_as_it_is, read_panel_table
 
     if args.panel == DEMO:
         return []
+    from explorer.data.tables import PLAIN_READ_BYTES
+
+    options = _read_options(args)
     try:
-        read = read_panel_table(
-            args.panel, sheet=args.sheet, column_map=args.map, options=_read_options(args)
-        )
+        large = Path(args.panel).stat().st_size >= PLAIN_READ_BYTES
+    except OSError:
+        large = False
+    if large and read_as_it_is(args.panel, sheet=args.sheet, column_map=args.map, options=options):
+        return []  # a tidy table has no account to give: a large file is not read twice
+    try:
+        read = read_panel_table(args.panel, sheet=args.sheet, column_map=args.map, options=options)
     except DataError:  # the panel was read already; this is only its account
         return []
     if read.reading is None:

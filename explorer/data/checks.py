@@ -18,7 +18,17 @@ import pandas as pd
 from explorer.data.ids import missing_cells
 from explorer.data.model import DataError, Problem, _listing
 
-__all__ = ["Cells", "Failures", "Findings", "Layout", "Log", "Rows", "numbers", "value_list"]
+__all__ = [
+    "Cells",
+    "Failures",
+    "Findings",
+    "Layout",
+    "Log",
+    "Rows",
+    "Taken",
+    "numbers",
+    "value_list",
+]
 
 
 class Log:
@@ -132,11 +142,50 @@ class Layout:
     share_cols: tuple[str, ...] = ()
 
 
+class Taken:
+    """The rows of a table in a given order, each column taken only when it is read.
+
+    Sorting a table of millions of unit records copies every column at once; taken one
+    column at a time, only the column in use is held twice. Offers what the validation
+    steps read of a frame: ``columns``, ``len``, ``[column]`` (a Series with a fresh
+    index), ``[[columns]]`` and ``iloc[positions]``.
+    """
+
+    def __init__(self, frame: pd.DataFrame, positions: np.ndarray) -> None:
+        self._frame, self._positions = frame, positions
+
+    @property
+    def columns(self) -> pd.Index:
+        """The table's column names."""
+        return self._frame.columns
+
+    def __len__(self) -> int:
+        return len(self._positions)
+
+    def __getitem__(self, column):
+        if isinstance(column, list):
+            return Taken(self._frame[column], self._positions)
+        return pd.Series(self._frame[column].array.take(self._positions), name=column)
+
+    @property
+    def iloc(self) -> _TakenRows:
+        """Positional selection of rows, as ``DataFrame.iloc[positions]``."""
+        return _TakenRows(self)
+
+
+class _TakenRows:
+    def __init__(self, taken: Taken) -> None:
+        self._taken = taken
+
+    def __getitem__(self, positions) -> Taken:
+        return Taken(self._taken._frame, self._taken._positions[positions])
+
+
 @dataclass(frozen=True)
 class Rows:
     """Rows with a valid district and year, sorted by district, year and file line."""
 
-    table: pd.DataFrame
+    table: Taken  # the table's rows in this order, read a column at a time
     code: np.ndarray  # district of each row, as an index into ``names``
     names: np.ndarray  # district ids, sorted
     year: np.ndarray  # whole year of each row
@@ -190,14 +239,14 @@ class Cells:
     @classmethod
     def of(cls, table: pd.DataFrame, column: str, rows: Rows) -> Cells:
         """The cells of ``column`` on every row."""
-        values, miss, text = numbers(table[column])
         series = table[column]
+        values, miss, text = numbers(series)
         # a column read as numbers holds no text: its cells as written are the numbers
         # (an object copy of millions of unit records would cost more than the data)
         numeric = pd.api.types.is_numeric_dtype(series.dtype) and not pd.api.types.is_bool_dtype(
             series.dtype
         )
-        raw = series.to_numpy(dtype=float) if numeric else series.to_numpy(dtype=object)
+        raw = values if numeric else series.to_numpy(dtype=object)
         return cls(values, miss, text, raw, rows.gid, rows.line, column)
 
     def check(
@@ -252,7 +301,8 @@ def numbers(raw: pd.Series) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     if pd.api.types.is_bool_dtype(raw.dtype):
         values = np.full(len(raw), np.nan)
         return values, miss, ~miss
-    values = np.array(pd.to_numeric(raw, errors="coerce").to_numpy(dtype=float, na_value=np.nan))
+    # one fresh array (written to below), not a conversion and then a copy of it
+    values = pd.to_numeric(raw, errors="coerce").to_numpy(dtype=float, na_value=np.nan, copy=True)
     text = ~miss & np.isnan(values)
     values[miss] = np.nan
     return values, miss, text

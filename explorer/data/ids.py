@@ -15,7 +15,14 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-__all__ = ["IdMatch", "id_strings", "leading_zero_clashes", "match_ids", "missing_cells"]
+__all__ = [
+    "IdMatch",
+    "id_codes",
+    "id_strings",
+    "leading_zero_clashes",
+    "match_ids",
+    "missing_cells",
+]
 
 _DIGITS = re.compile(r"^\d+$")
 
@@ -63,6 +70,23 @@ def id_strings(raw: pd.Series) -> np.ndarray:
         out = raw.astype(str).to_numpy(dtype=object).copy()
     out[miss] = None
     return out
+
+
+def id_codes(raw: pd.Series) -> tuple[np.ndarray, np.ndarray]:
+    """Ids as codes into their distinct texts: ``(codes, names)``, code -1 for a missing id.
+
+    ``names[codes]`` is :func:`id_strings` of ``raw`` (None where -1). A categorical column
+    is read on its categories, so a file of millions of unit records in a few hundred
+    districts costs a small integer per row, not a string.
+    """
+    if isinstance(raw.dtype, pd.CategoricalDtype):
+        texts = id_strings(pd.Series(raw.cat.categories.to_numpy(dtype=object), dtype=object))
+        merged, names = pd.factorize(texts)  # categories equal once stripped share a code
+        lookup = np.append(merged, -1).astype(np.int32)
+        codes = raw.cat.codes.to_numpy()
+        return lookup[np.where(codes < 0, len(lookup) - 1, codes)], np.asarray(names, dtype=object)
+    codes, names = pd.factorize(id_strings(raw))  # None -> -1
+    return codes.astype(np.int32), np.asarray(names, dtype=object)
 
 
 def leading_zero_clashes(ids: Iterable[str]) -> list[list[str]]:

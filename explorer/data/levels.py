@@ -14,11 +14,12 @@ from __future__ import annotations
 import re
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 import pandas as pd
 
-from explorer.data.ids import id_strings, match_ids
+from explorer.data.ids import id_codes, id_strings, match_ids
 from explorer.data.model import KIND_COLUMNS, PUBLISHED_MEASURES
 
 __all__ = [
@@ -89,6 +90,10 @@ def read_choice(levels: Sequence[str] | Mapping[str, str] | None) -> LevelChoice
 
 def _is_text(values: pd.Series) -> bool:
     """True for a column of words or codes; False for numbers, stored or written as text."""
+    if isinstance(values.dtype, pd.CategoricalDtype):
+        # the distinct cells decide: a unit-record column holds millions of rows, few words
+        codes = values.cat.codes.unique()
+        values = pd.Series(values.cat.categories[codes[codes >= 0]])
     if not (pd.api.types.is_object_dtype(values) or pd.api.types.is_string_dtype(values)):
         return False
     cells = values.dropna().astype(str).str.strip()
@@ -103,13 +108,51 @@ def district_values(table: pd.DataFrame, regions, column: str) -> pd.Series | No
 
     None when a district has two values, or a value is missing.
     """
-    if table[column].isna().any():
+    values = table[column]
+    if values.isna().any():
         return None
-    per = pd.DataFrame({"region": regions, "v": table[column].to_numpy()}).drop_duplicates()
+    # the distinct (district, value) pairs in order of first appearance, found on codes:
+    # a frame of millions of unit records is never copied or hashed as text
+    r_codes, r_names = _codes(regions)
+    v_codes, v_uniques = _codes(values)
+    first = _first_pairs(r_codes, v_codes, len(v_uniques))
+    per = pd.DataFrame(
+        {
+            "region": np.asarray(r_names, dtype=object)[r_codes[first]],
+            "v": pd.Series(v_uniques).to_numpy(dtype=object)[v_codes[first]],
+        }
+    )
     per["v"] = id_strings(per["v"])
     if per["v"].isna().any() or per["region"].duplicated().any():
         return None
     return per.set_index("region")["v"]
+
+
+def _codes(values) -> tuple[np.ndarray, Any]:
+    """Codes and distinct values; a categorical's own codes, without hashing its rows."""
+    if isinstance(values, pd.Series) and isinstance(values.dtype, pd.CategoricalDtype):
+        values = values.array
+    if isinstance(values, pd.Categorical):
+        return values.codes, values.categories
+    if not isinstance(values, pd.Series):
+        values = np.asarray(values, dtype=object)
+    return pd.factorize(values)
+
+
+def _first_pairs(a: np.ndarray, b: np.ndarray, nb: int) -> np.ndarray:
+    """Positions of the first appearance of each distinct pair ``(a, b)``, in file order."""
+    n = len(a)
+    space = (int(a.max()) + 1 if n else 0) * max(nb, 1)
+    if space <= 4 * n + 1024:  # few districts times few values: a table of first positions
+        key = a.astype(np.int64 if space >= 2**31 else np.int32) * max(nb, 1) + b
+        first = np.full(space, n, dtype=np.int64)
+        np.minimum.at(first, key, np.arange(n, dtype=key.dtype))
+        first = first[first < n]
+    else:
+        key = a.astype(np.int64) * max(nb, 1) + b
+        _, first = np.unique(key, return_index=True)
+    first.sort()
+    return first
 
 
 def _skip(column: str) -> bool:
@@ -154,13 +197,16 @@ def propose_levels(
         Outermost (fewest groups) first; a column in both files is listed once, from
         the panel.
     """
-    regions = id_strings(table["region"])
-    keep = pd.notna(regions)
-    n = len(set(regions[keep]))
-    found = propose(table[keep], regions[keep], n, "panel")
-    ids = None if boundaries is None else _boundary_ids(boundaries, regions[keep])
+    codes, names = id_codes(table["region"])
+    keep = codes >= 0
+    # districts as codes into their ids: no string per row, no copy of a full table
+    regions = pd.Categorical.from_codes(codes[keep], categories=pd.Index(names, dtype=object))
+    n = len(np.unique(codes[keep]))
+    found = propose(table if keep.all() else table[keep], regions, n, "panel")
+    present = set(names[np.unique(codes[keep])])
+    ids = None if boundaries is None else _boundary_ids(boundaries, present)
     if ids is not None:
-        inside = pd.Series(ids).isin(set(regions[keep])).to_numpy()
+        inside = pd.Series(ids).isin(present).to_numpy()
         attrs = boundaries[inside].drop(columns=["geometry"], errors="ignore")
         for column, item in propose(attrs, ids[inside], n, "boundaries").items():
             found.setdefault(column, item)

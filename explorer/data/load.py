@@ -29,7 +29,7 @@ from explorer.data.office import (
 from explorer.data.tables import read_table
 from explorer.data.validate import detect_kind, validate
 
-__all__ = ["PanelTable", "load_panel", "read_crosswalk", "read_panel_table"]
+__all__ = ["PanelTable", "load_panel", "read_as_it_is", "read_crosswalk", "read_panel_table"]
 
 #: Suffixes the office reader takes (delimited text and workbooks).
 OFFICE_SUFFIXES = (".csv", ".tsv", ".txt", ".xlsx", ".xlsm")
@@ -133,6 +133,38 @@ def read_panel_table(
         },
     }
     return PanelTable(frame, reading, dict(enumerate(reading.lines)))
+
+
+def read_as_it_is(
+    panel_path: str | Path,
+    *,
+    sheet: str | int | None = None,
+    column_map: Mapping[str, str] | str | None = None,
+    options: ReadOptions | None = None,
+) -> bool:
+    """Whether :func:`read_panel_table` reads this table as it is (tidy), told from its
+    header and first lines alone, so a large file is not read a second time to say so.
+
+    False when the office reader would be asked (or when the head cannot be read).
+    """
+    from explorer.data.tables import read_head
+
+    panel_path = Path(panel_path)
+    options = options or ReadOptions()
+    if panel_path.suffix.lower() not in OFFICE_SUFFIXES:
+        return True
+    if replace(options, year=None) != ReadOptions():
+        return False
+    try:
+        head = read_head(panel_path, sheet=sheet)
+        if column_map:
+            mapping = (
+                parse_column_map(column_map) if isinstance(column_map, str) else dict(column_map)
+            )
+            head = apply_column_map(head, mapping, file=panel_path.name)
+    except DataError:
+        return False
+    return not _office_wanted(head, options)
 
 
 #: Words of the office reader's errors that mean it understood the table but needs the

@@ -271,6 +271,9 @@ def fail(
     return DataError([Problem(message, fix, file=file, row=row, column=column)])
 
 
+_HASH_ROWS = 500_000  # rows hashed at a time by :func:`fingerprint`
+
+
 def fingerprint(
     kind: str, data: pd.DataFrame, hierarchy: pd.DataFrame, boundaries: Any = None
 ) -> str:
@@ -282,7 +285,21 @@ def fingerprint(
     h = hashlib.sha256(kind.encode())
     for frame in (data, hierarchy):
         h.update("|".join(map(str, frame.columns)).encode())
-        h.update(pd.util.hash_pandas_object(frame, index=False).to_numpy().tobytes())
+        # A row's hash depends on that row alone, so hashing a large table a slice at a time
+        # gives the same bytes while holding only a slice's hashes; text is hashed as
+        # categories (the same hash, value for value) rather than one string at a time.
+        for start in range(0, max(len(frame), 1), _HASH_ROWS):
+            part = frame.iloc[start : start + _HASH_ROWS]
+            text = {
+                c: "category"
+                for c in part.columns
+                if pd.api.types.is_string_dtype(part[c].dtype)
+                and part[c].dtype != object
+                and not part[c].isna().any()
+            }
+            hashed = part.astype(text) if text and len(part) > 10_000 else part
+            h.update(pd.util.hash_pandas_object(hashed, index=False).to_numpy().tobytes())
+            del part, hashed
     if boundaries is not None:
         import shapely
 

@@ -278,20 +278,25 @@ def _frame_from_rows(
 
 
 #: Text files at least this large are first tried as a plain table (one header line, then
-#: rows): read typed, straight from the file, without holding every cell as text.
+#: rows): streamed typed into compact columns (:mod:`explorer.data.csv_stream`), without
+#: holding every cell as text.
 PLAIN_READ_BYTES = 4_000_000
+_DECIMAL_ROWS = 199  # rows the careful reader looks at to tell a decimal comma
 
 
 def _plain_csv(path: Path, file: str) -> pd.DataFrame | None:
-    """A large CSV read typed in one pass, or None when it is not a plain table.
+    """A large CSV streamed typed, or None when it is not a plain table.
 
     Holding every cell of a large unit-record file as text first costs dozens of times the
     file's size; a plain table (UTF-8, a full header on line 1, numbers with a decimal
-    point) is read by the C parser straight into floats and categorical text instead. Any
-    irregularity (a title line, a note, a footnote, a text cell in a number column) makes
-    this return None, and the careful reader, which names each such line, reads the file.
-    The result has the careful reader's shape: index = line - 2, text columns as text.
+    point or a decimal comma and no thousands separator) is streamed into numbers and
+    categorical text instead (:func:`explorer.data.csv_stream.read_planned`), giving what
+    the careful reader gives. A file the stream cannot read exactly so (a text cell in a
+    number column, a quoted line break) makes this return None, and the careful reader,
+    which names each such line, reads the file.
     """
+    from explorer.data.csv_stream import Plan, read_planned
+
     with path.open("rb") as handle:
         start = handle.read(HEAD_BYTES)
     if len(start) == HEAD_BYTES and b"\n" in start:
@@ -314,55 +319,28 @@ def _plain_csv(path: Path, file: str) -> pd.DataFrame | None:
     if not body or any(len(row) != len(header) for row in body):
         return None
     frame_sample = pd.DataFrame(body, columns=header)
-    if _decimal_style(frame_sample, delimiter) != (".", None):
-        return None
-    numeric, textual = [], []
+    decimal, thousands = _decimal_style(
+        pd.DataFrame([r for r in sample[1 : _DECIMAL_ROWS + 1] if len(r) == len(header)]),
+        delimiter,
+    )
+    if thousands is not None:
+        return None  # thousands separators: the stream parses plain numbers only
+    numeric = []
     for name in header:
-        cells = frame_sample[name].str.strip()
-        cells = cells[~cells.str.lower().isin(_MISSING)]
-        if cells.empty:
-            return None  # a column with nothing in the sample: let the careful reader say so
-        if cells.str.match(_LEADING_ZERO).any():
-            textual.append(name)
-        elif pd.to_numeric(cells, errors="coerce").notna().all():
+        typed = _type_column(frame_sample[name], decimal, None)
+        if pd.api.types.is_numeric_dtype(typed.dtype) and typed.notna().any():
             numeric.append(name)
-        else:
-            textual.append(name)
     missing = sorted(_MISSING | {m.upper() for m in _MISSING} | {m.title() for m in _MISSING})
-    try:
-        frame = pd.read_csv(
-            path,
-            sep=delimiter,
-            header=0,
-            names=header,
-            dtype={**{n: "float64" for n in numeric}, **{n: "category" for n in textual}},
-            na_values={n: missing for n in numeric} | {n: [""] for n in textual},
-            keep_default_na=False,
-            skip_blank_lines=False,
-            skipinitialspace=True,
-            encoding="utf-8-sig",
-            engine="c",
-        )
-    except (ValueError, pd.errors.ParserError, UnicodeDecodeError, csv.Error, OverflowError):
-        return None
-    frame.index = np.arange(len(frame))  # line - 2
-    if numeric and textual:
-        # a line of text with no number at all is a note or a footnote, not a row
-        no_number = frame[numeric].isna().all(axis=1).to_numpy()
-        some_text = frame[textual].notna().any(axis=1).to_numpy()
-        if (no_number & some_text).any():
-            return None
-    blank = frame.isna().all(axis=1).to_numpy()
-    if blank.any():
-        frame = frame[~blank]
-    for name in textual:  # categories as the careful reader gives text: stripped
-        categories = frame[name].cat.categories
-        stripped = categories.astype(str).str.strip()
-        if not (stripped == categories).all():
-            if pd.Index(stripped).has_duplicates:
-                return None
-            frame[name] = frame[name].cat.rename_categories(stripped)
-    return frame
+    plan = Plan(
+        header=tuple(header),
+        delimiter=delimiter,
+        decimal=decimal,
+        numeric=frozenset(numeric),
+        missing=tuple(missing),
+        type_text=lambda cells: _type_column(cells, decimal, None),
+        line_bytes=len(start) / max(len(lines), 1),
+    )
+    return read_planned(path, file, plan)
 
 
 def _read_csv(path: Path, file: str, head: int | None = None) -> pd.DataFrame:

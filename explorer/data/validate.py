@@ -24,11 +24,12 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from explorer.data.checks import Findings, Layout, Log, Rows, numbers, value_list
-from explorer.data.ids import IdMatch, id_strings
+from explorer.data.checks import Findings, Layout, Log, Rows, Taken, numbers, value_list
+from explorer.data.ids import IdMatch, id_codes
 from explorer.data.levels import LevelChoice, district_values, propose, read_choice
 from explorer.data.matching import attach_boundaries, boundary_ids, report_clashes
 from explorer.data.model import (
+    KIND_COLUMNS,
     KINDS,
     LISTED,
     PUBLISHED_MEASURES,
@@ -158,15 +159,21 @@ def detect_layout(columns: Sequence[str], kind: str | None, log: Log) -> Layout:
 def _file_lines(frame: pd.DataFrame) -> np.ndarray:
     """File line of each row: the reader's index (line - 2) when it is a unique integer one."""
     idx = frame.index
+    if isinstance(idx, pd.RangeIndex) and idx.step == 1:
+        small = idx.stop + 2 < 2**31
+        return np.arange(idx.start + 2, idx.stop + 2, dtype=np.int32 if small else np.int64)
     if pd.api.types.is_integer_dtype(idx.dtype) and idx.is_unique:
         return idx.to_numpy(dtype=np.int64) + 2
     return np.arange(len(frame), dtype=np.int64) + 2
 
 
-def _keys(table: pd.DataFrame, line: np.ndarray, log: Log) -> tuple[np.ndarray, np.ndarray]:
-    """District ids as text and years as numbers; rows without both are named and dropped."""
-    region = id_strings(table["region"])
-    bad_region = np.array([r is None for r in region], dtype=bool)
+def _keys(
+    table: pd.DataFrame, line: np.ndarray, log: Log
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """District ids as codes into their texts, and years as numbers; rows without both are
+    named and dropped. Returns ``(codes, names, year)``: code -1 and year NaN mark them."""
+    codes, names = id_codes(table["region"])
+    bad_region = codes < 0
     if bad_region.any():
         log.add(
             f"the district id is missing on {bad_region.sum()} line(s): {_listing(line[bad_region].tolist())}",
@@ -197,24 +204,66 @@ def _keys(table: pd.DataFrame, line: np.ndarray, log: Log) -> tuple[np.ndarray, 
             "no row has both a district id and a valid year", "check the region and year columns"
         )
         log.raise_if_failed()
-    return region, np.where(key_ok, year, np.nan)
+    year[~key_ok] = np.nan  # ``numbers`` gave a fresh array: no copy needed
+    return codes, names, year
 
 
-def _district_years(table: pd.DataFrame, region, year, line) -> Rows:
+def _needed_columns(table: pd.DataFrame, layout: Layout, choice: LevelChoice | None) -> list:
+    """The columns later steps read: the kind's, text columns (levels may come from them),
+    the chosen levels. A household number or a person number is left behind rather than
+    copied with millions of sorted rows."""
+    wanted = {
+        *KIND_COLUMNS.get(layout.kind, ()),
+        *layout.share_cols,
+        *PUBLISHED_MEASURES,
+        "income_concept",
+        *(choice.columns if choice is not None else ()),
+    }
+    return [
+        c
+        for c in table.columns
+        if c in wanted
+        or not pd.api.types.is_numeric_dtype(table[c].dtype)
+        or pd.api.types.is_bool_dtype(table[c].dtype)
+    ]
+
+
+def _part(a: np.ndarray, positions: np.ndarray | None) -> np.ndarray:
+    """``a`` at ``positions``; ``a`` itself (no copy) when every row is kept (None)."""
+    return a if positions is None else a[positions]
+
+
+def _district_years(table: pd.DataFrame, codes, names, year, line) -> Rows:
     """Rows with valid keys, sorted once by (district, year, line) into district-years."""
-    keep = np.flatnonzero(np.isfinite(year))
-    region, year_i, line = region[keep], year[keep].astype(np.int64), line[keep]
-    code, names = pd.factorize(region, sort=True)
-    order = np.lexsort((line, year_i, code))
-    code, year_i, line = code[order], year_i[order], line[order]
+    ok = np.isfinite(year)
+    keep = None if ok.all() else np.flatnonzero(ok)
+    del ok
+
+    # districts numbered in the order of their sorted ids, so codes sort as the ids do
+    by_name = np.argsort(names, kind="stable")
+    rank = np.empty(len(names), dtype=np.int32)
+    rank[by_name] = np.arange(len(names), dtype=np.int32)
+    code = rank[_part(codes, keep)]
+    year_i = _part(year, keep).astype(np.int32)
+    # rows read in file order stay in line order within a district-year (a stable sort)
+    lines = _part(line, keep)
+    in_order = bool(np.all(lines[1:] > lines[:-1]))
+    order = np.lexsort((year_i, code) if in_order else (lines, year_i, code))
+    del lines
+    code, year_i = code[order], year_i[order]
     new_group = np.r_[True, (code[1:] != code[:-1]) | (year_i[1:] != year_i[:-1])]
+    rows = order if keep is None else keep[order]
+    del keep, order
+    if len(rows) < 2**31:
+        rows = rows.astype(np.int32)  # positions held to the end of validation
+    line = line[rows]
     return Rows(
-        table=table.iloc[keep[order]],  # one copy of the table, not two
+        table=Taken(table, rows),  # each column sorted when read, never the whole table
         code=code,
-        names=np.asarray(names, dtype=object),
+        names=np.asarray(names, dtype=object)[by_name],
         year=year_i,
-        line=line,
-        gid=np.cumsum(new_group) - 1,
+        line=line.astype(np.int32) if len(line) and line.max() < 2**31 else line,
+        gid=np.cumsum(new_group, dtype=np.int32) - 1,
         starts=np.flatnonzero(new_group),
     )
 
@@ -260,17 +309,52 @@ def _set_aside(rows: Rows, layout: Layout, found: Findings) -> pd.DataFrame:
 
 
 def _tidy(values: pd.DataFrame, rows: Rows, kind: str, good: np.ndarray) -> pd.DataFrame:
-    """The contract's long table: kept district-years, sorted by region, year, then within."""
-    data = values[good[values["_gid"].to_numpy()]]
-    # group ids already run in (region, year) order: one lexsort gives the contract's order
+    """The contract's long table: kept district-years, sorted by region, year, then within.
+
+    Empties ``values`` of its value columns as it goes (the caller is done with them).
+    """
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
+    gid = values["_gid"].to_numpy()
+    kept = None if good.all() else np.flatnonzero(good[gid])
+
+    # group ids already run in (region, year) order: one sort gives the contract's order
     within = {"brackets": "bracket", "units": "income", "published": "_order"}.get(kind)
-    secondary = data[within].to_numpy() if within else np.zeros(len(data))
-    data = data.iloc[np.lexsort((secondary, data["_gid"].to_numpy()))]
-    src = data["_src"].to_numpy()
-    data = data.drop(columns=["_gid", "_src", "_order"], errors="ignore").reset_index(drop=True)
-    data.insert(0, "year", rows.year[src])
-    data.insert(0, "region", pd.Series(rows.names[rows.code[src]], dtype=str))
-    return data
+    if within:
+        order = np.lexsort((_part(values[within].to_numpy(), kept), _part(gid, kept)))
+    else:
+        order = np.argsort(_part(gid, kept), kind="stable")
+    if kept is not None:
+        order = kept[order]
+    del kept
+    if len(order) < 2**31:
+        order = order.astype(np.int32)
+    # the district-year of each output row gives its district and year: no row index needed
+    group = gid[order]
+    columns: dict[str, Any] = {}
+    names = pa.array(rows.names.tolist(), type=pa.large_string())
+    # ids as text straight from their codes (no string object per row)
+    columns["region"] = pc.take(names, pa.array(rows.code[rows.starts][group])).to_pandas()
+    columns["year"] = rows.year[rows.starts].astype(np.int64)[group]
+    del group
+    for c in list(values.columns):
+        if c not in ("_gid", "_src", "_order"):
+            # taken out of ``values`` as it is copied in order: one column held twice at most
+            column = values.pop(c)
+            columns[c] = column.array.take(order)
+            del column
+    return pd.DataFrame(columns, copy=False)
+
+
+def _without_values(rows: Rows, layout: Layout) -> Rows:
+    """``rows`` without the value columns, which are in the tidy table now: later steps
+    read levels and the income concept only, and the sorted copies can go."""
+    from dataclasses import replace
+
+    values = {*KIND_COLUMNS.get(layout.kind, ()), *layout.share_cols, *PUBLISHED_MEASURES}
+    values -= {"region", "year"}
+    return replace(rows, table=rows.table[[c for c in rows.table.columns if c not in values]])
 
 
 def _coverage(rows: Rows, good: np.ndarray, log: Log) -> None:
@@ -316,9 +400,13 @@ def _level_sources(rows: Rows, good_rows: np.ndarray, bounds: Any):
     """(table, district per row) for the panel's kept rows and the matched boundaries."""
     ok = np.flatnonzero(good_rows)
     part = rows.table if len(ok) == len(rows.table) else rows.table.iloc[ok]
-    sources = [(part, rows.names[rows.code[ok]], "")]
+    # the district of each row as codes into the sorted ids: no string per row
+    districts = pd.Categorical.from_codes(
+        rows.code[ok], categories=pd.Index(rows.names, dtype=object)
+    )
+    sources = [(part, districts, "")]
     if bounds is not None:
-        regions = set(rows.names[rows.code[ok]])
+        regions = set(rows.names[np.unique(rows.code[ok])])
         inside = bounds[bounds["region"].isin(regions)]
         attrs = inside.drop(columns=["region", "name", "geometry"], errors="ignore")
         sources.append((attrs, inside["region"].to_numpy(), "boundaries"))
@@ -434,15 +522,21 @@ def _start(frame: Any, file: str, boundaries: Any, kind: str | None) -> Log:
     return log
 
 
-def _attach_ids(region: np.ndarray, boundaries: Any, boundary_file: str, log: Log):
+def _attach_ids(
+    codes: np.ndarray, names: np.ndarray, boundaries: Any, boundary_file: str, log: Log
+):
     """Match the boundary ids to the panel's (padding numeric ids where that makes every id
-    match); returns the panel ids to use and the match, or None without boundaries."""
+    match); returns the panel's id codes and names to use and the match, or None without
+    boundaries."""
     if boundaries is None:
-        return region, None
-    found = boundary_ids(boundaries, {r for r in region if r is not None}, boundary_file, log)
+        return codes, names, None
+    found = boundary_ids(boundaries, set(names), boundary_file, log)
     if found is not None and found.panel_ids:
-        region = np.array([found.panel_ids.get(r, r) for r in region], dtype=object)
-    return region, found
+        padded = np.array([found.panel_ids.get(r, r) for r in names], dtype=object)
+        merged, names = pd.factorize(padded)  # two ids padded alike are one district
+        codes = np.where(codes < 0, -1, merged[np.maximum(codes, 0)]).astype(np.int32)
+        names = np.asarray(names, dtype=object)
+    return codes, names, found
 
 
 def validate(
@@ -506,10 +600,12 @@ def validate(
     table = frame.copy(deep=False)
     table.columns = list(columns)
     line = _file_lines(frame)
-    region, year = _keys(table, line, log)
-    report_clashes(region, file, "region", log)
-    region, id_match = _attach_ids(region, boundaries, boundary_file, log)
-    rows = _district_years(table, region, year, line)
+    codes, names, year = _keys(table, line, log)
+    report_clashes(names, file, "region", log)
+    codes, names, id_match = _attach_ids(codes, names, boundaries, boundary_file, log)
+    table = table[_needed_columns(table, layout, choice)]
+    rows = _district_years(table, codes, names, year, line)
+    del table, codes, year, line
 
     found = Findings(log)
     values = _values(rows, layout, found, allow_negative, frame.attrs.get("scales"))
@@ -517,10 +613,14 @@ def validate(
     good = np.ones(rows.n_groups, dtype=bool)
     good[found.fails.first()["gid"].to_numpy(dtype=np.int64)] = False
     data = _tidy(values, rows, layout.kind, good)
+    del values
+    rows = _without_values(rows, layout)
 
     _coverage(rows, good, log)
     income_concept = _income_concept(rows.table, good[rows.gid], log)
-    regions = pd.unique(data["region"])
+    # the kept districts, from their codes (sorted ids, as in the tidy table)
+    kept_codes = np.unique(rows.code[rows.starts][good])
+    regions = pd.unique(pd.Series(rows.names[kept_codes], dtype=str))
     bounds = _matched(boundaries, regions, id_match, boundary_file, log)
     hierarchy, level_names, bounds = _hierarchy(
         rows, good[rows.gid], regions, bounds, choice, boundary_file, log

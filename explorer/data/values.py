@@ -304,8 +304,11 @@ def unit_values(rows: Rows, found: Findings, allow_negative: bool) -> pd.DataFra
         cells.check(found.fails)
         weight = cells.values
     ok = np.isfinite(income.values) & np.isfinite(weight)
-    w_tot = np.bincount(gid[ok], weights=weight[ok], minlength=rows.n_groups)
-    y_tot = np.bincount(gid[ok], weights=(weight * income.values)[ok], minlength=rows.n_groups)
+    w_tot = np.bincount(gid, weights=np.where(ok, weight, 0.0), minlength=rows.n_groups)
+    y_tot = np.bincount(
+        gid, weights=np.where(ok, weight * income.values, 0.0), minlength=rows.n_groups
+    )
+    del ok
     clean = ~np.isin(np.arange(rows.n_groups), found.fails.failing())
     zero_w = np.flatnonzero(clean & (w_tot <= 0))
     found.fails.groups(
@@ -321,9 +324,8 @@ def unit_values(rows: Rows, found: Findings, allow_negative: bool) -> pd.DataFra
         "income",
         ["the total income of this district-year is zero or less"] * len(zero_y),
     )
-    return pd.DataFrame(
-        {"income": income.values, "weight": weight, "_gid": gid, "_src": np.arange(n_rows)}
-    )
+    # the arrays as they are: a frame built with copies would hold each column twice
+    return pd.DataFrame({"income": income.values, "weight": weight, "_gid": gid}, copy=False)
 
 
 def mean_values(rows: Rows, found: Findings) -> pd.DataFrame:

@@ -55,10 +55,15 @@ def test_the_plain_read_equals_the_careful_read(tmp_path, monkeypatch):
     assert a.fingerprint == b.fingerprint
 
 
-def test_a_footnote_under_a_large_table_goes_the_careful_way_and_is_named(tmp_path):
+def test_a_footnote_under_a_large_table_is_read_as_the_careful_reader_reads_it_and_named(
+    tmp_path, monkeypatch
+):
     path = tmp_path / "households_noted.csv"
     unit_file(path, extra="Source: invented survey of the Valdmoor households\n")
-    assert tables._plain_csv(path, path.name) is None
+    plain = tables._plain_csv(path, path.name)
+    assert plain is not None and plain.index[-1] == 220_000  # line 220,002, padded
+    assert plain["region"].iloc[-1] == "Source: invented survey of the Valdmoor households"
+    assert np.isnan(plain["income"].iloc[-1])
     with pytest.raises(DataError) as caught:
         load_panel(path, kind="units")
     assert any(p.row == 220_002 for p in caught.value.problems), [

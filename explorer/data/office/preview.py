@@ -14,7 +14,7 @@ import pandas as pd
 
 from explorer.data.boundaries import BoundarySource, read_boundaries
 from explorer.data.crs import CrsCandidate, propose_crs
-from explorer.data.ids import id_strings, match_ids
+from explorer.data.ids import id_codes, id_strings, match_ids
 from explorer.data.levels import LevelCandidate, propose_levels
 from explorer.data.model import DataError, Problem
 from explorer.data.office import NameMatch, ReadOptions, apply_crosswalk, match_names
@@ -153,7 +153,8 @@ def preview_inputs(
             frame,
             pd.DataFrame({"region": list(crosswalk), "boundary_id": list(crosswalk.values())}),
         )
-    regions = [str(r) for r in pd.unique(id_strings(frame["region"])) if r is not None]
+    codes, ids = id_codes(frame["region"])  # on codes: one text per district, not per row
+    regions = [str(r) for r in ids[pd.unique(codes[codes >= 0])]]
     names = None
     if bounds is not None:
         names = match_names(regions, boundary_names(bounds, regions, boundary_id))
