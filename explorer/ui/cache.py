@@ -92,6 +92,11 @@ def _district_fits(_panel, fingerprint: str, scope: str, region: str, year: int,
     return tidy(plain.PlainCompute(_panel).district_fits(region, year, methods))
 
 
+@st.cache_data(show_spinner=False, max_entries=256)
+def _district_welfare(_panel, fingerprint: str, scope: str, region: str, year: int, method: str):
+    return tidy(plain.PlainCompute(_panel).district_welfare(region, year, method))
+
+
 # cache_data, not cache_resource: an upload's clusters are user data, and cache_resource would
 # hand one shared object to every session.
 @st.cache_data(show_spinner="Testing for spatial clustering (permutations)…", max_entries=32)
@@ -188,6 +193,10 @@ class CachedCompute:
 
     def district_fits(self, region: str, year: int, methods: Sequence[str]) -> pd.DataFrame:
         return _district_fits(*self._key(), str(region), int(year), tuple(methods))
+
+    def district_welfare(self, region: str, year: int, method: str) -> pd.DataFrame:
+        method = method if self.panel.kind == "brackets" else "auto"
+        return _district_welfare(*self._key(), str(region), int(year), method)
 
     def map_features(self, values: pd.DataFrame) -> list[dict[str, Any]]:
         return _map_features(*self._key(), values)
