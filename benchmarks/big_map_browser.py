@@ -56,18 +56,22 @@ ARGS = [
     "--disable-sync",
     "--no-first-run",
 ]
-#: Index choices in the sidebar's list and a piece of the map title each one gives.
-INDICES = [
-    ("Theil T", "Theil T"),
-    ("Mean log deviation (Theil L)", "Mean log"),
-    ("Gini coefficient", "Gini"),
-]
-#: True once a map title holding both pieces is drawn and the script has stopped running.
-DRAWN = """([want, year]) => {
-  const texts = [...document.querySelectorAll('[data-testid="stVegaLiteChart"] svg text')];
-  const drawn = texts.some(t => t.textContent.includes(want) && t.textContent.includes(year));
-  return drawn && !document.querySelector('[data-testid="stStatusWidget"]');
+#: Index choices in the sidebar's list, in the order they are tried.
+INDICES = ["Theil T", "Mean log deviation (Theil L)", "Gini coefficient"]
+#: What the map shows now: its canvas's pixels (Vega draws 3,000 districts on a canvas) or
+#: its SVG (small maps); "" while there is no map yet.
+PICTURE = """() => {
+  const box = document.querySelector('.st-key-atlas_map') || document;
+  const canvas = box.querySelector('[data-testid="stVegaLiteChart"] canvas');
+  if (canvas) return canvas.width > 0 ? canvas.toDataURL() : '';
+  const svg = box.querySelector('[data-testid="stVegaLiteChart"] svg');
+  return svg && svg.querySelector('path') ? svg.outerHTML : '';
 }"""
+#: True once the map shows something other than ``before`` and the script is idle.
+DRAWN = (
+    "(before) => !document.querySelector('[data-testid=\"stStatusWidget\"]') && (() => {"
+    + " const now = (" + PICTURE + ")(); return now !== '' && now !== before; })()"
+)
 LAST_YEAR = 2025
 
 
@@ -156,6 +160,12 @@ class Frames:
         return got
 
 
+def wait_drawn(page, before: str, timeout: int) -> None:
+    """Until the map shows a picture other than ``before`` and the script is idle (checked
+    every 30 ms: reading a canvas on every animation frame would slow the page itself)."""
+    page.wait_for_function(DRAWN, arg=before, timeout=timeout, polling=30)
+
+
 def measure(port: int, ident: str, changes: int) -> dict:
     from playwright.sync_api import sync_playwright
 
@@ -167,7 +177,7 @@ def measure(port: int, ident: str, changes: int) -> dict:
             frames = Frames(page)
             t0 = time.perf_counter()
             page.goto(url)
-            page.wait_for_function(DRAWN, arg=["Gini", f", {LAST_YEAR}"], timeout=180_000)
+            wait_drawn(page, "", 180_000)
             first = time.perf_counter() - t0
             page.wait_for_timeout(300)
             first_bytes = frames.take()
@@ -175,7 +185,7 @@ def measure(port: int, ident: str, changes: int) -> dict:
             for _ in range(2):
                 t0 = time.perf_counter()
                 page.goto(url)
-                page.wait_for_function(DRAWN, arg=["Gini", f", {LAST_YEAR}"], timeout=120_000)
+                wait_drawn(page, "", 120_000)
                 reload.append(time.perf_counter() - t0)
             page.wait_for_timeout(500)
             frames.take()
@@ -186,23 +196,25 @@ def measure(port: int, ident: str, changes: int) -> dict:
                 key = "ArrowLeft" if step % 2 == 0 else "ArrowRight"
                 shown += -1 if key == "ArrowLeft" else 1
                 slider.focus()
+                before = page.evaluate(PICTURE)
                 frames.take()
                 t0 = time.perf_counter()
                 slider.press(key)
-                page.wait_for_function(DRAWN, arg=["Gini", f", {shown}"], timeout=120_000)
+                wait_drawn(page, before, 120_000)
                 years.append(time.perf_counter() - t0)
                 page.wait_for_timeout(300)
                 year_bytes.append(frames.take())
             index, index_bytes = [], []
             for step in range(changes):
-                name, want = INDICES[step % len(INDICES)]
+                name = INDICES[step % len(INDICES)]
                 page.locator('[data-testid="stSidebar"] [data-testid="stSelectbox"]').nth(1).click()
                 page.wait_for_timeout(300)
                 option = page.get_by_role("option", name=name, exact=True)
+                before = page.evaluate(PICTURE)
                 frames.take()
                 t0 = time.perf_counter()
                 option.click()
-                page.wait_for_function(DRAWN, arg=[want, f", {shown}"], timeout=120_000)
+                wait_drawn(page, before, 120_000)
                 index.append(time.perf_counter() - t0)
                 page.wait_for_timeout(300)
                 index_bytes.append(frames.take())

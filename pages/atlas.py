@@ -90,7 +90,8 @@ if shown.clusters is not None and shown.clusters.overall is not None:
     ui.moran_summary(shown.clusters.overall)
 
 if shown.chart is not None:
-    event = st.vega_lite_chart(shown.chart.to_dict(), on_select="rerun", key="atlas_map")
+    # the live spec stays the same between views: the browser swaps the map's data only
+    event = st.vega_lite_chart(shown.chart.live_spec(), on_select="rerun", key="atlas_map")
     clicked = ui.picked_region(event)
     if clicked:
         ui.update(districts=(clicked,), page="district")

@@ -65,6 +65,8 @@ class Compute(Protocol):
         self, values: pd.Series, permutations: int = MAP_PERMUTATIONS
     ) -> tuple[pd.DataFrame, Any]: ...
 
+    def map_outlines(self) -> Any: ...
+
     def map_features(self, values: pd.DataFrame) -> list[dict[str, Any]]: ...
 
     def choropleth(self, values: pd.DataFrame, **labels: Any) -> Any: ...
@@ -266,13 +268,20 @@ class PlainCompute:
     ) -> tuple[pd.DataFrame, Any]:
         return clusters(self.panel, values, permutations)
 
+    def map_outlines(self) -> Any:
+        """The districts' outlines for maps (:func:`charts.map_outlines`)."""
+        from explorer.present import charts
+
+        return charts.map_outlines(self.panel.boundaries)
+
     def map_features(self, values: pd.DataFrame) -> list[dict[str, Any]]:
         from explorer.present import charts
 
-        return charts.features_for_display(self.panel.boundaries, values)
+        return charts.join_values(self.map_outlines(), values)
 
     def choropleth(self, values: pd.DataFrame, **labels: Any) -> Any:
-        """The map of ``values``; ``labels`` are :func:`charts.choropleth`'s keywords."""
-        from explorer.present import charts
+        """The map of ``values`` (:class:`explorer.present.district_map.DistrictMap`);
+        ``labels`` are :func:`charts.choropleth`'s keywords."""
+        from explorer.present.district_map import DistrictMap
 
-        return charts.choropleth(self.map_features(values), **labels)
+        return DistrictMap(self.map_outlines(), values, **labels)

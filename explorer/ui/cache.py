@@ -19,7 +19,7 @@ import streamlit as st
 from explorer.figures import compute as plain
 from explorer.figures.compute import MAP_PERMUTATIONS, tidy
 
-__all__ = ["BOOTSTRAP_KEY", "CachedCompute", "ChartSpec"]
+__all__ = ["BOOTSTRAP_KEY", "CachedCompute"]
 
 #: Session key of the sidebar's "Sampling intervals (bootstrap)" toggle (the view's
 #: ``bootstrap`` field, bound by ``explorer.ui.state.control``).
@@ -104,34 +104,12 @@ def _clusters(_panel, fingerprint: str, scope: str, values: pd.Series, permutati
     return plain.clusters(_panel, values, permutations)
 
 
-@st.cache_data(show_spinner=False, max_entries=64)
-def _map_features(_panel, fingerprint: str, scope: str, values: pd.DataFrame):
-    return plain.PlainCompute(_panel).map_features(values)
-
-
-class ChartSpec:
-    """A chart kept as its Vega-Lite spec: what is drawn, cached and exported.
-
-    Building an Altair chart and validating it costs more than drawing it; a spec built
-    once per view is reused on every redraw. ``to_dict`` makes it usable wherever a chart
-    is expected (PNG and SVG export, the report).
-    """
-
-    def __init__(self, spec: dict[str, Any]) -> None:
-        self.spec = spec
-
-    def to_dict(self, **_: Any) -> dict[str, Any]:
-        return self.spec
-
-
-@st.cache_data(show_spinner=False, max_entries=256)
-def _choropleth(_panel, fingerprint: str, scope: str, values: pd.DataFrame, labels: str):
-    import json
-
-    from explorer.present import charts
-
-    features = _map_features(_panel, fingerprint, scope, values)
-    return charts.choropleth(features, **json.loads(labels)).to_dict()
+# cache_resource: the outlines of thousands of districts are read on every redraw of a map,
+# and a copy per read (cache_data) costs more than the redraw. The key holds the scope, so
+# an upload's outlines are never handed to another session; nothing changes them.
+@st.cache_resource(show_spinner="Simplifying the district boundaries…", max_entries=8)
+def _map_outlines(_panel, fingerprint: str, scope: str):
+    return plain.PlainCompute(_panel).map_outlines()
 
 
 @dataclass(frozen=True)
@@ -198,11 +176,16 @@ class CachedCompute:
         method = method if self.panel.kind == "brackets" else "auto"
         return _district_welfare(*self._key(), str(region), int(year), method)
 
+    def map_outlines(self) -> Any:
+        return _map_outlines(*self._key())
+
     def map_features(self, values: pd.DataFrame) -> list[dict[str, Any]]:
-        return _map_features(*self._key(), values)
+        from explorer.present import charts
 
-    def choropleth(self, values: pd.DataFrame, **labels: Any) -> ChartSpec:
-        import json
+        return charts.join_values(self.map_outlines(), values)
 
-        shown = {k: list(v) if isinstance(v, tuple) else v for k, v in labels.items()}
-        return ChartSpec(_choropleth(*self._key(), values, json.dumps(shown, sort_keys=True)))
+    def choropleth(self, values: pd.DataFrame, **labels: Any) -> Any:
+        # nothing to cache: the outlines are cached, the rest is a few small tables
+        from explorer.present.district_map import DistrictMap
+
+        return DistrictMap(self.map_outlines(), values, **labels)
