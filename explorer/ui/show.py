@@ -169,7 +169,7 @@ def table_downloads(table: pd.DataFrame, name: str, *, key: str) -> None:
     left, right = st.columns(2)
     left.download_button(
         "Table (CSV)",
-        table_bytes(table, "csv"),
+        lambda: table_bytes(table, "csv"),  # made when asked for, not on every rerun
         file_name=f"{slug(name)}.csv",
         mime="text/csv",
         key=f"{key}_csv",
