@@ -248,6 +248,25 @@ class DistrictMap:
         )
         return {"values": rows.reset_index(drop=True), "meta": meta, "chosen": chosen}
 
+    def payload(self) -> dict[str, int]:
+        """Bytes the live map sends: the spec with its outlines as compact JSON, and its
+        tables as Arrow IPC streams (the form Streamlit sends tables in)."""
+        import json
+
+        import pyarrow as pa
+
+        spec = live_skeleton(self.labels["width"], self.labels["height"])
+        spec["datasets"] = {charts.GEO_DATA: self.outlines.features}
+        tables = 0
+        for table in self.tables().values():
+            sink = pa.BufferOutputStream()
+            arrow = pa.Table.from_pandas(table, preserve_index=False)
+            with pa.ipc.new_stream(sink, arrow.schema) as writer:
+                writer.write_table(arrow)
+            tables += sink.getvalue().size
+        spec_bytes = len(json.dumps(spec, separators=(",", ":")).encode())
+        return {"spec": spec_bytes, "tables": tables, "total": spec_bytes + tables}
+
     def live_spec(self) -> dict[str, Any]:
         """The spec to draw: the same between views of one map size (the outlines are the
         same object every time); what changes is in the tables (:meth:`tables`)."""
