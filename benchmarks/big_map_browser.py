@@ -70,7 +70,9 @@ PICTURE = """() => {
 #: True once the map shows something other than ``before`` and the script is idle.
 DRAWN = (
     "(before) => !document.querySelector('[data-testid=\"stStatusWidget\"]') && (() => {"
-    + " const now = (" + PICTURE + ")(); return now !== '' && now !== before; })()"
+    + " const now = ("
+    + PICTURE
+    + ")(); return now !== '' && now !== before; })()"
 )
 LAST_YEAR = 2025
 
@@ -258,7 +260,10 @@ def main() -> None:
     found = {"districts": n, **found, "map_spec_mb": round(spec_bytes / 1e6, 3)}
     for key, value in found.items():
         print(f"{key:>24}: {value}")
-    print(f"{'server stopped':>24}: exit status {code}, port {port} " + ("STILL LISTENING" if still else "free"))
+    print(
+        f"{'server stopped':>24}: exit status {code}, port {port} "
+        + ("STILL LISTENING" if still else "free")
+    )
     if still:
         raise SystemExit(f"something is still listening on port {port}")
     peak = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss / 1024
@@ -269,7 +274,9 @@ def main() -> None:
                 "seconds": round(time.time() - started, 1),
                 "peak_memory_mb": round(peak, 1),
                 "ratios": {
-                    "redraw_to_reload": round(found["redraw_median_s"] / found["reload_median_s"], 3),
+                    "redraw_to_reload": round(
+                        found["redraw_median_s"] / found["reload_median_s"], 3
+                    ),
                     "first_render_to_reload": round(
                         found["first_render_s"] / found["reload_median_s"], 3
                     ),

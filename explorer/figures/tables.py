@@ -6,9 +6,8 @@ Streamlit-free; pandas in, pandas out. The words that label these tables live in
 
 from __future__ import annotations
 
-from typing import Any
-
 import weakref
+from typing import Any
 
 import numpy as np
 import pandas as pd

@@ -345,7 +345,9 @@ def _plain_column(column: pd.Series) -> list:
     """:func:`_plain` of every value of a column (numbers and flags without a call each)."""
     if pd.api.types.is_float_dtype(column.dtype):
         x = column.to_numpy(dtype=float, na_value=np.nan)
-        return [v if ok else None for v, ok in zip(x.tolist(), np.isfinite(x).tolist(), strict=True)]
+        return [
+            v if ok else None for v, ok in zip(x.tolist(), np.isfinite(x).tolist(), strict=True)
+        ]
     if pd.api.types.is_bool_dtype(column.dtype):
         return column.to_numpy(dtype=bool).tolist()
     return [_plain(v) for v in column.to_numpy(dtype=object)]

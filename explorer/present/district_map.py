@@ -156,8 +156,11 @@ def _skeleton(width: int, height: int) -> str:
         "title": {"text": _meta("title"), "anchor": "start"},
         "projection": {"type": "mercator"},
         "params": [
-            {"name": "pick", "select": {"type": "point", "fields": ["region"]},
-             "views": ["district_shapes"]}
+            {
+                "name": "pick",
+                "select": {"type": "point", "fields": ["region"]},
+                "views": ["district_shapes"],
+            }
         ],
         "layer": [shapes, *labels, caption],
     }

@@ -180,9 +180,7 @@ def _brackets(panel, methods, indices) -> pd.DataFrame:
     bound_texts = np.asarray([_upper_bound_words(t) for t in up_texts], dtype=object)
     # where the two bounding curves agree the published points fix the index (a share at a
     # bracket boundary): the fixed value is shown, and how far the fit was off
-    fixed = np.isfinite(lower_bound) & np.isclose(
-        lower_bound, upper_bound, rtol=1e-12, atol=1e-15
-    )
+    fixed = np.isfinite(lower_bound) & np.isclose(lower_bound, upper_bound, rtol=1e-12, atol=1e-15)
     n, k = len(keys), len(indices)
     region = text_columns.text_column(keys["region"].astype(str), np.repeat(np.arange(n), k))
     year = np.repeat(keys["year"].to_numpy().astype(np.int64), k)

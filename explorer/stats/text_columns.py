@@ -42,7 +42,9 @@ def text_column(texts, codes) -> pd.api.extensions.ExtensionArray | np.ndarray:
         return pd.array(pa.array(texts).take(pa.array(codes)), dtype=_TEXT)
     texts = np.asarray([str(t) for t in texts], dtype=object)
     if not arrow:
-        return pd.array(texts[codes], dtype=_TEXT) if _TEXT != object else texts[codes]
+        if _TEXT == np.dtype(object):
+            return texts[codes]
+        return pd.array(texts[codes], dtype=_TEXT)
     import pyarrow as pa
 
     return pd.array(pa.array(texts, type=pa.large_string()).take(pa.array(codes)), dtype=_TEXT)
@@ -95,7 +97,7 @@ def join_coded(*parts: tuple[np.ndarray, np.ndarray]) -> tuple[np.ndarray, np.nd
     joined = []
     for combo in combos:
         pieces = []
-        for codes, texts in reversed(parts):
+        for _codes, texts in reversed(parts):
             size = max(len(texts), 1)
             pieces.append(str(texts[combo % size]) if len(texts) else "")
             combo //= size

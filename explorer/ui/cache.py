@@ -26,7 +26,13 @@ __all__ = ["BOOTSTRAP_KEY", "CachedCompute"]
 BOOTSTRAP_KEY = "ctl_bootstrap"
 
 
-@st.cache_data(show_spinner="Computing the indices for every district and year…", max_entries=64)
+# cache_resource, not cache_data: the table of every district-year and index is read on
+# every redraw, and unpickling a copy of hundreds of thousands of rows each time costs more
+# than the rest of the redraw. The scope in the key keeps an upload's table to its session;
+# every reader filters it into a new frame and none changes it.
+@st.cache_resource(
+    show_spinner="Computing the indices for every district and year…", max_entries=16
+)
 def _indices(_panel, fingerprint: str, scope: str, method: str):
     return tidy(plain.PlainCompute(_panel).indices(method))
 

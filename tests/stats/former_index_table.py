@@ -34,14 +34,6 @@ def _block(keys: pd.DataFrame, indices, values, lower, upper, method: str, notes
     )
 
 
-def _empty_table() -> pd.DataFrame:
-    table = pd.DataFrame({c: pd.Series(dtype=float) for c in COLUMNS})
-    for c in ("region", "index", "method", "note"):
-        table[c] = table[c].astype(object)
-    table["year"] = table["year"].astype(np.int64)
-    return table
-
-
 def _vocabulary(texts) -> tuple[np.ndarray, np.ndarray]:
     """Codes and distinct values of a text array (hash-based: notes repeat a lot)."""
     codes, uniques = pd.factorize(np.asarray(texts, dtype=object))
