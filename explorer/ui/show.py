@@ -164,12 +164,18 @@ def table_bytes(table: pd.DataFrame, fmt: str) -> bytes:
     return exports.parquet_bytes(table)
 
 
+#: Tables up to this many cells get their CSV written with the page; larger ones on request.
+EAGER_CSV_CELLS = 20_000
+
+
 def table_downloads(table: pd.DataFrame, name: str, *, key: str) -> None:
     """CSV and Parquet buttons for the table behind a chart."""
     left, right = st.columns(2)
+    # a large table is written when asked for, not on every rerun of its page
+    large = table.shape[0] * max(table.shape[1], 1) > EAGER_CSV_CELLS
     left.download_button(
         "Table (CSV)",
-        lambda: table_bytes(table, "csv"),  # made when asked for, not on every rerun
+        (lambda: table_bytes(table, "csv")) if large else table_bytes(table, "csv"),
         file_name=f"{slug(name)}.csv",
         mime="text/csv",
         key=f"{key}_csv",
