@@ -90,6 +90,7 @@ if shown.clusters is not None and shown.clusters.overall is not None:
     ui.moran_summary(shown.clusters.overall)
 
 if shown.chart is not None:
+    # the live spec stays the same between views: the browser swaps the map's data only
     event = ui.chart(shown.chart, on_select="rerun", key="atlas_map")
     clicked = ui.picked_region(event)
     if clicked:

@@ -6,6 +6,7 @@ Everything downstream of validation (:mod:`explorer.data.validate`) trusts a Pan
 
 from __future__ import annotations
 
+import functools
 import hashlib
 from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, field
@@ -198,12 +199,14 @@ class Panel:
     income_concept: str = ""
     excluded: pd.DataFrame = field(default_factory=_empty_excluded)
 
-    @property
+    # Read once: a panel's data does not change, and pages ask for these again and again
+    # (a scan of every row of a large panel each time).
+    @functools.cached_property
     def regions(self) -> tuple[str, ...]:
         """District ids, sorted."""
         return tuple(pd.unique(self.data["region"]).tolist())
 
-    @property
+    @functools.cached_property
     def years(self) -> tuple[int, ...]:
         """Years present for at least one district, sorted."""
         return tuple(int(y) for y in np.unique(self.data["year"].to_numpy()))

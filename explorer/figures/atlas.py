@@ -15,6 +15,7 @@ from explorer.figures.compute import Compute
 from explorer.figures.spatial import ClusterLayer, cluster_layer
 from explorer.figures.tables import map_values, rank_moves, ranking, why_missing, wide
 from explorer.present import charts, vocabulary
+from explorer.present.district_map import DistrictMap
 from explorer.views import ViewState
 
 __all__ = ["LAYERS", "RANK_COLUMNS", "AtlasFigures", "atlas"]
@@ -128,7 +129,7 @@ def _cluster_chart(panel, view, layer, features, compute):
     return chart, found
 
 
-def _index_chart(panel, view, layer, classification, mark_wide, compute):
+def _index_chart(panel, view, layer, classification, mark_wide, outlines):
     note = (
         " Dashed outline: bounds wider than "
         f"{vocabulary.WIDE_SHARE:.0%} of the value (the figure is uncertain there)."
@@ -136,7 +137,8 @@ def _index_chart(panel, view, layer, classification, mark_wide, compute):
         else ""
     )
     label = vocabulary.value_label(view, panel)
-    return compute.choropleth(
+    return DistrictMap(
+        outlines,
         layer[_MAP_COLUMNS],
         value_label=label,
         classes=list(classification.labels),
@@ -209,12 +211,14 @@ def atlas(
     if panel.boundaries is None:
         remark = "This dataset has no boundary file, so the districts are listed instead of mapped."
     else:
-        features = compute.map_features(values[_MAP_COLUMNS])
+        # the outlines once per boundary file (cached in the app); the values on them
+        outlines = compute.map_outlines()
+        features = charts.join_values(outlines, values[_MAP_COLUMNS])
         if layer == "clusters":
             chart, found = _cluster_chart(panel, view, values, features, compute)
             notices.extend(n for n in (found.notice,) if n)
         else:
-            chart = _index_chart(panel, view, values, classification, mark_wide, compute)
+            chart = _index_chart(panel, view, values, classification, mark_wide, outlines)
     ranked = _with_moves(panel, view, table, ranking(values), since)
     if unclear:
         notices.append(

@@ -18,7 +18,7 @@ import pandas as pd
 
 from explorer.data.model import Panel
 
-__all__ = ["Compute", "PlainCompute", "lorenz_curves", "tidy"]
+__all__ = ["Compute", "PlainCompute", "lorenz_curves", "one_district", "tidy"]
 
 #: Permutations of the local-cluster layer on the map (the CLI's default is larger).
 MAP_PERMUTATIONS = 499
@@ -57,11 +57,15 @@ class Compute(Protocol):
 
     def district_fits(self, region: str, year: int, methods: Sequence[str]) -> pd.DataFrame: ...
 
+    def district_welfare(self, region: str, year: int, method: str) -> pd.DataFrame: ...
+
     def scenario(self, scenario: str, year: int, line: str, method: str) -> Any: ...
 
     def clusters(
         self, values: pd.Series, permutations: int = MAP_PERMUTATIONS
     ) -> tuple[pd.DataFrame, Any]: ...
+
+    def map_outlines(self) -> Any: ...
 
     def map_features(self, values: pd.DataFrame) -> list[dict[str, Any]]: ...
 
@@ -75,21 +79,32 @@ def tidy(table: pd.DataFrame) -> pd.DataFrame:
     return out
 
 
-def lorenz_curves(panel: Panel, region: str, year: int, methods: Sequence[str]) -> pd.DataFrame:
-    """Every method's Lorenz curve for one district-year on a shared grid of 101 points."""
+def one_district(panel: Panel, region: str, year: int | None = None) -> Panel:
+    """The panel cut to one district (and one year): what depends on that district alone
+    is computed on its own rows, not on the whole panel."""
     import dataclasses
 
+    data = panel.data
+    keep = data["region"].astype(str) == str(region)
+    if year is not None:
+        keep &= data["year"] == int(year)
+    return dataclasses.replace(panel, data=data[keep].reset_index(drop=True))
+
+
+def lorenz_curves(panel: Panel, region: str, year: int, methods: Sequence[str]) -> pd.DataFrame:
+    """Every method's Lorenz curve for one district-year on a shared grid of 101 points."""
     from explorer.stats import lorenz
 
     grid = np.linspace(0.0, 1.0, 101)
     # each curve is fitted to its own district-year only: the fits do not depend on others
-    data = panel.data
-    keep = (data["region"].astype(str) == str(region)) & (data["year"] == int(year))
-    panel = dataclasses.replace(panel, data=data[keep].reset_index(drop=True))
+    panel = one_district(panel, region, year)
     region = str(region)
     rows = []
+    every = lorenz.fit_panel_methods(panel, tuple(methods)) if len(panel.data) else {}
     for method in methods:
-        fitted = lorenz.fit_panel(panel, method)
+        if method not in every:
+            continue
+        fitted = every[method]
         keys = tidy(fitted.keys)
         hit = np.flatnonzero(
             (keys["region"].astype(str) == region).to_numpy() & (keys["year"] == year)
@@ -211,7 +226,10 @@ class PlainCompute:
 
             first = panel.data["year"] == int(year_from)
             year_panel = dataclasses.replace(panel, data=panel.data[first].reset_index(drop=True))
-            table = poverty_table.compute(year_panel, parsed, methods=(method,))
+            # the line from every district of the year; the headcount of this one only
+            table = poverty_table.compute(
+                year_panel, parsed, methods=(method,), regions=(str(region),)
+            )
             rows = table[table["index"] == "fgt_0"]
             head = rows.assign(region=rows["region"].astype(str)).set_index("region")["value"]
         if to is not None or region is not None:
@@ -233,27 +251,37 @@ class PlainCompute:
 
     def district_fits(self, region: str, year: int, methods: Sequence[str]) -> pd.DataFrame:
         """Fit diagnostics of one district-year (the District sheet's table)."""
-        import dataclasses
-
         from explorer.stats import indices
 
-        data = self.panel.data
-        keep = (data["region"].astype(str) == str(region)) & (data["year"] == int(year))
-        one = dataclasses.replace(self.panel, data=data[keep].reset_index(drop=True))
-        return indices.fits(one, tuple(methods))
+        return indices.fits(one_district(self.panel, region, year), tuple(methods))
+
+    def district_welfare(self, region: str, year: int, method: str) -> pd.DataFrame:
+        """Welfare in money of one district-year (the District sheet's table); each
+        district-year's welfare depends on its own shares and mean alone."""
+        from explorer.stats import welfare
+
+        method = method if self.panel.kind == "brackets" else "auto"
+        return welfare.compute(one_district(self.panel, region, year), methods=(method,))
 
     def clusters(
         self, values: pd.Series, permutations: int = MAP_PERMUTATIONS
     ) -> tuple[pd.DataFrame, Any]:
         return clusters(self.panel, values, permutations)
 
+    def map_outlines(self) -> Any:
+        """The districts' outlines for maps (:func:`charts.map_outlines`)."""
+        from explorer.present import charts
+
+        return charts.map_outlines(self.panel.boundaries)
+
     def map_features(self, values: pd.DataFrame) -> list[dict[str, Any]]:
         from explorer.present import charts
 
-        return charts.features_for_display(self.panel.boundaries, values)
+        return charts.join_values(self.map_outlines(), values)
 
     def choropleth(self, values: pd.DataFrame, **labels: Any) -> Any:
-        """The map of ``values``; ``labels`` are :func:`charts.choropleth`'s keywords."""
-        from explorer.present import charts
+        """The map of ``values`` (:class:`explorer.present.district_map.DistrictMap`);
+        ``labels`` are :func:`charts.choropleth`'s keywords."""
+        from explorer.present.district_map import DistrictMap
 
-        return charts.choropleth(self.map_features(values), **labels)
+        return DistrictMap(self.map_outlines(), values, **labels)

@@ -109,13 +109,13 @@ def district_heading(panel: Panel, region: str, year: int) -> tuple[str, str]:
 NOT_VALID = "not a valid Lorenz curve"
 
 
-def _chosen(view: ViewState, compute: Compute, region: str) -> str:
-    """The Lorenz method the view's figures use for this district-year (``auto``: its pick)."""
+def _chosen(view: ViewState, fits: pd.DataFrame | None) -> str:
+    """The Lorenz method the view's figures use for this district-year (``auto``: its pick),
+    from the district-year's own fit table (the same pick as in the whole panel's)."""
     if view.method != "auto":
         return view.method
-    fits = compute.fits(("auto",))
-    row = fits[(fits["region"].astype(str) == region) & (fits["year"] == view.year)]
-    return str(row["used"].iloc[0]) if len(row) else ""
+    row = fits[fits["method"] == "auto"] if fits is not None else fits
+    return str(row["used"].iloc[0]) if row is not None and len(row) else ""
 
 
 def curve_names(curves: pd.DataFrame, chosen: str) -> pd.Series:
@@ -132,7 +132,7 @@ def curve_names(curves: pd.DataFrame, chosen: str) -> pd.Series:
     return pd.Series(names, index=curves.index)
 
 
-def _lorenz(panel, view, compute, region, name):
+def _lorenz(panel, view, compute, region, name, fits):
     points = lorenz_points(panel, region, view.year)
     curves = band = shown = None
     if panel.kind == "brackets":
@@ -140,7 +140,7 @@ def _lorenz(panel, view, compute, region, name):
         curves = compute.lorenz_curves(region, view.year, methods)
         band = lorenz_band(curves)
         shown = curves[~curves["method"].isin(("linear", "upper"))]
-        shown = shown.assign(method=curve_names(shown, _chosen(view, compute, region)))
+        shown = shown.assign(method=curve_names(shown, _chosen(view, fits)))
     how = _LORENZ_HOW.get(panel.kind, "")
     profile = charts.lorenz_profile(
         points,
@@ -168,6 +168,9 @@ def _sheet(panel: Panel, view: ViewState, compute: Compute, region: str) -> Dist
     if panel.kind == "published":
         return _published_sheet(panel, view, compute, region, name, heading)
     table = compute.indices(view.method)
+    fits = None
+    if panel.kind == "brackets":
+        fits = compute.district_fits(region, view.year, tuple(vocabulary.METHOD_LABELS))
     if view.index in series.POVERTY_FIGURES:
         # the poverty measures against the view's line join the sheet's table of indices
         poverty = compute.poverty(view.poverty_line, view.relative_to, view.method)
@@ -186,9 +189,6 @@ def _sheet(panel: Panel, view: ViewState, compute: Compute, region: str) -> Dist
         panels=1,
         room=400,
     )
-    fits = None
-    if panel.kind == "brackets":
-        fits = compute.district_fits(region, view.year, tuple(vocabulary.METHOD_LABELS))
     return DistrictFigures(
         region,
         name,
@@ -197,7 +197,7 @@ def _sheet(panel: Panel, view: ViewState, compute: Compute, region: str) -> Dist
         growth=growth_of(panel, view, compute, region, name),
         indices=own,
         headline=headline.iloc[0] if len(headline) else None,
-        profile=_lorenz(panel, view, compute, region, name),
+        profile=_lorenz(panel, view, compute, region, name, fits),
         strip=strip,
         has_bounds=bool(np.isfinite(own[["lower", "upper"]].to_numpy(dtype=float)).any()),
         fits=fits,
@@ -224,8 +224,7 @@ def welfare_rows(panel: Panel, view: ViewState, compute: Compute, region: str):
         "mean_income" not in panel.data or not panel.data["mean_income"].notna().any()
     ):
         return None
-    table = compute.welfare(view.method)
-    own = table[(table["region"].astype(str) == region) & (table["year"] == view.year)]
+    own = compute.district_welfare(region, view.year, view.method)
     own = own.set_index("index").reindex([k for k in _WELFARE_KEYS if k in set(own["index"])])
     if own.empty:
         return None

@@ -6,6 +6,7 @@ Streamlit-free; pandas in, pandas out. The words that label these tables live in
 
 from __future__ import annotations
 
+import weakref
 from typing import Any
 
 import numpy as np
@@ -34,8 +35,23 @@ def county_level(panel: Any) -> str | None:
     return panel.levels[-1] if panel.levels else None
 
 
+#: names() of each panel while it lives: pages ask for them several times a rerun.
+_NAMES: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()
+
+
 def names(panel: Any) -> pd.DataFrame:
     """region, name, county for every district (names from the boundary file if any)."""
+    try:
+        known = _NAMES.get(panel)
+    except TypeError:  # a stand-in that cannot be weakly referenced: no keeping
+        return _names(panel)
+    if known is None:
+        known = _names(panel)
+        _NAMES[panel] = known
+    return known.copy()
+
+
+def _names(panel: Any) -> pd.DataFrame:
     out = pd.DataFrame({"region": [str(r) for r in panel.regions]})
     level = county_level(panel)
     if level is not None:

@@ -41,7 +41,11 @@ __all__ = [
     "clusters_map",
     "components",
     "convergence",
+    "Outlines",
+    "district_values",
     "features_for_display",
+    "join_values",
+    "map_outlines",
     "index_label",
     "interval_strip",
     "lorenz_pair",
@@ -229,6 +233,126 @@ def _plain(value: Any) -> Any:
     return value
 
 
+@dataclass(frozen=True)
+class Outlines:
+    """District outlines ready for a Vega geoshape, made once per boundary file.
+
+    ``features`` are GeoJSON features whose only property is ``region`` (what a map joins
+    its values on); ``table`` holds ``region`` and, as the boundary file gives them,
+    ``name`` and ``county``, with ``label_x, label_y``: a point inside each district.
+    """
+
+    features: list[dict]
+    table: pd.DataFrame
+
+
+def map_outlines(gdf, *, tolerance: float | None = None, digits: int = 5) -> Outlines:
+    """Simplified, rounded, clockwise outlines of every district (see
+    :func:`features_for_display`, which adds the values to them)."""
+    frame = gdf
+    if frame.crs is not None and not frame.crs.equals("EPSG:4326"):
+        frame = frame.to_crs("EPSG:4326")
+    geoms = np.asarray(frame.geometry.values, dtype=object)
+    present = ~shapely.is_missing(geoms) & ~shapely.is_empty(geoms)
+    if tolerance is None:
+        x0, y0, x1, y1 = shapely.total_bounds(geoms[present]) if present.any() else (0, 0, 0, 0)
+        tolerance = max(x1 - x0, y1 - y0) / 1000.0
+    simplified = geoms.copy()
+    if present.any() and tolerance > 0:
+        valid_parts = geoms[present]
+        if bool(shapely.coverage_is_valid(valid_parts)) and shapely.is_valid(valid_parts).all():
+            simplified[present] = shapely.coverage_simplify(valid_parts, tolerance)
+        else:
+            simplified[present] = shapely.simplify(valid_parts, tolerance, preserve_topology=True)
+    # Snapping to a grid (rather than rounding coordinates) keeps rings valid: slivers
+    # that collapse are removed instead of left as zero-area rings of no winding.
+    grid = 10.0**-digits
+    rounded = shapely.set_precision(simplified, grid)
+    lost = present & shapely.is_empty(rounded)
+    if lost.any():  # a district too small for the tolerance keeps its own outline
+        rounded[lost] = shapely.set_precision(geoms[lost], grid)
+    oriented = shapely.orient_polygons(rounded, exterior_cw=True)
+    geometry_json = shapely.to_geojson(oriented)
+    # where a district's name goes on the map: a point surely inside it (a centroid can
+    # fall outside a crescent-shaped district)
+    inside = np.full((len(geoms), 2), np.nan)
+    if present.any():
+        points = shapely.point_on_surface(geoms[present])
+        inside[present] = np.round(shapely.get_coordinates(points), digits)
+
+    table = pd.DataFrame({"region": frame["region"].astype(str).to_numpy()})
+    for column in ("name", "county"):
+        if column in frame.columns:
+            table[column] = frame[column].to_numpy()
+    table["label_x"], table["label_y"] = inside[:, 0], inside[:, 1]
+    features = [
+        {
+            "type": "Feature",
+            "geometry": None if geometry is None else json.loads(geometry),
+            "properties": {"region": region},
+        }
+        for geometry, region in zip(geometry_json, table["region"], strict=True)
+    ]
+    return Outlines(features, table)
+
+
+def district_values(outlines: Outlines, values: pd.DataFrame | None = None) -> pd.DataFrame:
+    """One row per outline, in their order: ``region, name, county, value, lower, upper,
+    klass, wide`` (the boundary file's names unless ``values`` gives others; missing
+    values where a district has none)."""
+    table = outlines.table.drop(columns=["label_x", "label_y"])
+    if values is not None:
+        extra = values.copy()
+        extra["region"] = extra["region"].astype(str)
+        extra = extra.drop_duplicates("region", keep="first")  # one feature per district
+        overlap = [c for c in extra.columns if c in table.columns and c != "region"]
+        table = table.drop(columns=overlap).merge(extra, on="region", how="left")
+    for column in ("value", "lower", "upper"):
+        if column not in table.columns:
+            table[column] = np.nan
+    if "name" not in table.columns:
+        table["name"] = table["region"]
+    table["name"] = table["name"].where(table["name"].notna(), table["region"])
+    if "county" not in table.columns:
+        table["county"] = ""
+    if "klass" not in table.columns:
+        table["klass"] = None
+    if "wide" not in table.columns:
+        table["wide"] = False
+    table["wide"] = table["wide"].fillna(False).astype(bool)
+    return table
+
+
+def join_values(outlines: Outlines, values: pd.DataFrame | None = None) -> list[dict]:
+    """The outlines as GeoJSON features carrying their district's values (new dicts; the
+    outlines' geometry is shared, not copied). See :func:`features_for_display`."""
+    table = district_values(outlines, values)
+    keys = ("region", "name", "county", "value", "lower", "upper", "klass", "wide")
+    columns = [_plain_column(table[key]) for key in keys]
+    columns += [_plain_column(outlines.table[key]) for key in ("label_x", "label_y")]
+    names = (*keys, "label_x", "label_y")
+    return [
+        {
+            "type": "Feature",
+            "geometry": outline["geometry"],
+            "properties": dict(zip(names, row, strict=True)),
+        }
+        for outline, row in zip(outlines.features, zip(*columns, strict=True), strict=True)
+    ]
+
+
+def _plain_column(column: pd.Series) -> list:
+    """:func:`_plain` of every value of a column (numbers and flags without a call each)."""
+    if pd.api.types.is_float_dtype(column.dtype):
+        x = column.to_numpy(dtype=float, na_value=np.nan)
+        return [
+            v if ok else None for v, ok in zip(x.tolist(), np.isfinite(x).tolist(), strict=True)
+        ]
+    if pd.api.types.is_bool_dtype(column.dtype):
+        return column.to_numpy(dtype=bool).tolist()
+    return [_plain(v) for v in column.to_numpy(dtype=object)]
+
+
 def features_for_display(
     gdf,
     values: pd.DataFrame | None = None,
@@ -265,78 +389,9 @@ def features_for_display(
     together with ``shapely.coverage_simplify`` so neighbours keep a common border;
     otherwise each outline is simplified with topology preserved. Exterior rings are
     then oriented clockwise, as ``shapely.geometry.polygon.orient(p, sign=-1.0)`` does.
+    The outlines alone are :func:`map_outlines`; :func:`join_values` puts values on them.
     """
-    frame = gdf
-    if frame.crs is not None and not frame.crs.equals("EPSG:4326"):
-        frame = frame.to_crs("EPSG:4326")
-    geoms = np.asarray(frame.geometry.values, dtype=object)
-    present = ~shapely.is_missing(geoms) & ~shapely.is_empty(geoms)
-    if tolerance is None:
-        x0, y0, x1, y1 = shapely.total_bounds(geoms[present]) if present.any() else (0, 0, 0, 0)
-        tolerance = max(x1 - x0, y1 - y0) / 1000.0
-    simplified = geoms.copy()
-    if present.any() and tolerance > 0:
-        valid_parts = geoms[present]
-        if bool(shapely.coverage_is_valid(valid_parts)) and shapely.is_valid(valid_parts).all():
-            simplified[present] = shapely.coverage_simplify(valid_parts, tolerance)
-        else:
-            simplified[present] = shapely.simplify(valid_parts, tolerance, preserve_topology=True)
-    # Snapping to a grid (rather than rounding coordinates) keeps rings valid: slivers
-    # that collapse are removed instead of left as zero-area rings of no winding.
-    grid = 10.0**-digits
-    rounded = shapely.set_precision(simplified, grid)
-    lost = present & shapely.is_empty(rounded)
-    if lost.any():  # a district too small for the tolerance keeps its own outline
-        rounded[lost] = shapely.set_precision(geoms[lost], grid)
-    oriented = shapely.orient_polygons(rounded, exterior_cw=True)
-    geometry_json = shapely.to_geojson(oriented)
-    # where a district's name goes on the map: a point surely inside it (a centroid can
-    # fall outside a crescent-shaped district)
-    inside = np.full((len(geoms), 2), np.nan)
-    if present.any():
-        points = shapely.point_on_surface(geoms[present])
-        inside[present] = np.round(shapely.get_coordinates(points), digits)
-
-    table = pd.DataFrame({"region": frame["region"].astype(str).to_numpy()})
-    for column in ("name", "county"):
-        if column in frame.columns:
-            table[column] = frame[column].to_numpy()
-    if values is not None:
-        extra = values.copy()
-        extra["region"] = extra["region"].astype(str)
-        extra = extra.drop_duplicates("region", keep="first")  # one feature per district
-        overlap = [c for c in extra.columns if c in table.columns and c != "region"]
-        table = table.drop(columns=overlap).merge(extra, on="region", how="left")
-    for column in ("value", "lower", "upper"):
-        if column not in table.columns:
-            table[column] = np.nan
-    if "name" not in table.columns:
-        table["name"] = table["region"]
-    table["name"] = table["name"].where(table["name"].notna(), table["region"])
-    if "county" not in table.columns:
-        table["county"] = ""
-    if "klass" not in table.columns:
-        table["klass"] = None
-    if "wide" not in table.columns:
-        table["wide"] = False
-    table["wide"] = table["wide"].fillna(False).astype(bool)
-
-    keys = ("region", "name", "county", "value", "lower", "upper", "klass", "wide")
-    columns = {key: table[key].to_numpy(dtype=object) for key in keys}
-    features = []
-    for i, geometry in enumerate(geometry_json):
-        features.append(
-            {
-                "type": "Feature",
-                "geometry": None if geometry is None else json.loads(geometry),
-                "properties": {
-                    **{key: _plain(columns[key][i]) for key in keys},
-                    "label_x": _plain(inside[i, 0]),
-                    "label_y": _plain(inside[i, 1]),
-                },
-            }
-        )
-    return features
+    return join_values(map_outlines(gdf, tolerance=tolerance, digits=digits), values)
 
 
 def payload_kb(features: Sequence[dict]) -> float:
@@ -379,6 +434,10 @@ class GeoChart:
         spec = self.chart.to_dict(**kwargs)
         spec.setdefault("datasets", {})[GEO_DATA] = self.features
         return spec
+
+    def live_spec(self) -> dict[str, Any]:
+        """The spec to draw in the app (for this map, :meth:`to_dict`)."""
+        return self.to_dict()
 
     def __getattr__(self, name: str) -> Any:
         found = getattr(self.chart, name)

@@ -25,7 +25,7 @@ import numpy as np
 import pandas as pd
 
 from explorer.data.model import Panel, fail
-from explorer.stats import lorenz, measures
+from explorer.stats import lorenz, measures, text_columns
 
 __all__ = [
     "ALL_DISTRICTS",
@@ -118,12 +118,6 @@ def _vocabulary(texts) -> tuple[np.ndarray, np.ndarray]:
     return codes, np.asarray(uniques, dtype=object)
 
 
-def _map_text(texts, change) -> np.ndarray:
-    """``change`` applied to every distinct text once, then spread back."""
-    codes, uniques = _vocabulary(texts)
-    return np.asarray([change(t) for t in uniques], dtype=object)[codes]
-
-
 def _join_notes(*parts) -> np.ndarray:
     """Row-wise "; "-join of the non-empty texts of several note arrays."""
     n = len(parts[0])
@@ -148,58 +142,80 @@ def _join_notes(*parts) -> np.ndarray:
 # ---------------------------------------------------------------------------- by kind
 
 
-def _brackets(panel, methods, indices) -> pd.DataFrame:
-    linear = lorenz.fit_panel(panel, "linear")
-    upper = lorenz.fit_panel(panel, "upper")
-    low_vals, up_vals = linear.indices(indices), upper.indices(indices)
-    lower_bound = {k: np.fmin(low_vals[k].value, up_vals[k].value) for k in indices}
-    upper_bound = {k: np.fmax(low_vals[k].value, up_vals[k].value) for k in indices}
-    bound_note = {}
+def _matrix(got, indices, field) -> np.ndarray:
+    """One field of every index as a (district-years, indices) array."""
+    return np.column_stack([getattr(got[k], field) for k in indices])
+
+
+def _coded_notes(got, indices) -> tuple[np.ndarray, np.ndarray]:
+    """The notes of every index as (district-years, indices) codes into shared texts."""
+    columns, texts, offset = [], [], 0
     for key in indices:
-        # why a bound is infinite (the upper curve's jump or zero incomes), said once
-        infinite = np.isinf(upper_bound[key])
-        reason = np.where(infinite, up_vals[key].note, "")
-        bound_note[key] = _map_text(
-            reason, lambda t: "upper bound " + t if t.startswith("infinite: ") else t
-        )
+        codes, distinct = text_columns.coded(got[key].note)
+        columns.append(codes + offset)
+        texts.append(distinct)
+        offset += len(distinct)
+    return np.column_stack(columns), np.concatenate(texts)
+
+
+def _flag(mask: np.ndarray, text: str) -> tuple[np.ndarray, np.ndarray]:
+    """``text`` where ``mask`` holds, as codes for :func:`text_columns.join_coded`."""
+    return mask.astype(np.int64), np.asarray(["", text], dtype=object)
+
+
+def _upper_bound_words(text) -> str:
+    return "upper bound " + text if str(text).startswith("infinite: ") else str(text)
+
+
+def _brackets(panel, methods, indices) -> pd.DataFrame:
+    # every fit from one pass over the points; auto's candidates serve the bounds
+    fitted = lorenz.fit_panel_methods(panel, ("linear", "upper", *methods))
+    keys = fitted["linear"].keys
+    got = {m: fitted[m].indices(indices) for m in dict.fromkeys(("linear", "upper", *methods))}
+    low, up = _matrix(got["linear"], indices, "value"), _matrix(got["upper"], indices, "value")
+    lower_bound, upper_bound = np.fmin(low, up), np.fmax(low, up)
+    # why a bound is infinite (the upper curve's jump or zero incomes), said once
+    up_codes, up_texts = _coded_notes(got["upper"], indices)
+    bound_codes = np.where(np.isinf(upper_bound), up_codes, 0)
+    bound_texts = np.asarray([_upper_bound_words(t) for t in up_texts], dtype=object)
+    # where the two bounding curves agree the published points fix the index (a share at a
+    # bracket boundary): the fixed value is shown, and how far the fit was off
+    fixed = np.isfinite(lower_bound) & np.isclose(lower_bound, upper_bound, rtol=1e-12, atol=1e-15)
+    n, k = len(keys), len(indices)
+    region = text_columns.text_column(keys["region"].astype(str), np.repeat(np.arange(n), k))
+    year = np.repeat(keys["year"].to_numpy().astype(np.int64), k)
+    index = text_columns.text_column(indices, np.tile(np.arange(k), n))
     blocks = []
     for method in methods:
-        if method in ("linear", "upper"):
-            fits, got = (linear, low_vals) if method == "linear" else (upper, up_vals)
-        else:
-            fits = lorenz.fit_panel(panel, method)
-            got = fits.indices(indices)
-        notes = []
-        values = {}
-        for key in indices:
-            value = got[key].value
-            # where the two bounding curves agree the published points fix the index (a share
-            # at a bracket boundary): the fixed value is shown, and how far the fit was off
-            fixed = np.isfinite(lower_bound[key]) & np.isclose(
-                lower_bound[key], upper_bound[key], rtol=1e-12, atol=1e-15
-            )
-            off = fixed & ~np.isclose(value, lower_bound[key], rtol=1e-6, atol=1e-9)
-            fixed_note = np.where(off, _FIXED_NOTE, "").astype(object)
-            value = np.where(fixed, lower_bound[key], value)
-            values[key] = value
-            slack = 1e-9 * np.maximum(1.0, np.abs(value))
-            with np.errstate(invalid="ignore"):
-                outside = (value < lower_bound[key] - slack) | (value > upper_bound[key] + slack)
-            outside_note = np.where(outside, _OUTSIDE_NOTE, "")
-            extra = bound_note[key] if method != "upper" else np.full(len(value), "")
-            notes.append(_join_notes(got[key].note, outside_note, extra, fixed_note))
+        value = _matrix(got[method], indices, "value")
+        off = fixed & ~np.isclose(value, lower_bound, rtol=1e-6, atol=1e-9)
+        value = np.where(fixed, lower_bound, value)
+        slack = 1e-9 * np.maximum(1.0, np.abs(value))
+        with np.errstate(invalid="ignore"):
+            outside = (value < lower_bound - slack) | (value > upper_bound + slack)
+        # the upper curve's own note already says why its value is infinite
+        extra = (bound_codes, bound_texts) if method != "upper" else _flag(fixed & False, "")
+        codes, texts = text_columns.join_coded(
+            _coded_notes(got[method], indices),
+            _flag(outside, _OUTSIDE_NOTE),
+            extra,
+            _flag(off, _FIXED_NOTE),
+        )
         blocks.append(
-            _block(
-                fits.keys,
-                indices,
-                [values[k] for k in indices],
-                [lower_bound[k] for k in indices],
-                [upper_bound[k] for k in indices],
-                method,
-                notes,
+            pd.DataFrame(
+                {
+                    "region": region,
+                    "year": year,
+                    "index": index,
+                    "value": value.ravel(),
+                    "lower": lower_bound.ravel(),
+                    "upper": upper_bound.ravel(),
+                    "method": text_columns.text_column([method], np.zeros(n * k, np.int64)),
+                    "note": text_columns.note_column(texts, codes.ravel()),
+                }
             )
         )
-    return pd.concat(blocks, ignore_index=True)
+    return blocks[0] if len(blocks) == 1 else pd.concat(blocks, ignore_index=True)
 
 
 def _units(panel, indices, ci, reps, seed, level) -> pd.DataFrame:
@@ -357,7 +373,8 @@ def compute(
     else:
         raise fail(f"unknown panel kind {kind!r}", "use brackets, units or means")
     table = table.reset_index(drop=True)
-    table["note"] = table["note"].astype(str).astype(object)
+    if kind != "brackets":  # the bracket notes are built as Python strings already
+        table["note"] = table["note"].astype(str).astype(object)
     table.attrs.update(kind=kind, ci=ci if kind == "units" else None, level=level if ci else None)
     return table
 

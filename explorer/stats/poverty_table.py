@@ -99,11 +99,10 @@ def _pooled_median(slopes, mean, weight, year, district_median) -> np.ndarray:
     np.maximum.at(hi, code[ok], district_median[ok])
     lo, hi = np.log(lo), np.log(hi)
     usable = np.isfinite(slopes).all(axis=1)
+    slopes = np.nan_to_num(slopes)  # once, not on every step of the bisection
     for _ in range(60):
         mid = 0.5 * (lo + hi)
-        head = poverty_curves.crossing(
-            poverty_curves.GRID_P, np.nan_to_num(slopes), np.exp(mid[code]) / mean
-        )
+        head = poverty_curves.crossing(poverty_curves.GRID_P, slopes, np.exp(mid[code]) / mean)
         share = np.bincount(code, weights=np.where(usable, weight * head, 0.0)) / np.bincount(
             code, weights=np.where(usable, weight, 0.0)
         )
@@ -132,9 +131,23 @@ def _join(*texts) -> str:
     return "; ".join(t for t in texts if t)
 
 
-def _brackets(panel, line, methods) -> pd.DataFrame:
+def _only(regions, keys, batches, z, mean):
+    """The rows of ``regions`` alone, once the line has been set from every district."""
+    keep = keys["region"].astype(str).isin([str(r) for r in regions]).to_numpy()
+    position = np.cumsum(keep) - 1
+    kept = []
+    for rows, P, L in batches:
+        mine = keep[rows]
+        if mine.any():
+            kept.append((position[rows[mine]], P[mine], L[mine]))
+    return keys[keep].reset_index(drop=True), kept, z[keep], mean[keep]
+
+
+def _brackets(panel, line, methods, regions=None) -> pd.DataFrame:
     keys, batches = lorenz.panel_points(panel)
     z, mean, line_note = _bracket_line(panel, line, keys, batches)
+    if regions is not None:
+        keys, batches, z, mean = _only(regions, keys, batches, z, mean)
     with np.errstate(divide="ignore", invalid="ignore"):
         ratio = z / mean
     n = len(keys)
@@ -204,6 +217,7 @@ def compute(
     reps: int = 199,
     seed: int | None = 0,
     level: float = 0.95,
+    regions=None,
 ) -> pd.DataFrame:
     """The tidy poverty table of a panel.
 
@@ -218,6 +232,9 @@ def compute(
         Intervals for unit panels.
     reps, seed, level
         Bootstrap settings.
+    regions : sequence of str, optional
+        Measure these districts only (bracket panels). A relative line is still set from
+        every district of the panel, so their rows equal those of the whole table.
 
     Returns
     -------
@@ -248,8 +265,11 @@ def compute(
     if len(panel.data) == 0:
         table = _block(pd.DataFrame({"region": [], "year": []}), {}, {}, {}, "", {})
     elif panel.kind == "brackets":
-        table = _brackets(panel, line, methods)
+        table = _brackets(panel, line, methods, regions)
     else:
         table = _units(panel, line, ci, reps, seed, level)
+        if regions is not None:
+            wanted = table["region"].astype(str).isin([str(r) for r in regions])
+            table = table[wanted].reset_index(drop=True)
     table.attrs.update(kind=panel.kind, line=line.label())
     return table

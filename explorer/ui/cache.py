@@ -19,14 +19,20 @@ import streamlit as st
 from explorer.figures import compute as plain
 from explorer.figures.compute import MAP_PERMUTATIONS, tidy
 
-__all__ = ["BOOTSTRAP_KEY", "CachedCompute", "ChartSpec", "page_figure"]
+__all__ = ["BOOTSTRAP_KEY", "CachedCompute", "page_figure"]
 
 #: Session key of the sidebar's "Sampling intervals (bootstrap)" toggle (the view's
 #: ``bootstrap`` field, bound by ``explorer.ui.state.control``).
 BOOTSTRAP_KEY = "ctl_bootstrap"
 
 
-@st.cache_data(show_spinner="Computing the indices for every district and year…", max_entries=64)
+# cache_resource, not cache_data: the table of every district-year and index is read on
+# every redraw, and unpickling a copy of hundreds of thousands of rows each time costs more
+# than the rest of the redraw. The scope in the key keeps an upload's table to its session;
+# every reader filters it into a new frame and none changes it.
+@st.cache_resource(
+    show_spinner="Computing the indices for every district and year…", max_entries=16
+)
 def _indices(_panel, fingerprint: str, scope: str, method: str):
     return tidy(plain.PlainCompute(_panel).indices(method))
 
@@ -92,6 +98,11 @@ def _district_fits(_panel, fingerprint: str, scope: str, region: str, year: int,
     return tidy(plain.PlainCompute(_panel).district_fits(region, year, methods))
 
 
+@st.cache_data(show_spinner=False, max_entries=256)
+def _district_welfare(_panel, fingerprint: str, scope: str, region: str, year: int, method: str):
+    return tidy(plain.PlainCompute(_panel).district_welfare(region, year, method))
+
+
 # cache_data, not cache_resource: an upload's clusters are user data, and cache_resource would
 # hand one shared object to every session.
 @st.cache_data(show_spinner="Testing for spatial clustering (permutations)…", max_entries=32)
@@ -99,34 +110,12 @@ def _clusters(_panel, fingerprint: str, scope: str, values: pd.Series, permutati
     return plain.clusters(_panel, values, permutations)
 
 
-@st.cache_data(show_spinner=False, max_entries=64)
-def _map_features(_panel, fingerprint: str, scope: str, values: pd.DataFrame):
-    return plain.PlainCompute(_panel).map_features(values)
-
-
-class ChartSpec:
-    """A chart kept as its Vega-Lite spec: what is drawn, cached and exported.
-
-    Building an Altair chart and validating it costs more than drawing it; a spec built
-    once per view is reused on every redraw. ``to_dict`` makes it usable wherever a chart
-    is expected (PNG and SVG export, the report).
-    """
-
-    def __init__(self, spec: dict[str, Any]) -> None:
-        self.spec = spec
-
-    def to_dict(self, **_: Any) -> dict[str, Any]:
-        return self.spec
-
-
-@st.cache_data(show_spinner=False, max_entries=256)
-def _choropleth(_panel, fingerprint: str, scope: str, values: pd.DataFrame, labels: str):
-    import json
-
-    from explorer.present import charts
-
-    features = _map_features(_panel, fingerprint, scope, values)
-    return charts.choropleth(features, **json.loads(labels)).to_dict()
+# cache_resource: the outlines of thousands of districts are read on every redraw of a map,
+# and a copy per read (cache_data) costs more than the redraw. The key holds the scope, so
+# an upload's outlines are never handed to another session; nothing changes them.
+@st.cache_resource(show_spinner="Simplifying the district boundaries…", max_entries=8)
+def _map_outlines(_panel, fingerprint: str, scope: str):
+    return plain.PlainCompute(_panel).map_outlines()
 
 
 @dataclass(frozen=True)
@@ -189,14 +178,23 @@ class CachedCompute:
     def district_fits(self, region: str, year: int, methods: Sequence[str]) -> pd.DataFrame:
         return _district_fits(*self._key(), str(region), int(year), tuple(methods))
 
+    def district_welfare(self, region: str, year: int, method: str) -> pd.DataFrame:
+        method = method if self.panel.kind == "brackets" else "auto"
+        return _district_welfare(*self._key(), str(region), int(year), method)
+
+    def map_outlines(self) -> Any:
+        return _map_outlines(*self._key())
+
     def map_features(self, values: pd.DataFrame) -> list[dict[str, Any]]:
-        return _map_features(*self._key(), values)
+        from explorer.present import charts
 
-    def choropleth(self, values: pd.DataFrame, **labels: Any) -> ChartSpec:
-        import json
+        return charts.join_values(self.map_outlines(), values)
 
-        shown = {k: list(v) if isinstance(v, tuple) else v for k, v in labels.items()}
-        return ChartSpec(_choropleth(*self._key(), values, json.dumps(shown, sort_keys=True)))
+    def choropleth(self, values: pd.DataFrame, **labels: Any) -> Any:
+        # nothing to cache: the outlines are cached, the rest is a few small tables
+        from explorer.present.district_map import DistrictMap
+
+        return DistrictMap(self.map_outlines(), values, **labels)
 
 
 # cache_resource: one object for every session showing the same view of the same data

@@ -72,30 +72,28 @@ def _convert(figure: Any) -> dict[str, Any]:
 
 
 def spec_of(figure: Any) -> dict[str, Any]:
-    """The spec to draw for an Altair chart, a :class:`ChartSpec` or a spec dict.
+    """The spec to draw for an Altair chart, a district map or a spec dict.
 
     Parameters
     ----------
-    figure : altair.TopLevelMixin, explorer.ui.cache.ChartSpec or dict
-        What to draw. A ``ChartSpec`` or dict is already a spec and is returned as is.
+    figure : altair.TopLevelMixin, explorer.present.district_map.DistrictMap or dict
+        What to draw. A dict is already a spec and is returned as is.
 
     Returns
     -------
     dict
         A Vega-Lite spec whose tables are Arrow bytes; not to be changed by the caller.
     """
-    from explorer.ui.cache import ChartSpec
-
     if isinstance(figure, dict):
         return figure
-    if isinstance(figure, ChartSpec):
-        return figure.spec
+    # A district map draws its live spec: the outlines' spec stays the same between views.
+    live = getattr(figure, "live_spec", None)
     with _specs_lock:
         held = _specs.get(id(figure))
         if held is not None and held[0] is figure:
             _specs.move_to_end(id(figure))
             return held[1]
-    spec = _convert(figure)
+    spec = live() if callable(live) else _convert(figure)
     with _specs_lock:
         # Holding the chart keeps its id from being reused while its spec is kept.
         _specs[id(figure)] = (figure, spec)
@@ -109,7 +107,7 @@ def chart(figure: Any, **options: Any) -> Any:
 
     Parameters
     ----------
-    figure : altair chart, ChartSpec or dict
+    figure : altair chart, DistrictMap or dict
         What to draw.
     **options
         Passed to ``st.vega_lite_chart``: ``key``, ``theme``, ``width``, ``height``,

@@ -48,6 +48,21 @@ def charts(at: AppTest) -> list:
     return list(at.get("vega_lite_chart"))
 
 
+def chart_words(chart) -> str:
+    """A chart's spec and every text of the tables sent beside it (Arrow IPC streams)."""
+    import pyarrow as pa
+
+    words = [chart.proto.spec]
+    for dataset in chart.proto.datasets:
+        table = pa.ipc.open_stream(dataset.data.data).read_all()
+        for column in table.column_names:
+            if pa.types.is_string(table[column].type) or pa.types.is_large_string(
+                table[column].type
+            ):
+                words.extend(str(v) for v in table[column].to_pylist() if v is not None)
+    return " ".join(words)
+
+
 def _walk(node):
     for child in getattr(node, "children", {}).values():
         yield child

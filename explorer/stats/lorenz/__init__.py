@@ -42,7 +42,8 @@ One module per family of curve, and the shared parts beside them:
   ``lognormal``; ``parametric``: batched least squares and grid integrals they share;
 * ``indices_from_curve``: node averages of the slope, shares, notes on infinite values;
 * ``curves``: the method table and one fitted batch;
-* ``batch``: :func:`fit_points`, :func:`fit_panel`, :class:`LorenzFits`, the ``auto`` choice.
+* ``batch``: :func:`fit_points`, :func:`fit_panel`, :func:`fit_panel_methods`,
+  :class:`LorenzFits`, the ``auto`` choice.
 
 References
 ----------
@@ -68,6 +69,7 @@ from explorer.stats.lorenz.batch import (
     CurveIndex,
     LorenzFits,
     fit_panel,
+    fit_panel_methods,
     fit_points,
 )
 from explorer.stats.lorenz.beta import BETA_SLOPE_FROM
@@ -87,6 +89,7 @@ __all__ = [
     "LorenzFits",
     "ProbitGrid",
     "fit_panel",
+    "fit_panel_methods",
     "fit_points",
     "indices_from_slope",
     "panel_points",

@@ -22,6 +22,7 @@ __all__ = [
     "CurveIndex",
     "LorenzFits",
     "fit_panel",
+    "fit_panel_methods",
     "fit_points",
 ]
 
@@ -159,10 +160,14 @@ def _fit_batch(prepared, method):
     return batch, np.sum(err * err, axis=1), np.max(np.abs(err), axis=1)
 
 
-def _auto_batch(P, L):
-    """The best valid parametric fit per row, else pchip, else linear."""
+def _auto_batch(P, L, prepared=None):
+    """The best valid parametric fit per row, else pchip, else linear.
+
+    Returns every candidate's fit by name (they are the same as fitting that method
+    alone) and the method used per row.
+    """
     n = P.shape[0]
-    prepared = _prepare(P, L)
+    prepared = _prepare(P, L) if prepared is None else prepared
     fits = {m: _fit_batch(prepared, m) for m in (*AUTO_ORDER, "pchip", "linear")}
     best = np.full(n, -1)
     best_sse = np.full(n, np.inf)
@@ -210,18 +215,43 @@ def _assemble(method, batches, n, keys) -> LorenzFits:
     )
 
 
+def _auto_pieces(fits, used, rows):
+    pieces = []
+    for name in np.unique(used):
+        local = np.flatnonzero(used == name)
+        batch, sse, err = fits[name]
+        pieces.append((rows[local], batch.take(local), sse[local], err[local], name))
+    return pieces
+
+
 def _fit_rows(P, L, method, rows):
     """Pieces for one bracket-count batch, given the batch's rows in the full table."""
     if method == "auto":
-        fits, used = _auto_batch(P, L)
-        pieces = []
-        for name in np.unique(used):
-            local = np.flatnonzero(used == name)
-            batch, sse, err = fits[name]
-            pieces.append((rows[local], batch.take(local), sse[local], err[local], name))
-        return pieces
+        return _auto_pieces(*_auto_batch(P, L), rows)
     batch, sse, err = _fit_batch(_prepare(P, L), method)
     return [(rows, batch, sse, err, method)]
+
+
+def _fit_rows_many(P, L, methods, rows) -> dict[str, list]:
+    """Pieces of several methods for one batch: points checked once, fits shared.
+
+    ``auto`` fits every candidate anyway; a method among them asked for as well is
+    taken from there instead of being fitted again.
+    """
+    prepared = _prepare(P, L)
+    done: dict[str, tuple] = {}
+    out = {}
+    if "auto" in methods:
+        done, used = _auto_batch(P, L, prepared)
+        out["auto"] = _auto_pieces(done, used, rows)
+    for method in methods:
+        if method == "auto":
+            continue
+        if method not in done:
+            done[method] = _fit_batch(prepared, method)
+        batch, sse, err = done[method]
+        out[method] = [(rows, batch, sse, err, method)]
+    return out
 
 
 def _check_method(method: str) -> None:
@@ -309,3 +339,38 @@ def fit_panel(panel: Panel, method: str = "auto") -> LorenzFits:
     for rows, P, L in batches:
         pieces.extend(_fit_rows(P, L, method, rows))
     return _assemble(method, pieces, len(keys), keys)
+
+
+def fit_panel_methods(panel: Panel, methods: Sequence[str]) -> dict[str, LorenzFits]:
+    """:func:`fit_panel` of several methods at once, sharing the work they have in common.
+
+    The panel's points are gathered and checked once, and the candidates ``auto`` fits
+    (``gq, beta, lognormal, quadratic, pchip, linear``) are not fitted again when asked
+    for by name. Each result equals ``fit_panel(panel, method)``.
+
+    Parameters
+    ----------
+    panel : explorer.data.model.Panel
+        A bracket panel.
+    methods : sequence of str
+        Methods of :data:`METHODS`; repeats are fitted once.
+
+    Returns
+    -------
+    dict of str to LorenzFits
+        One entry per distinct method, in the order asked.
+    """
+    methods = tuple(dict.fromkeys(methods))
+    for method in methods:
+        _check_method(method)
+    if getattr(panel, "kind", "brackets") != "brackets":
+        raise _refuse(
+            f"Lorenz curves need bracket shares, but this is a {panel.kind!r} panel",
+            "load a table of income shares by population bracket",
+        )
+    keys, batches = panel_points(panel)
+    pieces: dict[str, list] = {m: [] for m in methods}
+    for rows, P, L in batches:
+        for method, got in _fit_rows_many(P, L, methods, rows).items():
+            pieces[method].extend(got)
+    return {m: _assemble(m, pieces[m], len(keys), keys) for m in methods}

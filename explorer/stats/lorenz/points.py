@@ -103,6 +103,34 @@ def _prepare(P, L):
     return P, L, good, point_reason
 
 
+def _arrow_text(column: pd.Series) -> bool:
+    return getattr(column.dtype, "storage", None) == "pyarrow" and column.dtype.kind in "OSU"
+
+
+def _differs_from_previous(column: pd.Series) -> np.ndarray:
+    """Whether each value after the first differs from the one before it.
+
+    Arrow-backed text is compared in Arrow: making a Python object of every id first
+    costs more than the whole comparison.
+    """
+    if _arrow_text(column) and len(column) > 1:
+        import pyarrow as pa
+        import pyarrow.compute as pc
+
+        values = pa.array(column)
+        differs = pc.not_equal(values.slice(1), values.slice(0, len(values) - 1))
+        return differs.fill_null(True).to_numpy(zero_copy_only=False).astype(bool)
+    values = column.to_numpy()
+    return values[1:] != values[:-1]
+
+
+def _taken(column: pd.Series, rows: np.ndarray):
+    """The values at ``rows``: Arrow text stays Arrow text, anything else as numpy."""
+    if _arrow_text(column):
+        return column.iloc[rows].reset_index(drop=True)
+    return column.to_numpy()[rows]
+
+
 def panel_points(
     panel: Panel,
 ) -> tuple[pd.DataFrame, list[tuple[np.ndarray, np.ndarray, np.ndarray]]]:
@@ -122,13 +150,12 @@ def panel_points(
         income shares, divided by their totals so every curve ends exactly at (1, 1).
     """
     data = panel.data
-    region = data["region"].to_numpy()
     year = data["year"].to_numpy()
     change = np.ones(len(data), bool)
-    change[1:] = (region[1:] != region[:-1]) | (year[1:] != year[:-1])
+    change[1:] = _differs_from_previous(data["region"]) | (year[1:] != year[:-1])
     starts = np.flatnonzero(change)
     counts = np.diff(np.append(starts, len(data)))
-    keys = pd.DataFrame({"region": region[starts], "year": year[starts]})
+    keys = pd.DataFrame({"region": _taken(data["region"], starts), "year": year[starts]})
     pop = data["pop_share"].to_numpy(dtype=float)
     inc = data["income_share"].to_numpy(dtype=float)
     batches = []
