@@ -63,7 +63,8 @@ def _convert(figure: Any) -> dict[str, Any]:
     alt.data_transformers.register("rift_arrow", _to_arrow)
     with _altair_lock:
         # Altair's default theme sets a fixed size that Streamlit's layout does not want.
-        theme = alt.theme.enable("none") if alt.theme.active == "default" else nullcontext()
+        themes = getattr(alt, "theme", None) or alt.themes  # alt.theme from Altair 5.5
+        theme = themes.enable("none") if themes.active == "default" else nullcontext()
         with theme, alt.data_transformers.enable("rift_arrow", datasets=datasets):
             spec = figure.to_dict(validate=_checking())
     carried = spec.get("datasets")
