@@ -329,16 +329,21 @@ def fit_panel(panel: Panel, method: str = "auto") -> LorenzFits:
     As for :func:`fit_points`.
     """
     _check_method(method)
-    if getattr(panel, "kind", "brackets") != "brackets":
-        raise _refuse(
-            f"Lorenz curves need bracket shares, but this is a {panel.kind!r} panel",
-            "load a table of income shares by population bracket",
-        )
+    _require_brackets(panel)
     keys, batches = panel_points(panel)
     pieces = []
     for rows, P, L in batches:
         pieces.extend(_fit_rows(P, L, method, rows))
     return _assemble(method, pieces, len(keys), keys)
+
+
+def _require_brackets(panel: Panel) -> None:
+    """Refuse a panel that is not bracket shares, saying what to load instead."""
+    if getattr(panel, "kind", "brackets") != "brackets":
+        raise _refuse(
+            f"Lorenz curves need bracket shares, but this is a {panel.kind!r} panel",
+            "load a table of income shares by population bracket",
+        )
 
 
 def fit_panel_methods(panel: Panel, methods: Sequence[str]) -> dict[str, LorenzFits]:
@@ -363,11 +368,7 @@ def fit_panel_methods(panel: Panel, methods: Sequence[str]) -> dict[str, LorenzF
     methods = tuple(dict.fromkeys(methods))
     for method in methods:
         _check_method(method)
-    if getattr(panel, "kind", "brackets") != "brackets":
-        raise _refuse(
-            f"Lorenz curves need bracket shares, but this is a {panel.kind!r} panel",
-            "load a table of income shares by population bracket",
-        )
+    _require_brackets(panel)
     keys, batches = panel_points(panel)
     pieces: dict[str, list] = {m: [] for m in methods}
     for rows, P, L in batches:
